@@ -322,8 +322,8 @@ def _parse_plant(t: dict, src: str) -> Plant:
         if forms[0] == "numerator/denominator":
             for k in ("numerator", "denominator"):
                 if k not in t:
-                    raise InputError(f"missing; the coefficient form needs both numerator and "
-                                     f"denominator", src, f"plant.{k}")
+                    raise InputError("missing; the coefficient form needs both numerator and "
+                                     "denominator", src, f"plant.{k}")
             num = _numlist(t["numerator"], src, "plant.numerator")
             den = _numlist(t["denominator"], src, "plant.denominator")
             return Plant.from_coefficients(num, den, **kw)
