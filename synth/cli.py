@@ -84,10 +84,10 @@ def explain(
     json_out: str | None = typer.Option(None, "--json", help="Write the synth.explain/1 JSON here."),
 ) -> None:
     """What proportional gain alone can and cannot do for the plant, and why."""
-    from synth.explain import explain_problem
-
     _check_output_path(json_out, "--json")
     problem = _load(file)
+    from synth.explain import explain_problem
+
     result = explain_problem(problem)
     doc = result.to_json()
     _echo_lines(result.text_lines())
@@ -114,11 +114,11 @@ def trace(
     json_out: str | None = typer.Option(None, "--json", help="Write the synth.trace/1 JSON here."),
 ) -> None:
     """The root locus of the plant, or of a chosen design's loop, with its special points."""
-    from synth.locus import trace_design_loop, trace_problem
-
     _check_output_path(plot, "--plot", (".png", ".svg"))
     _check_output_path(json_out, "--json")
     problem = _load(file)
+    from synth.locus import trace_design_loop, trace_problem
+
     if design:
         path, rank = _split_design_ref(design)
         from synth.compare import load_design_json
@@ -153,15 +153,15 @@ def design(
         None, "--sample-time", help="Also give each design in discrete time (Tustin, seconds)."),
 ) -> None:
     """Search compensator structures, verify every candidate, rank the feasible designs."""
-    from synth.design import run_design
-    from synth.progress import terminal_progress
-
     _check_output_path(json_out, "--json")
     if sample_time is not None and not (sample_time > 0 and sample_time < 1e6):
         raise OptionError(f"--sample-time {sample_time:g}: must be a positive number of seconds")
     if report is not None and Path(report).exists() and not Path(report).is_dir():
         raise OptionError(f"--report {report}: exists and is not a folder")
     problem = _load(file)
+    from synth.design import run_design
+    from synth.progress import terminal_progress
+
     with terminal_progress("searching") as progress:
         run = run_design(problem, progress=progress)
     doc = run.to_json()
@@ -190,10 +190,10 @@ def compare(
     plot: str | None = typer.Option(None, "--plot", help="Overlay the top designs' step responses (.png or .svg)."),
 ) -> None:
     """Rankings and metrics of several design runs side by side."""
-    from synth.compare import compare_runs, load_design_json
-
     if len(files) < 2:
         raise OptionError("compare needs at least two design JSON files")
+    from synth.compare import compare_runs, load_design_json
+
     _check_output_path(json_out, "--json")
     _check_output_path(plot, "--plot", (".png", ".svg"))
     runs = [(f, load_design_json(f)) for f in files]
@@ -229,13 +229,22 @@ def main(argv: list[str] | None = None) -> None:
         msg = " ".join(err.format_message().split())
         typer.echo(f"synth: error: {msg} (see synth --help)", err=True)
         sys.exit(EXIT_BAD_INPUT)
-    except clickex.Exit as err:
+    except clickex.ClickException as err:
+        typer.echo(f"synth: error: {' '.join(err.format_message().split())}", err=True)
+        sys.exit(EXIT_BAD_INPUT)
+    except typer.Exit as err:
         sys.exit(err.exit_code)
-    except (clickex.Abort, KeyboardInterrupt):
+    except (typer.Abort, KeyboardInterrupt):
         typer.echo("synth: interrupted", err=True)
         sys.exit(130)
     except BrokenPipeError:
         sys.exit(0)
+    except Exception as err:  # a bug: say so in one line; SYNTH_DEBUG=1 shows the traceback
+        if os.environ.get("SYNTH_DEBUG"):
+            raise
+        typer.echo(f"synth: internal error ({type(err).__name__}: {err}); please report it "
+                   "with the input file (set SYNTH_DEBUG=1 for details)", err=True)
+        sys.exit(1)
     sys.exit(rv if isinstance(rv, int) else 0)
 
 
