@@ -133,7 +133,7 @@ def _root_factors(roots: np.ndarray, var: str, digits: int) -> list[str]:
     tol = 1e-9
     factors: list[str] = []
     used = np.zeros(roots.size, dtype=bool)
-    order = np.argsort(-np.abs(roots) if roots.size else roots)[::-1]
+    order = np.argsort(np.abs(roots), kind="stable")  # smallest first: s, (s + 1), ...
     for idx in order:
         if used[idx]:
             continue
