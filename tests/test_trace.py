@@ -2,7 +2,7 @@
 
 External references used here:
 
-* numpy.roots (closed-loop roots at every traced gain; Aberth results);
+* numpy.roots (closed-loop roots at every traced gain and of the batched solver);
 * scipy.optimize.linear_sum_assignment (as an independent matcher when
   comparing root sets);
 * the contract's synth.trace/1 object (/work/shared/contract.md, "JSON
@@ -26,7 +26,7 @@ from scipy.optimize import linear_sum_assignment
 
 from synth.errors import InputError
 from synth.locus.branches import track_branches
-from synth.locus.grid import aberth_roots, adaptive_grid
+from synth.locus.grid import adaptive_grid, batch_roots
 from synth.locus.trace import trace_locus
 from synth.report.locus_plot import plot_locus
 from synth.requirements import Region
@@ -135,16 +135,17 @@ def test_branch_through_infinity_equal_degrees():
     json.dumps(t.to_json(), allow_nan=False)
 
 
-def test_aberth_matches_numpy_roots():
+def test_batch_roots_match_numpy_roots():
+    # numpy.roots per gain is the reference for the batched eigenvalues
     rng = np.random.default_rng(3)
-    polys = rng.normal(size=(50, 9))
-    ref = [np.roots(p) for p in polys]
-    init = np.stack(ref) * (1 + 1e-3 * rng.normal(size=(50, 8)))
-    z, ok = aberth_roots(polys, init, maxit=10)
-    assert ok.mean() > 0.9
-    for zi, ri, good in zip(z, ref, ok, strict=True):
-        if good:
-            assert match_error(zi, ri) < 1e-9
+    num, den = rng.normal(size=4), rng.normal(size=9)
+    ks = np.concatenate([-np.geomspace(1e-3, 1e3, 20), np.geomspace(1e-3, 1e3, 20)])
+    got = batch_roots(num, den, ks)
+    for k, row in zip(ks, got, strict=True):
+        assert match_error(row, np.roots(np.polyadd(den, k * num))) < 1e-9
+    # equal degrees: at K = -d0/n0 the degree drops and one root is infinite
+    row = batch_roots([2.0, 1.0], [1.0, 3.0], [-0.5])[0]
+    assert np.isinf(row[0]) or np.isinf(row[-1])
 
 
 def test_grid_refines_where_roots_move_fast():

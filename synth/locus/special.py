@@ -325,7 +325,17 @@ def _cluster(roots: np.ndarray, ref: float) -> tuple[np.ndarray, np.ndarray]:
     return np.asarray(values, dtype=complex), np.asarray(mult, dtype=int)
 
 
-def _polish(p: np.ndarray, z: np.ndarray, steps: int = 2) -> np.ndarray:
+def _horner2(p: np.ndarray, z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Values and first derivatives of ``p`` at ``z`` in one Horner pass."""
+    val = np.full(z.shape, p[0], dtype=complex)
+    der = np.zeros(z.shape, dtype=complex)
+    for c in p[1:]:
+        der = der * z + val
+        val = val * z + c
+    return val, der
+
+
+def _polish(p: np.ndarray, z: np.ndarray, steps: int = 1) -> np.ndarray:
     """Newton steps on simple roots.
 
     A step is kept only when it lowers ``|p|`` and stays well inside the gap to
@@ -333,22 +343,23 @@ def _polish(p: np.ndarray, z: np.ndarray, steps: int = 2) -> np.ndarray:
     """
     if z.size == 0 or p.size < 2:
         return z
-    dp = np.polyder(p)
     z = z.copy()
-    gap = np.abs(z[:, None] - z[None, :])
-    np.fill_diagonal(gap, np.inf)
-    gap = np.min(gap, axis=1) if z.size > 1 else np.full(1, np.inf)
+    if z.size > 1:
+        gap = np.abs(z[:, None] - z[None, :])
+        np.fill_diagonal(gap, np.inf)
+        gap = np.min(gap, axis=1)
+    else:
+        gap = np.full(1, np.inf)
+    f, df = _horner2(p, z)
     for _ in range(steps):
         with np.errstate(all="ignore"):
-            f = np.polyval(p, z)
-            step = f / np.polyval(dp, z)
+            step = f / df
             znew = z - step
-            better = (
-                np.isfinite(znew)
-                & (np.abs(step) < 0.1 * gap)
-                & (np.abs(np.polyval(p, znew)) < np.abs(f))
-            )
+            fnew, dfnew = _horner2(p, znew)
+            better = np.isfinite(znew) & (np.abs(step) < 0.1 * gap) & (np.abs(fnew) < np.abs(f))
         z = np.where(better, znew, z)
+        f = np.where(better, fnew, f)
+        df = np.where(better, dfnew, df)
     return z
 
 
@@ -398,8 +409,9 @@ def _trim_rel(p: np.ndarray, rtol: float = 1e-13) -> np.ndarray:
 def _deg_angle(x: np.ndarray) -> np.ndarray:
     """Degrees folded into (-180, 180]."""
     a = np.mod(np.asarray(x, dtype=float) + 180.0, 360.0) - 180.0
-    a = np.where(a <= -180.0 + 1e-9, 180.0, a)
-    return np.where(np.abs(a) < 1e-9, 0.0, a)
+    a[a <= -180.0 + 1e-9] = 180.0
+    a[np.abs(a) < 1e-9] = 0.0
+    return a
 
 
 # ---------------------------------------------------------------------------
@@ -557,30 +569,39 @@ def arrival_angles(num, den, negative: bool = False) -> tuple[PointAngles, ...]:
     return locus_facts(num, den).for_sign(negative).arrivals
 
 
-def _point_angles(points, mult, others, others_mult, same, same_mult, lead_ratio, sign):
+def _point_angles(points, mult, others, others_mult, lead_ratio):
     """Departure angles (points = poles, others = zeros, ``lead_ratio = n0/d0``) or
     arrival angles (points = zeros, others = poles, ``lead_ratio = d0/n0``).
 
-    Both follow ``(s - p)^r ~ -sign * lead_ratio * prod(p - others) / prod(p - same)``.
+    Both follow ``(s - p)^r ~ -sign(K) * lead_ratio * prod(p - others) / prod(p - same)``,
+    the products running over the other points with their multiplicities.
+
+    Returns
+    -------
+    positive, negative : tuple of PointAngles
+        For ``K > 0`` and ``K < 0`` (the phases differ by 180 degrees).
     """
-    out = []
-    for k, (p, r) in enumerate(zip(points, mult, strict=True)):
-        dz = p - others
-        close = np.abs(dz) <= 1e-9 * max(abs(p), 1.0)
-        if np.any(close):
-            out.append(PointAngles(complex(p), int(r), ()))
-            continue
-        ds = np.delete(p - same, k)
-        dsm = np.delete(same_mult, k)
-        ang_other = np.sum(others_mult * np.angle(dz))
-        ang_same = np.sum(dsm * np.angle(ds))
-        # poles: (s-p)^r = -K N(p)/c_p ; zeros: (s-z)^r = -D(z)/(K c_z)
+    points = np.asarray(points, dtype=complex)
+    if points.size == 0:
+        return (), ()
+    dz = points[:, None] - np.asarray(others, dtype=complex)[None, :]
+    ds = points[:, None] - points[None, :]
+    cancelled = np.any(np.abs(dz) <= 1e-9 * np.maximum(np.abs(points), 1.0)[:, None], axis=1)
+    ang_other = np.sum(np.asarray(others_mult)[None, :] * np.angle(dz), axis=1) if dz.size else 0.0
+    offdiag = ~np.eye(points.size, dtype=bool)
+    ang_same = np.sum(np.where(offdiag, mult[None, :] * np.angle(ds), 0.0), axis=1)
+    phase = np.broadcast_to(ang_other - ang_same, points.shape)
+    sides = []
+    for sign in (1.0, -1.0):
         base = math.atan2(0.0, -sign * lead_ratio)
-        phase = base + ang_other - ang_same
-        angles = np.degrees((phase + 2.0 * np.pi * np.arange(r)) / r)
-        folded = np.sort(_deg_angle(angles))
-        out.append(PointAngles(complex(p), int(r), tuple(float(a) for a in folded)))
-    return tuple(out)
+        out = []
+        folded_all = [np.sort(_deg_angle(np.degrees((base + ph + 2.0 * np.pi * np.arange(r)) / r)))
+                      for ph, r in zip(phase, mult, strict=True)]
+        for p, r, gone, folded in zip(points, mult, cancelled, folded_all, strict=True):
+            angles = () if gone else tuple(float(x) for x in folded)
+            out.append(PointAngles(complex(p), int(r), angles))
+        sides.append(tuple(out))
+    return sides[0], sides[1]
 
 
 def _breakaways(n, d, ns, ds, rho, kscale):
@@ -594,28 +615,28 @@ def _breakaways(n, d, ns, ds, rho, kscale):
     if b.size < 2:
         return (), ()
     vals, mult = _roots_distinct(b, 1.0)
-    db = np.polyder(b)
-    for z, mu in zip(vals, mult, strict=True):
-        if not np.isfinite(z) or abs(z) > _FAR:
+    keep = np.isfinite(vals) & (np.abs(vals) <= _FAR)
+    vals, mult = vals[keep], mult[keep]
+    nz = np.polyval(ns, vals)
+    dz = np.polyval(ds, vals)
+    slope = np.polyval(np.polyder(b), vals.real)
+    # a candidate at a multiple zero meets at K = inf: skip it
+    finite = np.abs(nz) > 1e-12 * np.max(np.abs(ns)) * np.maximum(1.0, np.abs(vals)) ** (ns.size - 1)
+    with np.errstate(all="ignore"):
+        k = np.where(finite, -dz / np.where(finite, nz, 1.0), np.inf)
+    for z, mu, kk, sl in zip(vals, mult, k, slope, strict=True):
+        if not np.isfinite(kk) or abs(kk) <= _ZERO_K_RTOL * kscale:
+            continue  # K = inf, or K = 0 (a multiple pole)
+        if abs(kk.imag) > _IMAG_K_RTOL * abs(kk):
             continue
-        nz = np.polyval(ns, z)
-        dz = np.polyval(ds, z)
-        if abs(nz) <= 1e-12 * np.max(np.abs(ns)) * max(1.0, abs(z)) ** (ns.size - 1):
-            continue  # a multiple zero: the roots meet at K = inf
-        k = -dz / nz
-        if abs(k) <= _ZERO_K_RTOL * kscale:
-            continue  # a multiple pole: the roots meet at K = 0
-        if abs(k.imag) > _IMAG_K_RTOL * abs(k):
-            continue
-        kr = float(k.real)
+        kr = float(kk.real)
         s = complex(z) * rho
         if abs(z.imag) <= 1e-9 * max(abs(z), 1.0):
             s = complex(s.real, 0.0)
             if mu > 1:
                 kind = "multiple"
             else:
-                slope = float(np.polyval(db, z.real))
-                kind = "breakaway" if np.sign(kr) * slope > 0 else "break-in"
+                kind = "breakaway" if np.sign(kr) * sl > 0 else "break-in"
         else:
             kind = "complex"
         bp = BreakPoint(s, kr, kind, int(mu) + 1)
@@ -706,16 +727,18 @@ def locus_facts(num, den) -> LocusFacts:
     bpos, bneg = _breakaways(n, d, ns, ds, rho, kscale)
     cpos, cneg = _crossings(n, d, ns, ds, rho, kscale)
 
+    dep = _point_angles(poles, pm, zeros, zm, lead)
+    arr = _point_angles(zeros, zm, poles, pm, 1.0 / lead)
+
     def side(negative: bool, brk, crs) -> SpecialPoints:
-        sign = -1.0 if negative else 1.0
         return SpecialPoints(
             positive_gain=not negative,
             asymptotes=_asymptotes(n, d, negative),
             segments=_segments(n, d, poles, zeros, rho, negative),
             breakaways=brk,
             crossings=crs,
-            departures=_point_angles(poles, pm, zeros, zm, poles, pm, lead, sign),
-            arrivals=_point_angles(zeros, zm, poles, pm, zeros, zm, 1.0 / lead, sign),
+            departures=dep[1] if negative else dep[0],
+            arrivals=arr[1] if negative else arr[0],
         )
 
     return LocusFacts(
