@@ -45,18 +45,33 @@ def _fmt(x: float) -> str:
 
 
 def _frame(trace, extra: np.ndarray, region) -> tuple[float, float, float, float]:
-    """Axis limits (x0, x1, y0, y1) around the interesting points."""
+    """Axis limits (x0, x1, y0, y1) around the interesting points.
+
+    The poles, zeros, centroid and operating poles always count; breakaway
+    points and axis crossings count when they lie within three sizes of that
+    core box (a crossing at an absurd gain far out would otherwise shrink the
+    part that matters).
+    """
     p = trace.points
-    pts = [trace.poles, trace.zeros, np.asarray([b.s for b in p.breakaways], dtype=complex)]
-    w = np.asarray([c.frequency for c in p.crossings], dtype=float)
-    pts.append(np.concatenate([1j * w, -1j * w]))
+    core = [trace.poles, trace.zeros, np.asarray(extra, dtype=complex)]
     if p.asymptotes.centroid is not None:
-        pts.append(np.asarray([p.asymptotes.centroid], dtype=complex))
-    pts.append(np.asarray(extra, dtype=complex))
-    z = np.concatenate(pts)
+        core.append(np.asarray([p.asymptotes.centroid], dtype=complex))
+    z = np.concatenate(core)
     z = z[np.isfinite(z)]
     if z.size == 0:
         z = np.zeros(1, dtype=complex)
+    cx0, cx1 = float(z.real.min()), float(z.real.max())
+    cy = float(np.abs(z.imag).max())
+    size = max(cx1 - cx0, 2 * cy)
+    if size <= 1e-9 * max(abs(cx0), abs(cx1), 1e-300):
+        size = trace.scale  # a single point: use the locus's own size
+    w = np.asarray([c.frequency for c in p.crossings], dtype=float)
+    special = np.concatenate([np.asarray([b.s for b in p.breakaways], dtype=complex),
+                              1j * w, -1j * w])
+    if special.size:
+        dx = np.maximum(np.maximum(cx0 - special.real, special.real - cx1), 0.0)
+        dy = np.maximum(np.abs(special.imag) - cy, 0.0)
+        z = np.concatenate([z, special[np.hypot(dx, dy) <= 3.0 * size]])
     x0, x1 = float(z.real.min()), float(z.real.max())
     y1 = float(np.abs(z.imag).max())
     span = max(x1 - x0, 2 * y1, 1e-9 * max(abs(x0), abs(x1)), 1e-12)
@@ -75,6 +90,44 @@ def _frame(trace, extra: np.ndarray, region) -> tuple[float, float, float, float
     half_w = max(0.5 * (x1 - x0) + pad, 1.3 * half_h)
     cx = 0.5 * (x0 + x1)
     return cx - half_w, cx + half_w, -half_h, half_h
+
+
+class _Labels:
+    """Places annotation labels so that they do not overlap (greedy, in pixels)."""
+
+    _OFFSETS = ((12, 10), (12, -26), (-74, 10), (-74, -26), (12, 30), (12, -46),
+                (-74, 30), (-74, -46), (40, -8), (-100, -8))
+
+    def __init__(self, ax, x0, x1, y0, y1):
+        self.ax = ax
+        self.lims = (x0, x1, y0, y1)
+        self.boxes: list[tuple[float, float, float, float]] = []
+
+    def add(self, text: str, x: float, y: float, color: str, box: dict) -> None:
+        x0, x1, y0, y1 = self.lims
+        if not (x0 <= x <= x1 and y0 <= y <= y1):
+            return  # outside the view
+        px, py = self.ax.transData.transform((x, y))
+        lines = text.split("\n")
+        w = 6.2 * max(len(t) for t in lines) + 6
+        h = 12.5 * len(lines) + 4
+        scale = self.ax.figure.dpi / 72.0
+        choice = self._OFFSETS[0]
+        for off in self._OFFSETS:
+            bx, by = px + off[0] * scale, py + off[1] * scale
+            rect = (bx, by, bx + w * scale, by + h * scale)
+            if not any(rect[0] < b[2] and b[0] < rect[2] and rect[1] < b[3] and b[1] < rect[3]
+                       for b in self.boxes):
+                choice = off
+                self.boxes.append(rect)
+                break
+        else:
+            bx, by = px + choice[0] * scale, py + choice[1] * scale
+            self.boxes.append((bx, by, bx + w * scale, by + h * scale))
+        self.ax.annotate(text, (x, y), xytext=choice, textcoords="offset points", fontsize=8.5,
+                         color=color, zorder=8, ha="left", va="bottom", bbox=box,
+                         arrowprops={"arrowstyle": "-", "color": color, "linewidth": 0.7,
+                                     "shrinkA": 0, "shrinkB": 4})
 
 
 def _region_polygon(region, x0: float, x1: float, y0: float, y1: float):
@@ -187,9 +240,11 @@ def plot_locus(trace, path, region=None, operating_gain: float | None = None,
                 label="open-loop zeros")
 
     label_box = {"boxstyle": "round,pad=0.25", "facecolor": "white", "edgecolor": "none", "alpha": 0.85}
-
-    def leader(color: str) -> dict:
-        return {"arrowstyle": "-", "color": color, "linewidth": 0.7, "shrinkA": 0, "shrinkB": 4}
+    # limits first, so that label placement works in the final pixel frame
+    ax.set_xlim(x0, x1)
+    ax.set_ylim(y0, y1)
+    ax.set_aspect("equal", adjustable="box")
+    labels = _Labels(ax, x0, x1, y0, y1)
 
     # repeated poles and zeros: say how many sit on one mark
     for values in (trace.poles, trace.zeros):
@@ -207,29 +262,20 @@ def plot_locus(trace, path, region=None, operating_gain: float | None = None,
         w = np.asarray([c.frequency for c in pts.crossings])
         ax.plot(np.zeros(2 * w.size), np.concatenate([w, -w]), linestyle="none", marker="D",
                 markersize=7, color=_CROSSING, zorder=7, label="imaginary-axis crossings")
-        for k, c in enumerate(pts.crossings):
-            ax.annotate(f"K = {_fmt(c.gain)}\nw = {_fmt(c.frequency)}", (0.0, c.frequency),
-                        xytext=(14, 10 + 16 * (k % 2)), textcoords="offset points", fontsize=8.5,
-                        color=_CROSSING, zorder=8, bbox=label_box, arrowprops=leader(_CROSSING))
+        for c in pts.crossings:
+            labels.add(f"K = {_fmt(c.gain)}\nw = {_fmt(c.frequency)}", 0.0, c.frequency,
+                       _CROSSING, label_box)
     if pts.breakaways:
         s = np.asarray([b.s for b in pts.breakaways])
         ax.plot(s.real, s.imag, linestyle="none", marker="s", markersize=7, color=_BREAK,
                 zorder=7, label="roots meet (breakaway / break-in)")
-        shown = sorted((b for b in pts.breakaways if b.s.imag >= 0), key=lambda b: b.s.real)
-        for k, b in enumerate(shown):
-            # real points: labels below the axis, staggered; complex ones beside the point
-            offset = (6, -22 - 16 * (k % 2)) if b.s.imag == 0 else (12, 10)
-            ax.annotate(f"K = {_fmt(b.gain)}", (b.s.real, b.s.imag), xytext=offset,
-                        textcoords="offset points", fontsize=8.5, color=_BREAK, zorder=8,
-                        ha="left", bbox=label_box, arrowprops=leader(_BREAK))
+        for b in sorted((b for b in pts.breakaways if b.s.imag >= 0), key=lambda b: b.s.real):
+            labels.add(f"K = {_fmt(b.gain)}", b.s.real, b.s.imag, _BREAK, label_box)
     if op_roots.size:
         ax.plot(op_roots.real, op_roots.imag, linestyle="none", marker="p", markersize=10,
                 markerfacecolor=_OPERATING, markeredgecolor=_INK, markeredgewidth=0.8, zorder=9,
                 label=f"closed-loop poles at K = {_fmt(operating_gain)}")
 
-    ax.set_xlim(x0, x1)
-    ax.set_ylim(y0, y1)
-    ax.set_aspect("equal", adjustable="box")
     ax.set_xlabel("real part of s  (1/s)")
     ax.set_ylabel("imaginary part of s  (rad/s)")
     sign = "K < 0" if trace.negative else "K > 0"
