@@ -22,6 +22,8 @@ import xml.etree.ElementTree as ET
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from scipy.optimize import linear_sum_assignment
 
 from synth.errors import InputError
@@ -185,3 +187,33 @@ def test_plot_png_and_svg(tmp_path):
         plot_locus(t, tmp_path / "locus.jpg")
     with pytest.raises(InputError):
         plot_locus(t, tmp_path / "missing" / "locus.png")
+
+
+@st.composite
+def loops(draw):
+    """Random loops, proper, with repeated poles and integrators allowed."""
+    grid = st.integers(-24, 4).map(lambda k: k / 4)
+    poles = [draw(grid) for _ in range(draw(st.integers(1, 5)))]
+    if draw(st.booleans()):
+        c = complex(draw(grid), draw(st.integers(1, 12)) / 4)
+        poles += [c, c.conjugate()]
+    m = draw(st.integers(0, len(poles)))
+    zeros = [draw(grid) for _ in range(m)]
+    gain = draw(st.sampled_from([-2.0, 0.5, 1.0, 10.0]))
+    num = gain * np.real(np.poly(zeros)) if zeros else np.array([gain])
+    return num, np.real(np.poly(poles)), draw(st.booleans())
+
+
+@settings(max_examples=25, deadline=None, derandomize=True)
+@given(loops())
+def test_random_loops_trace_cleanly(loop):
+    num, den, negative = loop
+    t = trace_locus(num, den, negative=negative, region=Region(sigma=0.2, zeta=0.3))
+    json.dumps(t.to_json(), allow_nan=False)
+    assert np.all(np.isfinite(t.roots))
+    assert np.all(t.gains * (-1 if negative else 1) >= 0)
+    # numpy.roots is the reference at a spread of the traced gains
+    for i in np.linspace(0, t.gains.size - 1, 12).astype(int):
+        ref = np.roots(np.polyadd(den, t.gains[i] * num))
+        assert match_error(t.roots[i], ref) < 1e-4
+    assert len(t.summary_lines()) >= 3

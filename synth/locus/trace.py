@@ -23,6 +23,7 @@ W. R. Evans, "Control system synthesis by root locus method", Trans. AIEE 69,
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -248,11 +249,16 @@ class LocusTrace:
         else:
             angles = ", ".join(_num(x, 4) for x in a.angles_deg)
             count = len(a.angles_deg)
-            lines.append(f"  {count} branch{'es' * (count != 1)} go to infinity from "
-                         f"s = {_num(a.centroid)} along {angles} deg")
+            verb = "branches go" if count != 1 else "branch goes"
+            lines.append(f"  {count} {verb} to infinity from s = {_num(a.centroid)} "
+                         f"along {angles} deg")
         if p.segments:
-            segs = ", ".join(f"[{_num(s.left)}, {_num(s.right)}]" for s in p.segments)
+            segs = ", ".join(
+                f"{'(' if math.isinf(s.left) else '['}{_num(s.left)}, {_num(s.right)}"
+                f"{')' if math.isinf(s.right) else ']'}" for s in p.segments)
             lines.append(f"  real axis on the locus: {segs}")
+        else:
+            lines.append("  no part of the real axis is on the locus")
         for b in p.breakaways:
             what = {"breakaway": "roots meet and leave the real axis",
                     "break-in": "roots arrive on the real axis",
@@ -264,19 +270,25 @@ class LocusTrace:
             where = "s = 0" if c.frequency == 0 else f"s = +/-{_num(c.frequency)}j"
             lines.append(f"  imaginary axis at {where} (w = {_num(c.frequency)} rad/s, "
                          f"K = {_num(c.gain)}, {move})")
-        for d in p.departures:
-            if d.point.imag > 0 or (d.multiplicity > 1 and d.point.imag == 0):
+        many = {2: "double ", 3: "triple "}
+        for items, verb, what in ((p.departures, "leave", "pole"), (p.arrivals, "arrive at", "zero")):
+            for d in items:
+                if not d.angles_deg or not (d.point.imag > 0 or d.multiplicity > 1):
+                    continue
                 ang = ", ".join(_num(x, 4) for x in d.angles_deg)
-                lines.append(f"  leaves pole {_cnum(d.point)} at {ang} deg")
-        for d in p.arrivals:
-            if d.point.imag > 0 or (d.multiplicity > 1 and d.point.imag == 0):
-                ang = ", ".join(_num(x, 4) for x in d.angles_deg)
-                lines.append(f"  reaches zero {_cnum(d.point)} at {ang} deg")
-        lines.append(f"  closed loop stable for {_intervals_text(self.stable_intervals)}")
+                kind = many.get(d.multiplicity, f"{d.multiplicity}-fold " if d.multiplicity > 1 else "")
+                lines.append(f"  branches {verb} the {kind}{what} {_cnum(d.point)} at {ang} deg")
+        if self.stable_intervals:
+            lines.append(f"  closed loop stable for {_intervals_text(self.stable_intervals)}")
+        else:
+            lines.append("  no gain makes the closed loop stable")
         if self.region is not None:
             desc = self.region.describe() if hasattr(self.region, "describe") else "the region"
-            lines.append(f"  every pole in the region ({desc}) for "
-                         f"{_intervals_text(self.region_intervals)}")
+            if self.region_intervals:
+                lines.append(f"  every pole in the region ({desc}) for "
+                             f"{_intervals_text(self.region_intervals)}")
+            else:
+                lines.append(f"  no gain puts every pole in the region ({desc})")
         return lines
 
 
@@ -322,11 +334,18 @@ def trace_locus(
     """
     from synth.errors import InputError
 
+    for name, value in (("largest gain to trace", k_max), ("grid tolerance", tol)):
+        if value is not None and not isinstance(value, int | float | np.floating | np.integer):
+            raise InputError(f"the {name} must be a number, not {value!r}")
     if k_max is not None and not (np.isfinite(k_max) and k_max > 0):
         raise InputError(f"the largest gain to trace must be a positive number, not {k_max}")
     if not (np.isfinite(tol) and 0 < tol < 2):
         raise InputError(f"the grid tolerance must be in (0, 2), not {tol}")
-    if int(max_points) < 8:
+    try:
+        max_points = int(max_points)
+    except (TypeError, ValueError):
+        raise InputError(f"the number of gain samples must be a whole number, not {max_points!r}") from None
+    if max_points < 8:
         raise InputError("at least 8 gain samples are needed")
     facts = locus_facts(num, den)
     n, d = facts.num, facts.den
