@@ -473,6 +473,15 @@ def test_plant_gain_range_robust_interval_against_numpy():
     for k in (2.05, 5.0):
         assert all(_stable([c], [1.0, -1.0], k) for c in np.linspace(0.5, 2.0, 31))
     assert not _stable([0.5], [1.0, -1.0], 1.95)
+    # a stable plant, 1/((s+1)(s+2)(s+3)): -6 < K < 60 (Routh by hand), so with factors in
+    # [0.5, 2] the robust set is one interval across K = 0: -3 < K < 30
+    den = np.poly([-1.0, -2.0, -3.0])
+    e = _explain([1.0], den, plant_gain_range=(0.5, 2.0))
+    ((lo, hi),) = e.robust_stabilizing
+    assert (lo, hi) == pytest.approx((-3.0, 30.0))
+    for k in (-2.9, 0.0, 29.9):
+        assert all(_stable([c], den, k) for c in np.linspace(0.5, 2.0, 31))
+    assert not _stable([2.0], den, 30.1) and not _stable([2.0], den, -3.1)
 
 
 def test_steady_state_error_type_zero():

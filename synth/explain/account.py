@@ -479,12 +479,12 @@ def explain_problem(problem) -> Explanation:
     reg_in = intersect(reg, *gr) if gr else list(reg)
     if gr:
         txt = (f"Within the allowed gain_range [{f.num(gr[0])}, {f.num(gr[1])}] the stabilising "
-               f"gains are {f.intervals(stab_in)}")
+               f"gains are {f.intervals(stab_in, none='none')}")
         if not region.is_stability_only:
-            txt += f" and the gains meeting the region {f.intervals(reg_in)}"
+            txt += f" and those meeting the region {f.intervals(reg_in, none='none')}"
         txt += "."
         if stab and not stab_in:
-            txt += " None of the stabilising gains is allowed."
+            txt += f" None of the stabilising gains ({f.intervals(stab)}) is allowed."
         reasons.append(Reason("gain_range", 0, txt, {"gain_range": list(gr),
                                                    "stabilizing": [list(iv) for iv in stab_in],
                                                    "requirement": [list(iv) for iv in reg_in]}))
@@ -500,10 +500,14 @@ def explain_problem(problem) -> Explanation:
     if pgr:
         rob_stab = tuple(robust_intervals(stab, *pgr))
         rob_reg = tuple(robust_intervals(reg, *pgr))
-        txt = (f"To stay stable with the plant gain scaled by any factor from {f.num(pgr[0])} to "
-               f"{f.num(pgr[1])}, K must lie in {f.intervals(rob_stab, none='no interval')}")
+        scaled = f"the plant gain scaled by any factor from {f.num(pgr[0])} to {f.num(pgr[1])}"
+        if rob_stab:
+            txt = f"To stay stable with {scaled}, K must satisfy {f.intervals(rob_stab)}"
+        else:
+            txt = f"No gain keeps the loop stable with {scaled}"
         if not region.is_stability_only:
-            txt += f"; to stay in the region, in {f.intervals(rob_reg, none='no interval')}"
+            txt += (f"; to stay in the region, {f.intervals(rob_reg)}" if rob_reg else
+                    "; no gain keeps it in the region")
         reasons.append(Reason("plant_gain_range", 0, txt + ".",
                               {"plant_gain_range": list(pgr),
                                "stabilizing": [list(iv) for iv in rob_stab],

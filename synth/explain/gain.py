@@ -111,7 +111,15 @@ def robust_intervals(intervals, lo_factor: float, hi_factor: float) -> list[Inte
         n_lo, n_hi = a / hi_factor, min(0.0, b / lo_factor)
         if n_lo < n_hi:
             out.append((_none(n_lo), _none(n_hi)))
-    return sorted(out, key=lambda iv: _lo(iv[0]))
+    out.sort(key=lambda iv: _lo(iv[0]))
+    # K = 0 is inside whenever it is inside an original interval: join the halves across it
+    merged: list[Interval] = []
+    for iv in out:
+        if merged and merged[-1][1] == 0.0 and iv[0] == 0.0 and contains(intervals, 0.0):
+            merged[-1] = (merged[-1][0], iv[1])
+        else:
+            merged.append(iv)
+    return merged
 
 
 def contains(intervals, k: float) -> bool:
