@@ -1,0 +1,320 @@
+"""Curves and drawings for one design of a report.
+
+:func:`design_curves` computes what the report shows for a design: the unit
+step response and control effort (exact dead time), the loop's frequency
+response and the sensitivity. The ``draw_*`` functions draw them into a
+matplotlib ``Figure`` or ``SubFigure`` (the root locus is drawn by
+:mod:`synth.report.locus_plot`) so the same drawing serves the HTML
+page (SVG) and the PDF (a region of a page).
+
+matplotlib is imported inside the functions only (see ``docs/internal-api.md``).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from synth.implementation import (
+    LoopFrequencyFacts,
+    loop_frequency_facts,
+    loop_parts,
+    loop_response,
+)
+
+__all__ = [
+    "PALETTE",
+    "DesignCurves",
+    "design_curves",
+    "draw_step",
+    "draw_bode",
+    "draw_sensitivity",
+]
+
+#: The report's own colours (name -> hex).
+PALETTE = {
+    "ink": "#22303c",
+    "muted": "#6b7885",
+    "grid": "#dde3e8",
+    "response": "#1b6f8a",
+    "effort": "#9a5b22",
+    "limit": "#b5485d",
+    "band": "#f2d98c",
+    "forbidden": "#f6e3e7",
+    "operating": "#2b9a5a",
+    "pole": "#22303c",
+    "zero": "#22303c",
+    "phase": "#5a4e9c",
+}
+
+@dataclass(frozen=True)
+class DesignCurves:
+    """Everything plotted for one design.
+
+    Attributes
+    ----------
+    t, y : ndarray
+        Time (s) and unit-step output.
+    u : ndarray or None
+        Compensator output; ``None`` when the compensator is improper (an
+        ideal derivative makes the effort to a step an impulse).
+    final_value : float or None
+        Closed-loop static gain ``T(0)`` (``None`` when the loop is unstable).
+    stable : bool
+        Every closed-loop pole (engine form) in the open left half-plane.
+    w : ndarray
+        Frequencies (rad/s).
+    loop : ndarray, complex
+        ``L(jw)`` with the exact dead time.
+    facts : LoopFrequencyFacts
+        Crossovers, margins, bandwidth and sensitivity peak.
+    notes : tuple of str
+        How the curves were computed where it matters (dead time, improper
+        compensator, unstable loop).
+    """
+
+    t: np.ndarray
+    y: np.ndarray
+    u: np.ndarray | None
+    final_value: float | None
+    stable: bool
+    w: np.ndarray
+    loop: np.ndarray
+    facts: LoopFrequencyFacts
+    notes: tuple[str, ...]
+
+
+def _metric(design: dict, key: str) -> float | None:
+    v = (design.get("metrics") or {}).get(key)
+    try:
+        v = float(v)
+    except (TypeError, ValueError):
+        return None
+    return v if math.isfinite(v) else None
+
+
+def design_curves(doc: dict, design: dict, problem) -> DesignCurves:
+    """Step response, control effort and frequency responses of one design.
+
+    Parameters
+    ----------
+    doc : dict
+        The synth.design/1 document (the plant is read from it).
+    design : dict
+        One entry of ``doc["designs"]``.
+    problem : synth.requirements.Problem
+        The problem of the run; :func:`synth.verify.step_response` simulates
+        its plant (exact dead time) over a horizon set by its requirements.
+
+    Returns
+    -------
+    DesignCurves
+    """
+    from synth.verify import step_response
+
+    loop = loop_parts(doc, design)
+    notes: list[str] = []
+    char = np.polyadd(np.polymul(loop.c_den, loop.engine_den),
+                      np.polymul(loop.c_num, loop.engine_num))
+    char = np.trim_zeros(char, "f")
+    poles = np.roots(char) if char.size > 1 else np.zeros(0, complex)
+    stable = bool(np.all(poles.real < 0))
+    if loop.c_num.size > loop.c_den.size:
+        # an ideal derivative: the effort to a step is an impulse, no curve to draw
+        t, y, u, final = np.array([0.0, 1.0]), np.full(2, np.nan), None, None
+        notes.append("the compensator is improper (ideal derivative), so no time response "
+                     "is drawn")
+    else:
+        resp = step_response(problem, loop.c_num, loop.c_den)
+        t, y, u, final = resp.t, resp.y, resp.u, resp.final_value
+        if problem.plant.dead_time:
+            notes.append(f"time responses use the exact dead time of {problem.plant.dead_time:g} s"
+                         if resp.exact_delay else
+                         "the dead time is too short to resolve in the time responses; they use "
+                         "its Pade form")
+    if not stable:
+        final = None
+        notes.append("the closed loop is unstable: the response grows without bound")
+    facts = loop_frequency_facts(loop)
+    lo, hi = facts.w_min, facts.w_max
+    marks = [v for v in (facts.crossover, facts.bandwidth, facts.peak_frequency,
+                         *facts.phase_crossovers) if v]
+    if marks:
+        # frame the interesting part: two decades either side of the marked frequencies
+        lo = max(lo, min(marks) / 100.0)
+        hi = min(hi, max(marks) * 100.0)
+    w = np.logspace(math.log10(lo), math.log10(hi), 800)
+    return DesignCurves(t=t, y=y, u=u, final_value=final, stable=stable, w=w,
+                        loop=loop_response(loop, w), facts=facts, notes=tuple(notes))
+
+
+# ---------------------------------------------------------------------------
+# drawing
+# ---------------------------------------------------------------------------
+
+def _style(ax) -> None:
+    ax.grid(True, color=PALETTE["grid"], linewidth=0.6)
+    ax.set_axisbelow(True)
+    for side in ("top", "right"):
+        ax.spines[side].set_visible(False)
+    for side in ("left", "bottom"):
+        ax.spines[side].set_color(PALETTE["muted"])
+    ax.tick_params(colors=PALETTE["ink"], labelsize=8)
+    ax.xaxis.label.set_color(PALETTE["ink"])
+    ax.yaxis.label.set_color(PALETTE["ink"])
+
+
+def _clip_limits(values: np.ndarray, pad: float = 0.08) -> tuple[float, float]:
+    v = values[np.isfinite(values)]
+    if v.size == 0:
+        return -1.0, 1.0
+    lo, hi = float(np.min(v)), float(np.max(v))
+    if hi - lo < 1e-12:
+        lo, hi = lo - 1.0, hi + 1.0
+    span = hi - lo
+    return lo - pad * span, hi + pad * span
+
+
+def draw_step(target, curves: DesignCurves, requirements=None, title: str | None = None) -> None:
+    """Unit-step output and control effort with the requirement bounds.
+
+    Draws the overshoot ceiling, the settling band after the settling-time
+    limit, and the effort limit, where the requirements set them.
+    """
+    gs = target.add_gridspec(2, 1, left=0.11, right=0.97, bottom=0.1, top=0.9, hspace=0.38,
+                             height_ratios=[1.35, 1.0])
+    ax, ax2 = gs.subplots(sharex=True)
+    for a in (ax, ax2):
+        _style(a)
+    t, y = curves.t, curves.y
+    fv = curves.final_value
+    req = requirements
+    if fv is not None and req is not None:
+        if req.max_overshoot_percent is not None:
+            ceiling = fv * (1.0 + req.max_overshoot_percent / 100.0)
+            ax.axhline(ceiling, color=PALETTE["limit"], linestyle="--", linewidth=1.0,
+                       label=f"overshoot limit {req.max_overshoot_percent:g} %")
+        if req.max_settling_time is not None:
+            band = abs(fv) * req.settling_band_percent / 100.0
+            ts = req.max_settling_time
+            ax.fill_between([ts, t[-1]], fv - band, fv + band, color=PALETTE["band"], alpha=0.6,
+                            linewidth=0, label=f"{req.settling_band_percent:g} % band after "
+                            f"{ts:g} s")
+            ax.axvline(ts, color=PALETTE["limit"], linestyle=":", linewidth=1.0)
+    ax.axhline(1.0, color=PALETTE["muted"], linewidth=0.7, linestyle="-")
+    ax.plot(t, y, color=PALETTE["response"], linewidth=1.5, label="output y(t)")
+    lo, hi = _clip_limits(y)
+    if fv is not None:
+        lo, hi = min(lo, 0.0), max(hi, fv * 1.05)
+        if req is not None and req.max_overshoot_percent is not None:
+            hi = max(hi, fv * (1.0 + req.max_overshoot_percent / 100.0) * 1.05)
+    ax.set_ylim(lo, hi)
+    ax.set_ylabel("output", fontsize=8.5)
+    ax.legend(fontsize=7, loc="lower right", framealpha=0.9)
+    if title:
+        ax.set_title(title, fontsize=9.5, color=PALETTE["ink"], loc="left")
+    if curves.u is not None:
+        ax2.plot(t, curves.u, color=PALETTE["effort"], linewidth=1.4, label="effort u(t)")
+        ulo, uhi = _clip_limits(curves.u)
+        if req is not None and req.max_control_effort is not None:
+            lim = req.max_control_effort
+            ax2.axhline(lim, color=PALETTE["limit"], linestyle="--", linewidth=1.0,
+                        label=f"effort limit ±{lim:g}")
+            ax2.axhline(-lim, color=PALETTE["limit"], linestyle="--", linewidth=1.0)
+            ulo, uhi = min(ulo, -1.1 * lim if ulo < 0 else ulo), max(uhi, 1.1 * lim)
+        ax2.set_ylim(ulo, uhi)
+        ax2.legend(fontsize=7, loc="upper right", framealpha=0.9)
+    else:
+        ax2.text(0.5, 0.5, "no effort curve: the effort to a step is an impulse",
+                 transform=ax2.transAxes, ha="center", va="center", fontsize=8,
+                 color=PALETTE["muted"])
+    ax2.set_ylabel("effort", fontsize=8.5)
+    ax2.set_xlabel("time (s)", fontsize=8.5)
+    ax2.set_xlim(t[0], t[-1])
+
+
+def draw_bode(target, curves: DesignCurves, design: dict | None = None,
+              title: str | None = None) -> None:
+    """Loop magnitude (dB) and phase (deg) with the gain and phase margins marked."""
+    gs = target.add_gridspec(2, 1, left=0.11, right=0.97, bottom=0.1, top=0.9, hspace=0.32)
+    axm, axp = gs.subplots(sharex=True)
+    for a in (axm, axp):
+        _style(a)
+    w, L = curves.w, curves.loop
+    with np.errstate(divide="ignore"):
+        mag = 20.0 * np.log10(np.abs(L))
+    phase = np.degrees(np.unwrap(np.angle(L)))
+    # put the phase near -180 where the margins are read
+    f = curves.facts
+    shift = 0.0
+    if f.crossover is not None:
+        pc = float(np.interp(math.log10(f.crossover), np.log10(w), phase))
+        shift = 360.0 * round((-180.0 + (f.phase_margin_deg or 0.0) - pc) / 360.0)
+    phase = phase + shift
+    axm.semilogx(w, mag, color=PALETTE["response"], linewidth=1.5, label="|L(jw)|")
+    axm.axhline(0.0, color=PALETTE["muted"], linewidth=0.8)
+    axp.semilogx(w, phase, color=PALETTE["phase"], linewidth=1.5, label="arg L(jw)")
+    axp.axhline(-180.0, color=PALETTE["muted"], linewidth=0.8)
+    pm_label = gm_label = None
+    if f.crossover is not None and f.phase_margin_deg is not None:
+        wc, pm = f.crossover, f.phase_margin_deg
+        axm.axvline(wc, color=PALETTE["operating"], linestyle=":", linewidth=1.0)
+        axp.axvline(wc, color=PALETTE["operating"], linestyle=":", linewidth=1.0)
+        axp.plot([wc, wc], [-180.0, -180.0 + pm], color=PALETTE["operating"], linewidth=2.6,
+                 solid_capstyle="butt")
+        pm_label = f"phase margin {pm:.3g}° at {wc:.3g} rad/s"
+        axp.annotate(pm_label, (wc, -180.0 + pm / 2), xytext=(6, 0), textcoords="offset points",
+                     fontsize=7.5, color=PALETTE["ink"], va="center")
+    if f.gain_margin_db is not None and f.phase_crossovers:
+        at = np.interp(np.log10(f.phase_crossovers), np.log10(w), mag)
+        wp = f.phase_crossovers[int(np.argmin(np.abs(at + f.gain_margin_db)))]
+        gm = f.gain_margin_db
+        axm.axvline(wp, color=PALETTE["limit"], linestyle=":", linewidth=1.0)
+        axm.plot([wp, wp], [-gm, 0.0], color=PALETTE["limit"], linewidth=2.6,
+                 solid_capstyle="butt")
+        gm_label = f"gain margin {gm:.3g} dB at {wp:.3g} rad/s"
+        axm.annotate(gm_label, (wp, -gm / 2), xytext=(6, 0), textcoords="offset points",
+                     fontsize=7.5, color=PALETTE["ink"], va="center")
+    elif f.gain_margin_db is None:
+        axm.text(0.99, 0.95, "no phase crossover: unbounded gain margin", ha="right", va="top",
+                 transform=axm.transAxes, fontsize=7.5, color=PALETTE["muted"])
+    lo, hi = _clip_limits(mag)
+    axm.set_ylim(max(lo, -120.0), min(hi, 120.0))
+    plo, phi_ = _clip_limits(phase)
+    axp.set_ylim(max(plo, -720.0), min(phi_, 360.0))
+    axm.set_ylabel("magnitude (dB)", fontsize=8.5)
+    axp.set_ylabel("phase (deg)", fontsize=8.5)
+    axp.set_xlabel("frequency (rad/s)", fontsize=8.5)
+    axm.set_xlim(w[0], w[-1])
+    if title:
+        axm.set_title(title, fontsize=9.5, color=PALETTE["ink"], loc="left")
+
+
+def draw_sensitivity(target, curves: DesignCurves, requirements=None,
+                     title: str | None = None) -> None:
+    """Sensitivity magnitude ``|1/(1+L(jw))|`` with its peak and the limit."""
+    ax = target.add_gridspec(1, 1, left=0.11, right=0.97, bottom=0.16, top=0.88).subplots()
+    _style(ax)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        s = np.abs(1.0 / (1.0 + curves.loop))
+        sdb = 20.0 * np.log10(s)
+    ax.semilogx(curves.w, sdb, color=PALETTE["response"], linewidth=1.5, label="|S(jw)|")
+    ax.axhline(0.0, color=PALETTE["muted"], linewidth=0.8)
+    f = curves.facts
+    pk_db = 20.0 * math.log10(f.peak_sensitivity) if f.peak_sensitivity > 0 else 0.0
+    ax.plot([f.peak_frequency], [pk_db], "v", color=PALETTE["operating"], markersize=7,
+            label=f"peak {f.peak_sensitivity:.3g} ({pk_db:.3g} dB) at {f.peak_frequency:.3g} rad/s")
+    if requirements is not None and requirements.max_peak_sensitivity is not None:
+        lim = requirements.max_peak_sensitivity
+        ax.axhline(20.0 * math.log10(lim), color=PALETTE["limit"], linestyle="--", linewidth=1.0,
+                   label=f"limit {lim:g} ({20 * math.log10(lim):.3g} dB)")
+    lo, hi = _clip_limits(sdb)
+    ax.set_ylim(max(lo, -80.0), min(max(hi, pk_db + 3.0), 60.0))
+    ax.set_xlim(curves.w[0], curves.w[-1])
+    ax.set_xlabel("frequency (rad/s)", fontsize=8.5)
+    ax.set_ylabel("sensitivity (dB)", fontsize=8.5)
+    ax.legend(fontsize=7, loc="lower right", framealpha=0.9)
+    if title:
+        ax.set_title(title, fontsize=9.5, color=PALETTE["ink"], loc="left")
