@@ -151,6 +151,8 @@ def test_batch_roots_match_numpy_roots():
 
 
 def test_grid_refines_where_roots_move_fast():
+    # fact of the trade (common practice): near a breakaway point the roots move
+    # like sqrt(K - K_b), fastest there; far out they move slowly in relative terms
     num, den = OGATA3
     g = adaptive_grid(num, den)
     k = np.abs(g.gains)
@@ -169,6 +171,7 @@ def test_summary_lines_mention_the_special_points():
 
 
 def test_bad_options():
+    # the contract: bad input is an InputError (exit 2 at the CLI), never a traceback
     with pytest.raises(InputError):
         trace_locus([1.0], [1.0, 1.0], k_max=-1)
     with pytest.raises(InputError):

@@ -169,7 +169,7 @@ class SpecialPoints:
         return np.unique(np.asarray(g, dtype=float))
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class LocusFacts:
     """Special points for both signs of the gain, with the open-loop roots.
 
