@@ -75,4 +75,4 @@ def trace_design_loop(problem, doc: dict, rank: int = 1, source: str = "<design>
 
     num, den, k, _ = design_loop(doc, rank, source)
     region = None if problem.region.is_stability_only else problem.region
-    return trace_locus(num, den, region=region), k
+    return trace_locus(num, den, region=region, negative=k < 0), k

@@ -49,12 +49,13 @@ def char_poly(num, den, gain) -> np.ndarray:
     return d + k[..., None] * n
 
 
-def roots_batch(polys: np.ndarray) -> np.ndarray:
+def roots_batch(polys: np.ndarray, degenerate: np.ndarray | None = None) -> np.ndarray:
     """Roots of every row of a batch of real polynomials of one nominal degree.
 
-    Rows whose leading coefficient vanishes lose degree; the missing roots are
-    returned as complex infinity so every row has the same number of entries.
-    Uses batched companion-matrix eigenvalues (LAPACK balances each matrix).
+    Rows whose leading coefficient vanishes (``degenerate``; by default an exact
+    zero) lose degree; the missing roots are returned as complex infinity so
+    every row has the same number of entries. Uses batched companion-matrix
+    eigenvalues (LAPACK balances each matrix).
     """
     P = np.atleast_2d(np.asarray(polys, dtype=float))
     B, m = P.shape
@@ -62,9 +63,7 @@ def roots_batch(polys: np.ndarray) -> np.ndarray:
     out = np.full((B, n), complex(np.inf, 0.0))
     if n == 0:
         return out
-    scale = np.max(np.abs(P), axis=1)
-    lead = P[:, 0]
-    full = np.abs(lead) > _LEAD_RTOL * np.where(scale > 0, scale, 1.0)
+    full = P[:, 0] != 0.0 if degenerate is None else ~np.asarray(degenerate, dtype=bool)
     if np.any(full):
         Q = P[full]
         C = np.zeros((Q.shape[0], n, n))
@@ -96,7 +95,11 @@ def closed_loop_roots(num, den, gains) -> np.ndarray:
         for branch tracking).  Where the degree drops, the lost root is ``inf``.
     """
     g = np.atleast_1d(np.asarray(gains, dtype=float))
-    return roots_batch(char_poly(num, den, g))
+    n, d = loop_polys(num, den)
+    # the leading coefficient d0 + K n0 vanishes only by cancellation (equal degrees)
+    lead = d[0] + g * n[0]
+    degenerate = np.abs(lead) <= _LEAD_RTOL * (abs(d[0]) + np.abs(g * n[0]))
+    return roots_batch(d + g[:, None] * n, degenerate)
 
 
 def gain_at(num, den, s) -> np.ndarray:
