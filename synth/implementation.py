@@ -57,7 +57,7 @@ _PER_DECADE = 240
 # reading the design document
 # ---------------------------------------------------------------------------
 
-def _floats(values, what: str) -> np.ndarray:
+def _floats(values, what: str, zero_ok: bool = False) -> np.ndarray:
     try:
         arr = np.atleast_1d(np.asarray(values, dtype=float))
     except (TypeError, ValueError):
@@ -66,6 +66,8 @@ def _floats(values, what: str) -> np.ndarray:
         raise InputError(f"{what} must be a non-empty list of finite numbers", key=what)
     nz = np.flatnonzero(arr)
     if nz.size == 0:
+        if zero_ok:
+            return np.zeros(1)
         raise InputError(f"{what} is the zero polynomial", key=what)
     return arr[nz[0]:]
 
@@ -112,7 +114,7 @@ def loop_parts(doc: dict, design: dict) -> _Loop:
         order = int(plant.get("dead_time_order") or 3)
     else:
         g_n, g_d, tau, order = eng_n, eng_d, 0.0, 3
-    return _Loop(c_num=_floats(comp.get("numerator"), "compensator.numerator"),
+    return _Loop(c_num=_floats(comp.get("numerator"), "compensator.numerator", zero_ok=True),
                  c_den=_floats(comp.get("denominator"), "compensator.denominator"),
                  g_num=g_n, g_den=g_d, dead_time=tau, engine_num=eng_n, engine_den=eng_d,
                  plant=Plant.from_coefficients(g_n, g_d, dead_time=tau, pade_order=order))
@@ -228,7 +230,8 @@ def loop_frequency_facts(loop: _Loop) -> LoopFrequencyFacts:
     from synth.requirements import Problem
     from synth.verify import frequency_metrics
 
-    fm = frequency_metrics(Problem(plant=loop.plant), loop.c_num, loop.c_den)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        fm = frequency_metrics(Problem(plant=loop.plant), loop.c_num, loop.c_den)
     lo, hi = _grid_span(loop)
     n = int(max(400, _PER_DECADE * math.log10(hi / lo)))
     x = np.linspace(math.log10(lo), math.log10(hi), n)
@@ -281,7 +284,7 @@ def _clean(value):
         return int(value)
     if isinstance(value, (float, np.floating)):
         v = float(value)
-        return v if math.isfinite(v) else None
+        return (v if v != 0 else 0.0) if math.isfinite(v) else None  # no "-0" in the JSON
     return value
 
 
@@ -413,8 +416,8 @@ def add_implementation_forms(doc: dict, sample_time: float | None = None) -> dic
 # terminal text
 # ---------------------------------------------------------------------------
 
-def _g(v, digits: int = 4) -> str:
-    return "-" if v is None else f"{v:.{digits}g}"
+def _g(v, digits: int = 4, none: str = "-") -> str:
+    return none if v is None else f"{v:.{digits}g}"
 
 
 def implementation_lines(doc: dict, sample_time: float | None = None, top: int = _TOP) -> list[str]:
@@ -452,8 +455,9 @@ def implementation_lines(doc: dict, sample_time: float | None = None, top: int =
             lines.append(f"      parallel  Kp={_g(par['kp'], 6)}  Ki={_g(par['ki'], 6)}  "
                          f"Kd={_g(par['kd'], 6)}  Tf={_g(par['tf'], 6)} s")
         if std:
-            lines.append(f"      standard  Kc={_g(std['kc'], 6)}  Ti={_g(std['ti'], 6)} s  "
-                         f"Td={_g(std['td'], 6)} s  N={_g(std['n'], 6)}")
+            lines.append(f"      standard  Kc={_g(std['kc'], 6)}  Ti={_g(std['ti'], 6, 'none')}"
+                         f"{'' if std['ti'] is None else ' s'}  Td={_g(std['td'], 6)} s  "
+                         f"N={_g(std['n'], 6, 'none')}")
         dz = im.get("discrete")
         if dz:
             warp = dz.get("warp_frequency")

@@ -335,3 +335,73 @@ max_overshoot_percent = 10.0
     text = " ".join(page.text)
     assert "Pade form of order 3" in text and "exact delay" in text
     assert "The search found no candidate design." in text
+
+
+def _svg_peak(section: str) -> float:
+    return float(re.search(r"peak ([0-9.]+) \(", section).group(1))
+
+
+def test_reverse_acting_and_zero_gain_designs(tmp_path):
+    # G = -1/(s+1) needs a negative gain: with C = -2 the characteristic polynomial is
+    # (s + 1) + (-2)(-1) = s + 3 (numpy.roots); a zero-gain design has no locus but must not
+    # break the report
+    problem = problem_from_text("""
+[plant]
+numerator = [-1.0]
+denominator = [1.0, 1.0]
+""", "reverse.toml")
+    designs = [_design(problem, 1, "P", [-2.0], [1.0]),
+               _design(problem, 2, "P", [0.0], [1.0], False, ["gain 0 does nothing"])]
+    assert designs[0]["closed_loop_poles"] == [[-3.0, 0.0]]
+    doc = add_implementation_forms({"schema": "synth.design/1",
+                                    "plant": problem.plant.to_json(), "designs": designs})
+    written = write_report(problem, doc, tmp_path / "rev")
+    page = _Page()
+    html_text = written[0].read_text(encoding="utf-8")
+    page.feed(html_text)
+    assert page.figures == list(FIGURE_KINDS) * 2
+    assert "operating at K = -2" in html_text
+    assert "no root locus: design 2 has gain 0" in html_text
+    # |S| of L = 2/(s+1) peaks at low frequency: 1/(1 + 2) (scipy.signal.freqresp)
+    _, L = freqresp(([2.0], [1.0, 1.0]), w=np.logspace(-4, 4, 4001))
+    sec = html_text[html_text.index('id="design-1"'):html_text.index('id="design-2"')]
+    assert _svg_peak(sec) == pytest.approx(float(np.max(np.abs(1 / (1 + L)))), abs=0.001)
+
+
+def test_report_from_the_real_design_pipeline(tmp_path):
+    pytest.importorskip("synth.design", reason="synth.design has not landed yet")
+    from synth.design import run_design
+
+    problem = problem_from_text("""
+[plant]
+label = "small servo"
+numerator = [4.0]
+denominator = [1.0, 2.0, 0.0]
+[requirements]
+max_overshoot_percent = 20.0
+max_settling_time = 3.0
+[search]
+structures = ["lead"]
+time_budget = 0.5
+keep = 1
+""", "servo.toml")
+    doc = add_implementation_forms(run_design(problem).to_json(), sample_time=0.02)
+    designs = doc["designs"]
+    assert designs
+    written = write_report(problem, doc, tmp_path / "servo")
+    page = _Page()
+    html_text = written[0].read_text(encoding="utf-8")
+    page.feed(html_text)
+    n = min(3, len(designs))
+    assert page.figures == list(FIGURE_KINDS) * n and page.svg_roots == 4 * n
+    assert page.sections[0] == "cautions"
+    # the top design's sensitivity peak in its figure, against scipy.signal.freqresp
+    top = designs[0]["compensator"]
+    _, L = freqresp((np.polymul(top["numerator"], [4.0]),
+                     np.polymul(top["denominator"], [1.0, 2.0, 0.0])),
+                    w=np.logspace(-3, 4, 70001))
+    end = html_text.index('id="design-2"') if n > 1 else html_text.index('id="notes"')
+    sec = html_text[html_text.index('id="design-1"'):end]
+    ms = float(np.max(np.abs(1.0 / (1.0 + L))))
+    # printed to 3 significant digits
+    assert _svg_peak(sec) == pytest.approx(ms, abs=0.51 * 10 ** (math.floor(math.log10(ms)) - 2))

@@ -29,7 +29,7 @@ from pathlib import Path
 
 import numpy as np
 
-from synth.errors import OptionError
+from synth.errors import InputError, OptionError
 
 __all__ = ["CAUTIONS", "SECTION_TITLES", "FIGURE_KINDS", "build_sections", "write_report"]
 
@@ -274,18 +274,22 @@ def _requirements_section(problem) -> Section:
 
 
 def _explain_data(problem, doc) -> dict:
-    """The proportional verdict: from the document, else from synth.explain, else the engine."""
-    for key in ("explain", "proportional_verdict"):
-        if isinstance(doc.get(key), dict):
-            return doc[key]
-    if isinstance(doc.get("proportional"), dict):
-        return {"proportional": doc["proportional"], "reasons": doc.get("reasons") or []}
+    """The proportional verdict and its reasons.
+
+    From :func:`synth.explain.explain_problem` (which gives the reasons); while
+    that module is absent, from the document's ``proportional`` object, else
+    from the engine's exact gain intervals.
+    """
+    if isinstance(doc.get("explain"), dict):
+        return doc["explain"]
     try:
         from synth.explain import explain_problem
     except ImportError:
         explain_problem = None
     if explain_problem is not None:
         return explain_problem(problem).to_json()
+    if isinstance(doc.get("proportional"), dict):
+        return {"proportional": doc["proportional"], "reasons": doc.get("reasons") or []}
     from synth.locus.core import region_gain_intervals, stable_gain_intervals
 
     num, den = problem.plant.num, problem.plant.den
@@ -366,7 +370,7 @@ def _ranking_section(doc) -> Section:
 
 def _locus_figure(problem, doc, design) -> Figure:
     """The design's root locus, drawn by :func:`synth.report.locus_plot.plot_locus`."""
-    from synth.locus import design_loop
+    from synth.locus import trace_design_loop
 
     _cache: dict = {}  # the trace serves the SVG and the PDF; compute it once
 
@@ -374,12 +378,14 @@ def _locus_figure(problem, doc, design) -> Figure:
         from synth.report.locus_plot import plot_locus
 
         if "trace" not in _cache:
-            from synth.locus.trace import trace_locus
-
-            num, den, gain, _ = design_loop(doc, int(design.get("rank", 1)))
-            region = None if problem.region.is_stability_only else problem.region
-            _cache["trace"] = trace_locus(num, den, region=region, negative=gain < 0)
-            _cache["gain"] = gain
+            try:
+                _cache["trace"], _cache["gain"] = trace_design_loop(
+                    problem, doc, int(design.get("rank", 1)))
+            except InputError as err:  # e.g. a zero gain: the loop has no locus to draw
+                _cache["trace"], _cache["why"] = None, err.message
+        if _cache["trace"] is None:
+            _placeholder(path, f"no root locus: {_cache['why']}")
+            return
         plot_locus(_cache["trace"], path, region=problem.region,
                    operating_gain=_cache["gain"], title="root locus of the design's loop, "
                    f"operating at K = {_cache['gain']:.4g}")
@@ -388,6 +394,18 @@ def _locus_figure(problem, doc, design) -> Figure:
                   "Root locus of the loop as the compensator gain K varies: open-loop poles x, "
                   "zeros o, the requirement region shaded, and the closed-loop poles at the "
                   "design's gain marked.", "root locus", to_file=to_file)
+
+
+def _placeholder(path, message: str) -> None:
+    """A small picture that says why a figure could not be drawn."""
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from matplotlib.figure import Figure as MplFigure
+
+    fig = MplFigure(figsize=(8.0, 2.0))
+    FigureCanvasAgg(fig)
+    fig.text(0.5, 0.5, "\n".join(textwrap.wrap(message, 90)), ha="center", va="center",
+             fontsize=10, color=_COLORS["muted"])
+    fig.savefig(path, format=Path(path).suffix[1:])
 
 
 def _design_section(problem, doc, design, curves) -> Section:
@@ -405,7 +423,9 @@ def _design_section(problem, doc, design, curves) -> Section:
         blocks.append(Para("Does NOT meet every requirement:", "bad"))
         blocks.append(Bullets(tuple(design.get("violations") or ["(no reason recorded)"]), "bad"))
     blocks.append(Pre((f"C(s) = {im.get('factored', '')}",)))
+    described = str(design.get("description") or "")
     blocks.append(Table(("property", "value"), (
+        *((("structure", described),) if described else ()),
         ("found by", str(design.get("origin", "-"))),
         ("gain K", _g(comp.get("gain"), 6)),
         ("compensator zeros", _cplx_list(comp.get("zeros"))),
@@ -444,8 +464,8 @@ def _design_section(problem, doc, design, curves) -> Section:
                          "the shortest distance from the Nyquist curve to -1.",
                          "sensitivity magnitude",
                          draw=lambda t: draw_sensitivity(t, curves, req, "S = 1/(1+L)")))
-    for n in curves.notes:
-        blocks.append(Para(f"Note: {n}.", "muted"))
+    for n in (*curves.notes, *(design.get("notes") or [])):
+        blocks.append(Para(f"Note: {str(n).rstrip('.')}.", "muted"))
     blocks.extend(_implementation_blocks(im))
     return Section(f"design-{rank}", f"Design {rank}: {structure}", tuple(blocks), "design",
                    new_page=True)
