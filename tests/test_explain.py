@@ -201,6 +201,29 @@ def test_random_plants_against_eigvals(plant):
     assert np.array_equal(ref[clear], got[clear])
 
 
+@pytest.mark.parametrize("num, den, bands, negative_only", [
+    # two separate positive bands (lightly damped zero pair above an unstable pole)
+    (np.real(np.poly([-0.4 + 4j, -0.4 - 4j])), np.polymul([1.0, -0.5], [1.0, 1.0, 4.25]), 2, False),
+    # only negative gains: (s-1)/(s(s+2)) and an unstable pair with a fast real pole
+    ([1.0, -1.0], np.poly([0.0, -2.0]), 1, True),
+    ([1.0], np.polymul([1.0, -0.2, 4.0], [1.0, 5.0]), 1, True),
+    # a stable band bounded on both sides by crossings
+    ([1.0, 1.0], np.polymul([1.0, -1.0, 0.0], [1.0, 4.0, 16.0]), 1, False),
+])
+def test_fixed_plants_against_eigvals(num, den, bands, negative_only):
+    # stability at 4000 gains from numpy.linalg.eigvals of companion matrices
+    e = _explain(num, den)
+    ivs = e.stabilizing_gain_intervals
+    assert len(ivs) == bands and e.only_negative_gain_stabilizes is negative_only
+    g = np.concatenate([-np.geomspace(1e-4, 1e3, 2000), np.geomspace(1e-4, 1e3, 2000)])
+    chi = np.array([_char(num, den, k) for k in g])
+    ref = np.max(_companion_roots(chi).real, axis=1) < 0
+    got = np.array([_inside(ivs, k) for k in g])
+    ends = np.array([x for iv in ivs for x in iv if x is not None])
+    far = np.min(np.abs(g[:, None] - ends[None, :]), axis=1) > 1e-6 * np.maximum(1, np.abs(g))
+    assert np.array_equal(ref[far], got[far])
+
+
 def test_only_negative_gain_is_said_plainly():
     # (s-1)/(s(s+2)): -2 < K < 0 by Routh by hand (common practice)
     e = _explain([1.0, -1.0], np.poly([0.0, -2.0]))
@@ -218,8 +241,10 @@ def _decay_damping(num, den, k):
 
 
 def _dense(ivs, size=4000):
-    out = []
+    out = [np.zeros(0)]
     for lo, hi in ivs:
+        if lo is None and hi is None:
+            lo, hi = -1e3, 1e3
         a = lo if lo is not None else (hi - 1e3 * max(1, abs(hi)))
         b = hi if hi is not None else (lo + 1e3 * max(1, abs(lo)))
         out.append(np.linspace(a, b, size)[1:-1])
@@ -302,7 +327,8 @@ def _check_reason(r, num, den, e):  # noqa: C901 - one branch per reason kind
             else:
                 k = -(2 * abs(hi) + 1)
             rr = _roots(num, den, k)
-            assert int(np.count_nonzero(rr.real >= 0)) == stp["rhp_poles"]
+            closed_rhp = rr.real >= -1e-9 * np.maximum(1.0, np.abs(rr))  # axis roots count
+            assert int(np.count_nonzero(closed_rhp)) == stp["rhp_poles"]
     elif r.kind == "best_decay":
         k, best = d["gain"], d["best"]
         assert _decay_damping(num, den, k)[0] == pytest.approx(best, rel=1e-6, abs=1e-9)

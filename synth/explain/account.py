@@ -396,8 +396,9 @@ def explain_problem(problem) -> Explanation:
     n, d = plant.num, plant.den
     facts = structural_facts(plant)
 
-    stab = stable_gain_intervals(n, d)
-    reg = stab if region.is_stability_only else region_gain_intervals(n, d, region)
+    kscale = float(np.max(np.abs(d)) / np.max(np.abs(n)))
+    stab = _snap(stable_gain_intervals(n, d), kscale)
+    reg = stab if region.is_stability_only else _snap(region_gain_intervals(n, d, region), kscale)
     crossings = axis_crossings(n, d)
     kdrop = degree_drop_gain(n, d)
     asym = {s: asymptote_facts(n, d, s) for s in (1, -1)}
@@ -556,6 +557,13 @@ def explain_problem(problem) -> Explanation:
         asymptotes=(asym[1], asym[-1]), reason_details=tuple(reasons), best=best,
         warnings=tuple(warnings), suggestions=tuple(suggestions),
         fact_lines=tuple(fact_sentences(facts)))
+
+
+def _snap(ivs, scale: float) -> list[Interval]:
+    """Interval ends within rounding of K = 0 (a plant pole on the imaginary axis) become 0."""
+    def one(x):
+        return 0.0 if x is not None and abs(x) <= 1e-12 * scale else x
+    return [(one(a), one(b)) for a, b in ivs]
 
 
 def _sse_reason(facts: StructuralFacts, emax: float, sse, cand) -> Reason:

@@ -150,10 +150,14 @@ def axis_crossings(num, den) -> tuple[Crossing, ...]:
     if np.all(n == 0):
         return ()
     k, t = line_crossing_gains(n, d, 0j, 1j)
+    zr = roots_of(n)
+    axis_zeros = zr[np.abs(zr.real) <= 1e-9 * np.maximum(1.0, np.abs(zr))]
     out: list[Crossing] = []
     for kk, tt in sorted(zip(k, np.abs(t), strict=True)):
         if not (np.isfinite(kk) and np.isfinite(tt)):
             continue
+        if axis_zeros.size and np.min(np.abs(axis_zeros - 1j * tt)) <= 1e-6 * max(1.0, tt):
+            continue  # a zero on the axis: poles only tend to it as |K| grows without bound
         # a genuine crossing: the closed loop has a root near j*tt
         r = closed_loop_roots(n, d, [kk])[0]
         r = r[np.isfinite(r)]
@@ -245,8 +249,7 @@ def real_axis_traps(num, den, sign: int) -> tuple[Trap, ...]:
     n, d = loop_polys(num, den)
     zr = roots_of(n)
     pr = roots_of(d)
-    zs = np.unique(np.round(zr[is_real(zr)].real, 12))
-    ps = np.unique(np.round(pr[is_real(pr)].real, 12))
+    zs, ps = _real_critical_points(zr[is_real(zr)].real, pr[is_real(pr)].real)
     if ps.size == 0:
         return ()
     pts = np.unique(np.concatenate([zs, ps]))
@@ -278,6 +281,37 @@ def real_axis_traps(num, den, sign: int) -> tuple[Trap, ...]:
         elif a_zero and b_pole:
             out.append(Trap(sign, float(b), float(max(a, 0.0))))
     return tuple(out)
+
+
+def _real_critical_points(zeros: np.ndarray, poles: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Distinct real zeros and poles, with cancelling pole-zero pairs removed.
+
+    A multiple root comes back from numpy.roots split by about ``eps**(1/m)``,
+    so points within a relative ``1e-5`` are one point; a pole and a zero at
+    one point add two to every real-axis count to their left and so drop out
+    of the real-axis rule (the mode itself is reported as a common factor).
+    """
+    def near(a, b):
+        return abs(a - b) <= 1e-5 * max(1.0, abs(a), abs(b))
+
+    z = sorted(float(x) for x in zeros)
+    p = sorted(float(x) for x in poles)
+    for x in list(z):
+        j = next((i for i, y in enumerate(p) if near(x, y)), None)
+        if j is not None:
+            p.pop(j)
+            z.remove(x)
+
+    def merge(v):
+        out: list[list[float]] = []
+        for x in v:
+            if out and near(out[-1][-1], x):
+                out[-1].append(x)
+            else:
+                out.append([x])
+        return np.array([np.mean(c) for c in out])
+
+    return merge(z), merge(p)
 
 
 @dataclass(frozen=True)
@@ -389,6 +423,8 @@ def rhp_count_profile(num, den, sign: int, crossings=None) -> tuple[CountStep, .
         ev.append(kd)
     mags = np.unique(np.abs(np.asarray(ev, dtype=float)))
     mags = mags[mags > 0]
+    if mags.size > 1:  # numerically coincident events are one event
+        mags = mags[np.concatenate([[True], np.diff(mags) > 1e-9 * mags[1:]])]
     edges = np.concatenate([[0.0], mags, [np.inf]])
     last = mags[-1] if mags.size else 1.0
     mids = np.where(np.isinf(edges[1:]), 2.0 * last + 1.0, 0.5 * (edges[:-1] + edges[1:]))
