@@ -297,7 +297,11 @@ class Move:
     ``"new"`` (absent before), ``"dropped"`` (absent after) or
     ``"feasibility"`` (same rank, feasibility changed). ``metric_changes``
     maps each scalar metric present in both runs to (before, after, after -
-    before), the difference None where either value is unbounded.
+    before), the difference None where either value is unbounded. For a
+    ``"new"`` design, ``nearest`` is the closest design of the same structure
+    and order in the earlier run (None if there is none) and
+    ``nearest_difference`` the largest relative difference of its paired
+    zeros, poles and gain (so 0.3 means 30 % apart).
     """
 
     design: str
@@ -309,6 +313,8 @@ class Move:
     feasible_before: bool | None
     feasible_after: bool | None
     metric_changes: dict
+    nearest: str | None = None
+    nearest_difference: float | None = None
 
 
 @dataclass(frozen=True)
@@ -355,6 +361,8 @@ class Binding:
 
 
 def _close(a: complex | float, b: complex | float, rtol: float, atol: float) -> bool:
+    if math.isinf(rtol):  # no tolerance: only measuring the difference
+        return True
     return abs(a - b) <= rtol * max(abs(a), abs(b)) + atol
 
 
@@ -407,6 +415,15 @@ def same_design(first: tuple[str, np.ndarray, np.ndarray, float],
     kscale = max(abs(k1), abs(k2))
     dk = abs(k1 - k2) / kscale if kscale > 0 else 0.0
     return max(dz, dp, dk)
+
+
+def _relative_difference(first, second) -> float | None:
+    """Largest relative difference of paired zeros, poles and gain; None if not comparable."""
+    s1, z1, p1, k1 = first
+    s2, z2, p2, k2 = second
+    if s1 != s2 or z1.size != z2.size or p1.size != p2.size or np.sign(k1) != np.sign(k2):
+        return None
+    return same_design(first, second, rtol=math.inf, atol=0.0)
 
 
 def _tag(i: int) -> str:
@@ -575,7 +592,10 @@ class Comparison:
             ``kind`` (up, down, new, dropped, feasibility), ``from_rank``,
             ``to_rank`` (null where absent), ``feasible_before``,
             ``feasible_after``, ``metric_changes`` ({metric: {before, after,
-            change}}; change null where a value is unbounded).
+            change}}; change null where a value is unbounded), ``nearest`` and
+            ``nearest_difference`` (for a new design: the closest design of the
+            same structure among those the earlier run had and this one lost,
+            and how far apart, as a fraction; else null).
         metric_changes : list, one per design found in two consecutive runs
             (moved or not): ``design``, ``from_run``, ``to_run``,
             ``from_rank``, ``to_rank``, ``changes`` (as in ``moves``).
@@ -609,7 +629,8 @@ class Comparison:
                        "kind": m.kind, "from_rank": m.from_rank, "to_rank": m.to_rank,
                        "feasible_before": m.feasible_before, "feasible_after": m.feasible_after,
                        "metric_changes": {k: {"before": a, "after": b, "change": c}
-                                          for k, (a, b, c) in m.metric_changes.items()}}
+                                          for k, (a, b, c) in m.metric_changes.items()},
+                       "nearest": m.nearest, "nearest_difference": m.nearest_difference}
                       for m in self.moves],
             "metric_changes": [{"design": c.design, "from_run": c.from_run, "to_run": c.to_run,
                                 "from_rank": c.from_rank, "to_rank": c.to_rank,
@@ -664,6 +685,9 @@ class Comparison:
                 a, b = runs[m.from_run].tag, runs[m.to_run].tag
                 if m.kind == "new":
                     what = f"new in {b} at rank {m.to_rank}"
+                    if m.nearest is not None:
+                        what += (f" (closest in {a}: {m.nearest}, parameters "
+                                 f"{m.nearest_difference:.0%} apart)")
                 elif m.kind == "dropped":
                     what = f"dropped in {b} (was rank {m.from_rank} in {a})"
                 elif m.kind == "feasibility":
@@ -691,6 +715,10 @@ class Comparison:
                          if k in _METRIC_ORDER and _changed(x, y)]
                 lines.append(f"  {c.design:<4} {a}->{b}: " + "; ".join(parts))
         shown = [b for b in self.binding if any(s in _TIGHT for s in b.statuses)]
+        if self.binding and not shown:
+            lines.append("")
+            lines.append("Every requirement has room at each run's top feasible design "
+                         f"(more than {self.binding_margin:.0%} of its limit).")
         if shown:
             lines.append("")
             lines.append("Requirements with little or no room at each run's top feasible design")
@@ -816,11 +844,23 @@ def compare_runs(runs: list[tuple[str, dict]], rtol: float = DEFAULT_RTOL,
             else:
                 continue
             changes = _metric_changes(a.metrics, b.metrics) if (a and b) else {}
+            nearest, nearest_diff = None, None
+            if kind == "new":
+                me = (d.structure, np.array(d.zeros), np.array(d.poles), d.gain)
+                for other in shared:
+                    if other.entries[r - 1] is None or other.entries[r] is not None:
+                        continue
+                    diff = _relative_difference(
+                        me, (other.structure, np.array(other.zeros), np.array(other.poles),
+                             other.gain))
+                    if diff is not None and (nearest_diff is None or diff < nearest_diff):
+                        nearest, nearest_diff = other.id, diff
             here.append(Move(design=d.id, from_run=r - 1, to_run=r, kind=kind,
                              from_rank=a.rank if a else None, to_rank=b.rank if b else None,
                              feasible_before=a.feasible if a else None,
                              feasible_after=b.feasible if b else None,
-                             metric_changes=changes))
+                             metric_changes=changes, nearest=nearest,
+                             nearest_difference=nearest_diff))
         here.sort(key=lambda m: (m.to_rank is None, m.to_rank or 0, m.from_rank or 0))
         moves.extend(here)
         pairs = [MetricChange(design=d.id, from_run=r - 1, to_run=r,

@@ -210,6 +210,9 @@ def test_changed_plant_reports_the_moves_and_the_binding_overshoot():
     assert moves[one.id].kind == "down" and (moves[one.id].from_rank, moves[one.id].to_rank) == (3, 4)
     assert moves[two.id].kind == "dropped" and moves[two.id].from_rank == 4
     assert moves[third.id].kind == "new" and moves[third.id].to_rank == 3
+    # closest lost counterpart of the new P 1/3: the dropped P 2, |1/3 - 2| / 2 = 5/6 apart
+    assert moves[third.id].nearest == two.id
+    assert moves[third.id].nearest_difference == pytest.approx(5.0 / 6.0)
 
     # lead 2 (s + 2)/(s + 4): T = 8/(s^2 + 4 s + 8) in A, 12/(s^2 + 4 s + 12) in B
     change = next(m for m in c.metric_changes if m.design == lead.id)
