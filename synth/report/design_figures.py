@@ -95,6 +95,33 @@ def _metric(design: dict, key: str) -> float | None:
     return v if math.isfinite(v) else None
 
 
+def _view(t, y, u, design: dict, req, notes: list[str]):
+    """Crop the simulated response to the part worth looking at.
+
+    The simulation runs until the slowest closed-loop pole has decayed; a slow,
+    nearly cancelled pole can stretch that far beyond the settling time and
+    squash the transient into the first pixel. Show about twice the settling
+    time (or 1.5 times the settling-time limit, or ten rise times) instead.
+    """
+    m = design.get("metrics") or {}
+    cands = []
+    for key, factor in (("settling_time", 2.0), ("rise_time", 10.0)):
+        v = m.get(key)
+        if isinstance(v, (int, float)) and math.isfinite(v) and v > 0:
+            cands.append(factor * v)
+    if req is not None and req.max_settling_time:
+        cands.append(1.5 * req.max_settling_time)
+    if not cands or t.size < 3:
+        return t, y, u
+    t_view = max(cands)
+    if t_view >= 0.8 * t[-1]:
+        return t, y, u
+    keep = int(np.searchsorted(t, t_view)) + 1
+    notes.append(f"the time axis shows the first {t[keep - 1]:.3g} s of a simulation to "
+                 f"{t[-1]:.3g} s (a slow closed-loop pole sets its length)")
+    return t[:keep], y[:keep], (None if u is None else u[:keep])
+
+
 def design_curves(doc: dict, design: dict, problem) -> DesignCurves:
     """Step response, control effort and frequency responses of one design.
 
@@ -137,6 +164,7 @@ def design_curves(doc: dict, design: dict, problem) -> DesignCurves:
     if not stable:
         final = None
         notes.append("the closed loop is unstable: the response grows without bound")
+    t, y, u = _view(t, y, u, design, problem.requirements, notes)
     facts = loop_frequency_facts(loop)
     lo, hi = facts.w_min, facts.w_max
     marks = [v for v in (facts.crossover, facts.bandwidth, facts.peak_frequency,
@@ -183,7 +211,7 @@ def draw_step(target, curves: DesignCurves, requirements=None, title: str | None
     Draws the overshoot ceiling, the settling band after the settling-time
     limit, and the effort limit, where the requirements set them.
     """
-    gs = target.add_gridspec(2, 1, left=0.11, right=0.97, bottom=0.1, top=0.9, hspace=0.38,
+    gs = target.add_gridspec(2, 1, left=0.11, right=0.97, bottom=0.13, top=0.9, hspace=0.38,
                              height_ratios=[1.35, 1.0])
     ax, ax2 = gs.subplots(sharex=True)
     for a in (ax, ax2):
@@ -202,6 +230,10 @@ def draw_step(target, curves: DesignCurves, requirements=None, title: str | None
             ax.fill_between([ts, t[-1]], fv - band, fv + band, color=PALETTE["band"], alpha=0.6,
                             linewidth=0, label=f"{req.settling_band_percent:g} % band after "
                             f"{ts:g} s")
+            # edges too: a narrow band hides under the response otherwise
+            for edge in (fv - band, fv + band):
+                ax.plot([ts, t[-1]], [edge, edge], color=PALETTE["effort"], linewidth=0.7,
+                        linestyle="-", alpha=0.8)
             ax.axvline(ts, color=PALETTE["limit"], linestyle=":", linewidth=1.0)
     ax.axhline(1.0, color=PALETTE["muted"], linewidth=0.7, linestyle="-")
     ax.plot(t, y, color=PALETTE["response"], linewidth=1.5, label="output y(t)")
@@ -238,7 +270,7 @@ def draw_step(target, curves: DesignCurves, requirements=None, title: str | None
 def draw_bode(target, curves: DesignCurves, design: dict | None = None,
               title: str | None = None) -> None:
     """Loop magnitude (dB) and phase (deg) with the gain and phase margins marked."""
-    gs = target.add_gridspec(2, 1, left=0.11, right=0.97, bottom=0.1, top=0.9, hspace=0.32)
+    gs = target.add_gridspec(2, 1, left=0.11, right=0.97, bottom=0.13, top=0.9, hspace=0.32)
     axm, axp = gs.subplots(sharex=True)
     for a in (axm, axp):
         _style(a)
@@ -295,7 +327,7 @@ def draw_bode(target, curves: DesignCurves, design: dict | None = None,
 def draw_sensitivity(target, curves: DesignCurves, requirements=None,
                      title: str | None = None) -> None:
     """Sensitivity magnitude ``|1/(1+L(jw))|`` with its peak and the limit."""
-    ax = target.add_gridspec(1, 1, left=0.11, right=0.97, bottom=0.16, top=0.88).subplots()
+    ax = target.add_gridspec(1, 1, left=0.11, right=0.97, bottom=0.19, top=0.88).subplots()
     _style(ax)
     with np.errstate(divide="ignore", invalid="ignore"):
         s = np.abs(1.0 / (1.0 + curves.loop))

@@ -980,7 +980,7 @@ class _PdfWriter:
             ax.set_axis_off()
         else:
             f.draw(sub)
-        self.y = bottom + 0.05
+        self.y = bottom + 0.1
         self.text_lines(cap, 8, _COLORS["muted"])
         self.y += 0.08
 
