@@ -282,7 +282,9 @@ def _check_reason(r, num, den, e):  # noqa: C901 - one branch per reason kind
             assert d["n_coef"] == 0 and d["d_coef"] <= 0
         elif d["kind"] == "sign":
             assert _cites(t, d["bound"])
-        for k in samples:  # Routh necessary condition fails at every sampled gain of the sign
+        grid = samples if sign else np.concatenate([-np.geomspace(1e-3, 1e3, 40),
+                                                     np.geomspace(1e-3, 1e3, 40)])
+        for k in grid:  # Routh necessary condition fails at every sampled gain of the sign
             c = _char(num, den, k)
             assert not (np.all(c > 0) or np.all(c < 0))
     elif r.kind == "crossing":

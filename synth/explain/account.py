@@ -113,7 +113,8 @@ class BestAccount:
         }
 
 
-def best_account(num, den, region: Region, req, over) -> tuple[BestAccount, list[Reason]]:
+def best_account(num, den, region: Region, req, over,
+                 stable=None) -> tuple[BestAccount, list[Reason]]:
     """Best decay and damping that gains in ``over`` reach, and the sentences saying by how much they fall short.
 
     Each score is maximised by a dense grid per interval refined with bounded
@@ -126,7 +127,10 @@ def best_account(num, den, region: Region, req, over) -> tuple[BestAccount, list
                if zeta > 0 else list(over))
     reasons: list[Reason] = []
     short: list[str] = []
-    scope = "stabilising"
+    stable = list(over) if stable is None else list(stable)
+    limited = list(over) != stable
+    scope = "stabilising" + (" and allowed" if limited else "")
+    stable_ends = {e for iv in stable for e in iv if e is not None}
     dec = dam = comp = None
     cd = cz = None
     def at(opt: Optimum) -> str:
@@ -134,7 +138,8 @@ def best_account(num, den, region: Region, req, over) -> tuple[BestAccount, list
         for lo, hi in over:
             for e in (lo, hi):
                 if e is not None and abs(opt.gain - e) <= 1e-6 * max(1.0, abs(e)):
-                    return f"as K approaches {f.num(e)}, the edge of the stable range"
+                    edge = "stable range" if e in stable_ends else "allowed gain_range"
+                    return f"as K approaches {f.num(e)}, the edge of the {edge}"
         return f"at K = {f.num(opt.gain)}"
 
     if sigma > 0 and not decay_ok:
@@ -319,19 +324,20 @@ class Explanation:
             lines.append(f"  requirement region: {self.region.describe()}")
         lines.append("")
         lines.append("Proportional gain K (C = K)")
-        lines.append(f"  stabilises for   {f.intervals(self.stabilizing_gain_intervals)}")
+        lines.append(f"  stabilises for    {f.intervals(self.stabilizing_gain_intervals)}")
         if not self.region.is_stability_only:
-            lines.append(f"  meets the region {f.intervals(self.requirement_gain_intervals)}")
+            lines.append(f"  meets the region  {f.intervals(self.requirement_gain_intervals)}")
         if self.gain_range is not None:
             lo, hi = self.gain_range
             lines.append(f"  within gain_range [{f.num(lo)}, {f.num(hi)}]: stabilising "
-                         f"{f.intervals(self.stabilizing_in_gain_range)}; region "
-                         f"{f.intervals(self.requirement_in_gain_range)}")
+                         f"{f.intervals(self.stabilizing_in_gain_range, none='none')}; region "
+                         f"{f.intervals(self.requirement_in_gain_range, none='none')}")
         if self.plant_gain_range is not None and self.robust_stabilizing is not None:
             lo, hi = self.plant_gain_range
-            lines.append(f"  stable for plant gain x[{f.num(lo)}, {f.num(hi)}]: "
-                         f"{f.intervals(self.robust_stabilizing)}")
-        lines.append(f"  passes every check here: {f.intervals(self.candidate_gain_intervals)}")
+            lines.append(f"  stable for every plant-gain factor in [{f.num(lo)}, {f.num(hi)}]: "
+                         f"{f.intervals(self.robust_stabilizing, none='none')}")
+        lines.append(f"  passes every check here: "
+                     f"{f.intervals(self.candidate_gain_intervals, none='none')}")
         lines.append("")
         lines.append("Why")
         lines.extend(f"  - {r}" for r in self.reasons)
@@ -430,13 +436,18 @@ def explain_problem(problem) -> Explanation:
                               "loop.", {"intervals": []}))
 
     # why each sign fails, or what bounds its stable range
+    b1, b2 = blocks[1], blocks[-1]
+    shared = (b1 is not None and b2 is not None and b1.kind == b2.kind == "fixed"
+              and b1.power == b2.power)
+    if shared:
+        reasons.append(coefficient_reason(b1, both_signs=True))
     for s in (1, -1):
         part = sign_part(stab, s)
         if not part:
             why = [trap_reason(t) for t in traps[s]]
-            if blocks[s] is not None:
+            if blocks[s] is not None and not shared:
                 why.append(coefficient_reason(blocks[s]))
-            if not why:
+            if not why and not shared:
                 steps = rhp_count_profile(n, d, s, crossings)
                 why.append(count_reason(steps, s, crossings))
                 last = _last_crossing(crossings, s)
@@ -493,7 +504,7 @@ def explain_problem(problem) -> Explanation:
     best = None
     if stab and not reg_in and not region.is_stability_only:
         over = stab_in if stab_in else stab
-        best, more = best_account(n, d, region, req, over)
+        best, more = best_account(n, d, region, req, over, stab)
         reasons.extend(more)
 
     pgr = req.plant_gain_range

@@ -535,8 +535,15 @@ def _coef_name(power: int) -> str:
     return "constant" if power == 0 else ("s" if power == 1 else f"s^{power}")
 
 
-def coefficient_reason(b: CoefficientBlock) -> Reason:
+def coefficient_reason(b: CoefficientBlock, both_signs: bool = False) -> Reason:
+    """The sentence for a coefficient block; ``both_signs`` for a fixed coefficient that blocks every gain."""
     word = SIGN_WORD[b.sign]
+    if b.kind == "fixed" and both_signs:
+        text = (f"The {_coef_name(b.power)} coefficient of the characteristic polynomial is "
+                f"{f.num(b.d_coef)} for every gain (the plant numerator has no {_coef_name(b.power)} "
+                "term), and a stable polynomial needs every coefficient positive, so no gain of "
+                "either sign stabilises.")
+        return Reason("coefficient", 0, text, {**b.to_json(), "sign": 0})
     if b.kind == "fixed":
         text = (f"The {_coef_name(b.power)} coefficient of the characteristic polynomial is "
                 f"{f.num(b.d_coef)} for every gain (the plant numerator has no {_coef_name(b.power)} "
@@ -582,14 +589,14 @@ def asymptote_reason(a: AsymptoteFacts, last: Crossing | None, beyond: float | N
                        "half-plane")
     past = beyond_word(a.sign)
     if beyond is not None and last is not None:
-        text += (f"; closed-loop poles cross the imaginary axis at K = {f.num(last.gain)} "
-                 f"(s = ±{f.num(last.frequency)}j) and every gain {past} K = {f.num(beyond)} is "
+        text += (f"; closed-loop poles reach the imaginary axis at K = {f.num(last.gain)} "
+                 f"({_axis_point(last.frequency)}) and every gain {past} K = {f.num(beyond)} is "
                  "unstable.")
     elif beyond is not None:
         text += f"; every gain {past} K = {f.num(beyond)} is unstable."
     elif last is not None:
         text += (f"; the last imaginary-axis crossing is at K = {f.num(last.gain)} "
-                 f"(s = ±{f.num(last.frequency)}j).")
+                 f"({_axis_point(last.frequency)}).")
     else:
         text += "."
     return Reason("asymptotes", a.sign, text, data)
