@@ -316,7 +316,8 @@ class StructuralFacts:
         cands = [b.bound for b in self.peak_combined]
         if self.delay_peak_t is not None:
             cands.append(self.delay_peak_t - 1.0)  # |S| >= |T| - 1
-        cands = [c for c in cands if c > 1.0]
+        # a hidden unstable mode makes the bound infinite; it is reported on its own
+        cands = [c for c in cands if 1.0 < c < math.inf]
         return max(cands) if cands else None
 
     def to_json(self) -> dict:
