@@ -368,40 +368,41 @@ denominator = [1.0, 1.0]
     assert _svg_peak(sec) == pytest.approx(float(np.max(np.abs(1 / (1 + L)))), abs=0.001)
 
 
-def test_report_from_the_real_design_pipeline(tmp_path):
+def test_report_for_a_bundled_case_from_the_real_pipeline(tmp_path):
+    # the heated tank with a 10 s transport delay, through synth.design with a short budget
     pytest.importorskip("synth.design", reason="synth.design has not landed yet")
-    from synth.design import run_design
+    import dataclasses
+    from pathlib import Path
 
-    problem = problem_from_text("""
-[plant]
-label = "small servo"
-numerator = [4.0]
-denominator = [1.0, 2.0, 0.0]
-[requirements]
-max_overshoot_percent = 20.0
-max_settling_time = 3.0
-[search]
-structures = ["lead"]
-time_budget = 0.5
-keep = 1
-""", "servo.toml")
-    doc = add_implementation_forms(run_design(problem).to_json(), sample_time=0.02)
+    from synth.design import run_design
+    from synth.requirements import load_problem
+
+    case = Path(__file__).resolve().parents[1] / "cases" / "heated-tank-delay.toml"
+    problem = load_problem(case)
+    problem = dataclasses.replace(problem, search=dataclasses.replace(
+        problem.search, time_budget=0.5, keep=1, structures=("PI",)))
+    doc = add_implementation_forms(run_design(problem).to_json(), sample_time=1.0)
     designs = doc["designs"]
     assert designs
-    written = write_report(problem, doc, tmp_path / "servo")
+    written = write_report(problem, doc, tmp_path / "tank")
     page = _Page()
     html_text = written[0].read_text(encoding="utf-8")
     page.feed(html_text)
-    n = min(3, len(designs))
-    assert page.figures == list(FIGURE_KINDS) * n and page.svg_roots == 4 * n
+    assert page.figures == list(FIGURE_KINDS) and page.svg_roots == 4
     assert page.sections[0] == "cautions"
-    # the top design's sensitivity peak in its figure, against scipy.signal.freqresp
+    for title in (*SECTION_TITLES.values(), "Design 1: PI"):
+        assert title in page.h2
+    text = " ".join(page.text)
+    assert "exact dead time of 10 s" in text
+    # the sensitivity peak in the figure, against scipy.signal.freqresp of the rational part
+    # times exp(-j w 10) for the exact delay
     top = designs[0]["compensator"]
-    _, L = freqresp((np.polymul(top["numerator"], [4.0]),
-                     np.polymul(top["denominator"], [1.0, 2.0, 0.0])),
-                    w=np.logspace(-3, 4, 70001))
-    end = html_text.index('id="design-2"') if n > 1 else html_text.index('id="notes"')
-    sec = html_text[html_text.index('id="design-1"'):end]
+    plant = problem.plant
+    w = np.logspace(-4, 0, 40001)
+    _, L = freqresp((np.polymul(top["numerator"], plant.rational_num),
+                     np.polymul(top["denominator"], plant.rational_den)), w=w)
+    L = L * np.exp(-1j * w * plant.dead_time)
+    sec = html_text[html_text.index('id="design-1"'):html_text.index('id="notes"')]
     ms = float(np.max(np.abs(1.0 / (1.0 + L))))
     # printed to 3 significant digits
     assert _svg_peak(sec) == pytest.approx(ms, abs=0.51 * 10 ** (math.floor(math.log10(ms)) - 2))
