@@ -42,10 +42,7 @@ PALETTE = {
     "effort": "#9a5b22",
     "limit": "#b5485d",
     "band": "#f2d98c",
-    "forbidden": "#f6e3e7",
     "operating": "#2b9a5a",
-    "pole": "#22303c",
-    "zero": "#22303c",
     "phase": "#5a4e9c",
 }
 
