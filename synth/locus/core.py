@@ -200,6 +200,9 @@ def boundary_gains(num, den, region=None) -> np.ndarray:
     k = k[np.isfinite(k)]
     if k.size == 0:
         return k
+    # a crossing at a pole on the boundary has K = 0 up to rounding: make it exact
+    k_scale = np.max(np.abs(d)) / max(np.max(np.abs(n)), 1e-300)
+    k = np.where(np.abs(k) <= 1e-12 * k_scale, 0.0, k)
     k = np.sort(k)
     # merge numerically coincident candidates
     keep = np.concatenate([[True], np.diff(k) > 1e-12 * np.maximum(1.0, np.abs(k[1:]))])
