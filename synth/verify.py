@@ -49,6 +49,7 @@ References
 
 from __future__ import annotations
 
+import cmath
 import math
 from dataclasses import dataclass, field
 from typing import Any
@@ -561,14 +562,28 @@ def frequency_metrics(problem, num_c, den_c) -> dict[str, Any]:
     lden = np.polymul(dc, plant.rational_den)
     delay = plant.dead_time
 
-    def loop(w):
-        s = 1j * np.asarray(w, dtype=float)
+    ln, ld = lnum.tolist(), lden.tolist()
+
+    def loop_grid(w):
+        s = 1j * w
         val = np.polyval(lnum, s) / np.polyval(lden, s)
         return val * np.exp(-s * delay) if delay else val
 
+    def loop(w):
+        """L(jw) at one frequency: Horner in Python complex arithmetic (fast for scalars)."""
+        s = complex(0.0, w)
+        a = 0j
+        for c in ln:
+            a = a * s + c
+        b = 0j
+        for c in ld:
+            b = b * s + c
+        val = a / b if b != 0 else complex(math.inf, 0.0)
+        return val * cmath.exp(-s * delay) if delay else val
+
     w = _frequency_grid(plant, nc, dc)
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        L = loop(w)
+        L = loop_grid(w)
     finite = np.isfinite(L)
     lw = np.log(w)
 
@@ -579,7 +594,7 @@ def frequency_metrics(problem, num_c, den_c) -> dict[str, Any]:
     pms, dms, wcs = [], [], []
     mag = np.log(np.abs(L))
     sc = np.flatnonzero(finite[:-1] & finite[1:] & (np.sign(mag[:-1]) != np.sign(mag[1:])))
-    f_mag = on_log(lambda x: float(np.log(abs(loop(x)))))
+    f_mag = on_log(lambda x: math.log(abs(loop(x))))
     for i in sc:
         try:
             x = brentq(f_mag, lw[i], lw[i + 1], xtol=1e-12)
@@ -594,8 +609,20 @@ def frequency_metrics(problem, num_c, den_c) -> dict[str, Any]:
     # phase crossovers: L real negative
     gms = []
     im = L.imag
-    pc = np.flatnonzero(finite[:-1] & finite[1:] & (np.sign(im[:-1]) != np.sign(im[1:])))
-    f_im = on_log(lambda x: float(loop(x).imag / max(abs(loop(x)), 1e-300)))
+    pc = np.flatnonzero(finite[:-1] & finite[1:] & (np.sign(im[:-1]) != np.sign(im[1:]))
+                        & (L.real[:-1] < 0) & (np.abs(L[:-1]) < 2.0))
+    if pc.size:
+        # only the crossings that can give the smallest margin need refining (a dead
+        # time makes the phase wrap endlessly at high frequency, where |L| is tiny)
+        near = np.abs(L[pc])
+        below = near[near < 1.0]
+        if below.size:
+            pc = pc[near >= 0.5 * np.max(below)]
+
+    def f_im(x):
+        v = loop(math.exp(x))
+        return v.imag / max(abs(v), 1e-300)
+
     for i in pc:
         try:
             x = brentq(f_im, lw[i], lw[i + 1], xtol=1e-12)
@@ -621,7 +648,7 @@ def frequency_metrics(problem, num_c, den_c) -> dict[str, Any]:
     i = int(np.argmax(S))
     ms = float(S[i])
     if 0 < i < w.size - 1:
-        res = minimize_scalar(lambda x: -1.0 / abs(1.0 + complex(loop(math.exp(x)))),
+        res = minimize_scalar(lambda x: -1.0 / abs(1.0 + loop(math.exp(x))),
                               bounds=(lw[i - 1], lw[i + 1]), method="bounded",
                               options={"xatol": 1e-10})
         if res.success:

@@ -1,0 +1,482 @@
+"""The ``synth design`` pipeline: search every structure, verify every candidate, rank.
+
+:func:`run_design` loops over the structure families (``search.structures``,
+or all of them), runs every available strategy of :mod:`synth.search` on each
+within a fair share of ``search.time_budget``, verifies every candidate with
+:func:`synth.verify.verify`, ranks them with :func:`synth.rank.rank_designs`
+and keeps ``search.keep``.  The result, :class:`DesignRun`, gives the
+contract's ``synth.design/1`` JSON and the terminal table.
+
+Time.  Each family gets ``time_budget / number of families`` seconds for its
+strategies; within it, strategy i may run until its cumulative share of the
+slice (placement 15 %, convex 35 %, search 50 %, renormalised over the
+strategies present), so time one strategy leaves passes to the next and a
+slow one cannot starve the global search.
+The strategies do a fixed amount of work that normally ends well within the
+share, so the same file and seed give the same ranking; the share is a
+safety cap, and a family cut by it is listed in ``search.time_capped`` of
+the JSON.  Verification comes on top of the search time.
+
+Dead time.  All candidates are first verified with the Pade form in the
+simulation (quick); then, in rank order, each design that would be reported
+is re-verified with the exact delay and the ranking recomputed, until every
+reported design carries an exact-delay verdict.
+"""
+
+from __future__ import annotations
+
+import math
+import time
+import zlib
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+
+from synth.plant import describe_factored
+from synth.rank import RankedDesign, rank_designs
+from synth.search import available_strategies
+from synth.structures import FAMILIES, families_for
+from synth.verify import METRIC_KEYS, verify
+
+__all__ = ["CAUTION", "DesignRun", "SCHEMA", "run_design"]
+
+SCHEMA = "synth.design/1"
+
+CAUTION = ("These designs rest on a linear model. Verify them against actuator saturation, "
+           "delays, sampling and nonlinearity, commission with reduced gains and hardware "
+           "limits in place, and follow local codes, functional-safety standards and licensed "
+           "engineering practice.")
+
+ProgressFn = Callable[[float, float, str], None]
+
+#: Relative share of a family's time slice per strategy origin (normalised over
+#: the strategies present; unused time passes to the next strategy).
+_STRATEGY_WEIGHT = {"placement": 0.15, "convex": 0.35, "search": 0.5}
+
+
+# ----------------------------------------------------------------------------
+# helpers
+# ----------------------------------------------------------------------------
+
+
+def _clean(x):
+    """JSON-safe copy: numpy scalars to Python, NaN and infinities to None."""
+    if isinstance(x, dict):
+        return {str(k): _clean(v) for k, v in x.items()}
+    if isinstance(x, (list, tuple)):
+        return [_clean(v) for v in x]
+    if isinstance(x, np.ndarray):
+        return [_clean(v) for v in x.tolist()]
+    if isinstance(x, (bool, np.bool_)):
+        return bool(x)
+    if isinstance(x, (int, np.integer)):
+        return int(x)
+    if isinstance(x, (float, np.floating)):
+        v = float(x)
+        return v if math.isfinite(v) else None
+    if isinstance(x, complex):
+        return [_clean(x.real), _clean(x.imag)]
+    return x
+
+
+def _pairs(roots) -> list[list[float]]:
+    rs = sorted((complex(r) for r in roots), key=lambda z: (z.real, z.imag))
+    return [[float(r.real), float(r.imag)] for r in rs]
+
+
+def _ivs_json(ivs) -> list:
+    return [[None if a is None else float(a), None if b is None else float(b)] for a, b in ivs]
+
+
+def _derived_seed(seed: int, *labels: str) -> int:
+    """A per-family, per-strategy seed from the file's seed (stable across runs and Pythons)."""
+    h = zlib.crc32("/".join(labels).encode())
+    return int((int(seed) * 1_000_003 + h) % (2**32))
+
+
+def _explain(problem):
+    """The explain result, or None while synth.explain is not available."""
+    try:
+        from synth.explain import explain_problem
+    except ImportError:
+        return None
+    return explain_problem(problem)
+
+
+def _proportional(problem, explanation) -> dict:
+    """The contract's ``proportional`` object (from explain, else from the engine)."""
+    if explanation is not None:
+        return explanation.to_json()["proportional"]
+    from synth.locus.core import region_gain_intervals, stable_gain_intervals
+
+    plant = problem.plant
+    return {"stabilizing_gain_intervals": _ivs_json(stable_gain_intervals(plant.num, plant.den)),
+            "requirement_gain_intervals": _ivs_json(
+                region_gain_intervals(plant.num, plant.den, problem.region))}
+
+
+def _interval_point(lo, hi, scale: float) -> float:
+    """A representative gain inside the open interval (lo, hi)."""
+    if lo is not None and hi is not None:
+        if lo > 0 or hi < 0:
+            return math.copysign(math.sqrt(lo * hi), hi)
+        return 0.5 * (lo + hi)
+    if lo is None and hi is None:
+        return scale
+    if lo is None:
+        return hi / 2.0 if hi > 0 else (2.0 * hi if hi < 0 else -scale)
+    return 2.0 * lo if lo > 0 else (lo / 2.0 if lo < 0 else scale)
+
+
+def _gain_seeds(problem, explanation) -> tuple[float, ...]:
+    """Proportional gains to start from: those passing the most checks first."""
+    from synth.locus.core import region_gain_intervals, stable_gain_intervals
+    from synth.structures import SearchSpace
+
+    plant = problem.plant
+    if explanation is not None:
+        groups = [explanation.candidate_gain_intervals, explanation.requirement_in_gain_range,
+                  explanation.stabilizing_in_gain_range]
+    else:
+        groups = [region_gain_intervals(plant.num, plant.den, problem.region),
+                  stable_gain_intervals(plant.num, plant.den)]
+    scale = max(1e-12, SearchSpace.for_problem(problem).gain_scale * 1e4)
+    gr = problem.requirements.gain_range
+    out: list[float] = []
+    for ivs in groups:
+        for lo, hi in ivs:
+            k = _interval_point(lo, hi, scale)
+            if gr is not None and not (gr[0] <= k <= gr[1]):
+                continue
+            if math.isfinite(k) and all(abs(k - o) > 1e-9 * max(1.0, abs(o)) for o in out):
+                out.append(float(k))
+    return tuple(out[:6])
+
+
+# ----------------------------------------------------------------------------
+# the result
+# ----------------------------------------------------------------------------
+
+#: requirement key -> (column header format, metric key, shortfall key)
+_COLUMNS = (
+    ("max_overshoot_percent", "OS%<={:g}", "overshoot_percent", "overshoot"),
+    ("max_settling_time", "Ts<={:g}s", "settling_time", "settling"),
+    ("max_rise_time", "Tr<={:g}s", "rise_time", "rise"),
+    ("max_steady_state_error", "ess<={:g}", "steady_state_error", "steady_state_error"),
+    ("min_damping_ratio", "zeta>={:g}", "min_damping_ratio", "damping"),
+    ("min_phase_margin_deg", "PM>={:g}", "phase_margin_deg", "phase_margin"),
+    ("min_gain_margin_db", "GM>={:g}dB", "gain_margin_db", "gain_margin"),
+    ("max_peak_sensitivity", "Ms<={:g}", "peak_sensitivity", "peak_sensitivity"),
+    ("max_control_effort", "|u|<={:g}", "peak_control_effort", "control_effort"),
+    ("plant_gain_range", "kG in [{:g},{:g}]", "stable_plant_gain_range", "plant_gain_range"),
+    ("gain_range", "K in [{:g},{:g}]", "gain", "gain_range"),
+)
+
+
+def _num(v, digits: int = 3) -> str:
+    if v is None:
+        return "inf"
+    if isinstance(v, (list, tuple)):
+        a = "-inf" if v[0] is None else f"{v[0]:.{digits}g}"
+        b = "inf" if v[1] is None else f"{v[1]:.{digits}g}"
+        return f"({a},{b})"
+    return f"{v:.{digits}g}"
+
+
+@dataclass(frozen=True)
+class DesignRun:
+    """The outcome of :func:`run_design`.
+
+    Attributes
+    ----------
+    problem : synth.requirements.Problem
+    designs : tuple of RankedDesign
+        Ranked, near duplicates removed, at most ``search.keep``.
+    proportional : dict
+        The contract's ``proportional`` object of the plant.
+    explanation : object or None
+        The :func:`synth.explain.explain_problem` result when available.
+    stats : dict
+        Search bookkeeping (strategies run, candidates, time per family,
+        families cut by the time cap).
+    """
+
+    problem: Any
+    designs: tuple[RankedDesign, ...]
+    proportional: dict
+    explanation: Any = None
+    stats: dict = field(default_factory=dict)
+
+    @property
+    def any_feasible(self) -> bool:
+        """Whether some design meets every requirement (the CLI exits 3 when not)."""
+        return any(d.verdict.feasible for d in self.designs)
+
+    @property
+    def best(self) -> RankedDesign | None:
+        return self.designs[0] if self.designs else None
+
+    # -- JSON ----------------------------------------------------------------------------
+    def _design_json(self, d: RankedDesign) -> dict:
+        c, v = d.candidate, d.verdict
+        num = np.asarray(c.num, dtype=float)
+        den = np.asarray(c.den, dtype=float)
+        zeros = np.roots(num) if num.size > 1 else []
+        poles = np.roots(den) if den.size > 1 else []
+        family = FAMILIES.get(c.structure)
+        description = f"{c.structure}: C(s) = {describe_factored(num, den)}"
+        params = None
+        if family is not None and c.params:
+            from synth.structures import SearchSpace
+
+            fam = family(SearchSpace.for_problem(self.problem))
+            description = fam.describe(np.asarray(c.params))
+            params = fam.natural(np.asarray(c.params))
+        metrics = {k: v.metrics.get(k) for k in METRIC_KEYS}
+        metrics.update({k: v.metrics.get(k) for k in ("delay_margin", "crossover_frequency",
+                                                       "final_value", "in_region")})
+        out = {
+            "rank": d.rank,
+            "structure": c.structure,
+            "origin": c.origin,
+            "feasible": v.feasible,
+            "compensator": {"numerator": [float(x) for x in num],
+                            "denominator": [float(x) for x in den],
+                            "zeros": _pairs(zeros), "poles": _pairs(poles),
+                            "gain": float(num[0] / den[0])},
+            "closed_loop_poles": _pairs(v.closed_loop_poles),
+            "metrics": metrics,
+            "violations": list(v.violations),
+            "description": description,
+            "score": d.score,
+            "internally_stable": v.internally_stable,
+            "time_domain": ("exact dead time" if v.exact_delay and self.problem.plant.dead_time
+                            else ("Pade form of the dead time" if self.problem.plant.dead_time
+                                  else "no dead time")),
+            "notes": list(v.notes),
+            "provenance": dict(c.provenance),
+        }
+        if params is not None:
+            out["params"] = params
+        return out
+
+    def to_json(self) -> dict:
+        """The contract's ``synth.design/1`` object plus extra fields; no NaN or infinity."""
+        region = self.problem.region
+        s = self.problem.search
+        out = {
+            "schema": SCHEMA,
+            "plant": self.problem.plant.to_json(),
+            "designs": [self._design_json(d) for d in self.designs],
+            "requirements": self.problem.requirements.given(),
+            "region": {"decay_rate": region.sigma, "damping": region.zeta,
+                       "description": region.describe()},
+            "proportional": self.proportional,
+            "caution": CAUTION,
+            "search": {"seed": s.seed, "time_budget": s.time_budget, "keep": s.keep,
+                       "structures": list(s.structures or FAMILIES), **self.stats},
+        }
+        if self.problem.source:
+            out["source"] = self.problem.source
+        return _clean(out)
+
+    # -- terminal ------------------------------------------------------------------------
+    def _proportional_lines(self) -> list[str]:
+        """The proportional verdict, shown when a plain gain cannot do the job."""
+        p_ok = any(d.verdict.feasible and d.candidate.structure == "P" for d in self.designs)
+        if p_ok:
+            return []
+        if self.explanation is not None:
+            return [*_verdict_sections(self.explanation.text_lines()), ""]
+        ivs = self.proportional.get("requirement_gain_intervals", [])
+        stab = self.proportional.get("stabilizing_gain_intervals", [])
+        return [f"Proportional gain alone: stabilises for {_ivs_text(stab)}; meets the region "
+                f"for {_ivs_text(ivs)}; no plain gain met every requirement.", ""]
+
+    def table_lines(self) -> list[str]:
+        """The terminal account: proportional verdict, ranked table, caution."""
+        pr = self.problem
+        req = pr.requirements
+        lines = self._proportional_lines()
+        title = pr.plant.label or pr.source
+        lines.append(f"Designs for {pr.plant.describe()}" + (f"  ({title})" if title else ""))
+        if not pr.region.is_stability_only:
+            lines.append(f"  requirement region: {pr.region.describe()}")
+        cols = []
+        for key, head, metric, skey in _COLUMNS:
+            val = getattr(req, key)
+            if val is None:
+                continue
+            cols.append((head.format(*val) if isinstance(val, tuple) else head.format(val),
+                         metric, skey))
+        if req.max_peak_sensitivity is None:
+            cols.append(("Ms", "peak_sensitivity", None))
+        if req.max_control_effort is None:
+            cols.append(("|u|max", "peak_control_effort", None))
+        if req.max_settling_time is None:
+            cols.append(("Ts", "settling_time", None))
+        header = ["rank", "structure", "origin", "ok?"] + [c[0] for c in cols]
+        rows = []
+        for d in self.designs:
+            v = d.verdict
+            cells = [str(d.rank), d.candidate.structure, d.candidate.origin,
+                     "yes" if v.feasible else "NO"]
+            for _, metric, skey in cols:
+                if not v.stable and metric != "gain":
+                    cells.append("-")
+                    continue
+                text = _num(v.metrics.get(metric))
+                if skey is not None:
+                    text += " ok" if skey not in v.shortfalls else " FAIL"
+                cells.append(text)
+            rows.append((cells, d))
+        widths = [max(len(header[i]), *(len(r[0][i]) for r in rows)) if rows else len(header[i])
+                  for i in range(len(header))]
+        lines.append("")
+        lines.append("  ".join(h.rjust(w) if i == 0 else h.ljust(w)
+                               for i, (h, w) in enumerate(zip(header, widths, strict=True))))
+        lines.append("  ".join("-" * w for w in widths))
+        for cells, d in rows:
+            lines.append("  ".join(c.rjust(w) if i == 0 else c.ljust(w)
+                                   for i, (c, w) in enumerate(zip(cells, widths, strict=True))))
+            num, den = np.asarray(d.candidate.num), np.asarray(d.candidate.den)
+            lines.append(f"{'':>{widths[0]}}  C(s) = {describe_factored(num, den)}")
+            for text in d.verdict.violations:
+                lines.append(f"{'':>{widths[0]}}  fails: {text}")
+        if not self.designs:
+            lines.append("  no candidate was proposed")
+        n_ok = sum(d.verdict.feasible for d in self.designs)
+        st = self.stats
+        lines.append("")
+        lines.append(f"{n_ok} of {len(self.designs)} listed designs meet every requirement "
+                     f"({st.get('candidates', 0)} candidates verified, search "
+                     f"{st.get('search_seconds', 0.0):.1f} s).")
+        if st.get("time_capped"):
+            lines.append("  time cap reached for: " + ", ".join(st["time_capped"])
+                         + " (the ranking may differ between runs; raise search.time_budget)")
+        lines.append("")
+        lines.append("Caution: " + CAUTION)
+        return lines
+
+
+def _verdict_sections(lines: list[str]) -> list[str]:
+    """The proportional block (and any warnings) of the explain account.
+
+    The account's sections are separated by blank lines; the one that starts
+    with "Proportional" holds the verdict.  Falls back to the first lines.
+    """
+    sections: list[list[str]] = [[]]
+    for line in lines:
+        if line.strip():
+            sections[-1].append(line)
+        elif sections[-1]:
+            sections.append([])
+    keep = [sec for sec in sections if sec and (sec[0].startswith("Proportional")
+                                                or sec[0].startswith("Warnings"))]
+    if not keep:
+        return lines[:8]
+    out: list[str] = []
+    for sec in keep:
+        out.extend(sec)
+    return out
+
+
+def _ivs_text(ivs) -> str:
+    if not ivs:
+        return "no gain"
+    parts = []
+    for a, b in ivs:
+        parts.append(f"({'-inf' if a is None else format(a, '.4g')}, "
+                     f"{'inf' if b is None else format(b, '.4g')})")
+    return " U ".join(parts)
+
+
+# ----------------------------------------------------------------------------
+# the pipeline
+# ----------------------------------------------------------------------------
+
+
+def _verify_all(problem, cands, exact: bool) -> list:
+    return [verify(problem, np.asarray(c.num), np.asarray(c.den), exact_delay=exact)
+            for c in cands]
+
+
+def run_design(problem, progress: ProgressFn | None = None) -> DesignRun:
+    """Search, verify and rank compensators for ``problem``.
+
+    Parameters
+    ----------
+    problem : synth.requirements.Problem
+    progress : callable, optional
+        ``progress(done, total, label)``, called as the work advances (the CLI
+        draws a progress bar with it).
+
+    Returns
+    -------
+    DesignRun
+    """
+    from synth.search import SearchContext
+
+    search = problem.search
+    explanation = _explain(problem)
+    proportional = _proportional(problem, explanation)
+    seeds = _gain_seeds(problem, explanation)
+    families = families_for(problem)
+    strategies = available_strategies()
+    total = len(families) * len(strategies) + 1
+    done = 0
+    share = search.time_budget / max(1, len(families))
+    candidates = []
+    per_family: dict[str, float] = {}
+    capped: list[str] = []
+    t_search = time.monotonic()
+    weights = [_STRATEGY_WEIGHT.get(m.ORIGIN, 1.0) for m in strategies]
+    cum = np.cumsum(weights) / max(sum(weights), 1e-12)
+    for fam in families:
+        start = time.monotonic()
+        found: list = []
+        for mod, frac in zip(strategies, cum, strict=True):
+            # each strategy may use the time up to its cumulative share of the family's
+            # slice, so a slow strategy cannot starve the ones after it
+            deadline = start + share * float(frac)
+            ctx = SearchContext(seed=_derived_seed(search.seed, fam.name, mod.ORIGIN),
+                                deadline=deadline, budget=max(0.0, deadline - time.monotonic()),
+                                gain_seeds=seeds, prior=tuple(found), explanation=explanation)
+            if ctx.budget > 0:
+                new = list(mod.propose(problem, fam, ctx))
+                found.extend(new)
+                if any(c.provenance.get("time_capped") for c in new) and fam.name not in capped:
+                    capped.append(fam.name)
+            done += 1
+            if progress is not None:
+                progress(done, total, f"{fam.name} ({mod.ORIGIN})")
+        candidates.extend(found)
+        per_family[fam.name] = round(time.monotonic() - start, 3)
+    search_seconds = time.monotonic() - t_search
+
+    dead = problem.plant.dead_time > 0
+    verdicts = _verify_all(problem, candidates, exact=not dead)
+    pairs = list(zip(candidates, verdicts, strict=True))
+    if dead:
+        # make every reported design carry an exact-delay verdict
+        exact = [False] * len(pairs)
+        index = {id(c): i for i, c in enumerate(candidates)}
+        while True:
+            ranked = rank_designs(pairs, problem)
+            todo = [index[id(d.candidate)] for d in ranked if not exact[index[id(d.candidate)]]]
+            if not todo:
+                break
+            for i in todo:
+                c = candidates[i]
+                pairs[i] = (c, verify(problem, np.asarray(c.num), np.asarray(c.den)))
+                exact[i] = True
+    ranked = rank_designs(pairs, problem)
+    if progress is not None:
+        progress(total, total, "verified")
+    stats = {"strategies": [m.ORIGIN for m in strategies], "candidates": len(candidates),
+             "search_seconds": round(search_seconds, 3), "family_seconds": per_family,
+             "time_capped": capped}
+    return DesignRun(problem=problem, designs=tuple(ranked), proportional=proportional,
+                     explanation=explanation, stats=stats)

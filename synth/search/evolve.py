@@ -1,0 +1,478 @@
+"""Global search by differential evolution, polished by compass search (origin ``"search"``).
+
+For one structure family the search minimises, over the family's box of
+log-scaled pole and zero magnitudes and the ``asinh`` gain coordinate, a
+vectorised objective that is
+
+* ``10 + log(1 + unstable part)`` for an unstable closed loop (the summed
+  positive real parts of the closed-loop poles, relative to the problem's
+  characteristic frequency), so any stable candidate beats any unstable one;
+* ``1 + shortfall`` for a stable loop that misses a requirement, the
+  shortfall being the sum of the normalised excesses over every requirement
+  (estimated from a coarse simulation and frequency sweep, see below) plus a
+  small shaping term for closed-loop poles outside the requirement region;
+* the ranking score of :mod:`synth.rank` (in [0, 1), lower is better) once
+  every estimate meets its requirement with a small safety margin.
+
+Estimates used inside the objective, all vectorised over the population:
+closed-loop poles by batched companion eigenvalues; the unit-step response
+of output and control from the modal expansion
+``y(t) = T(0) + sum_i Res_i exp(p_i t)`` on a 240-point grid (engine form:
+a dead time enters by its Pade form); margins and peak sensitivity from
+``L(jw)`` on a fixed 160-point grid with the exact dead time; stability over
+the plant-gain range by the eigenvalue-free kernel at test factors.  These
+are estimates: every proposal is verified afterwards by :func:`synth.verify.verify`.
+
+Determinism.  All randomness comes from ``context.seed`` (initial Latin
+hypercube and the evolution's own generator); generations and polish
+evaluations are fixed numbers, so the same problem and seed give the same
+proposals.  The deadline is only a safety cap: when it cuts the evolution,
+the provenance says so (``time_capped``) and the run is no longer
+guaranteed to repeat.
+
+References
+----------
+.. [1] R. Storn and K. Price, "Differential evolution - a simple and
+   efficient heuristic for global optimization over continuous spaces",
+   Journal of Global Optimization 11, 1997.
+.. [2] T. G. Kolda, R. M. Lewis and V. Torczon, "Optimization by direct
+   search: new perspectives on some classical and modern methods", SIAM
+   Review 45(3), 2003 (the compass search of the polish, batched here so
+   each iteration is one vectorised evaluation).
+.. [3] M. D. McKay, R. J. Beckman and W. J. Conover, "A comparison of three
+   methods for selecting values of input variables in the analysis of
+   output from a computer code", Technometrics 21(2), 1979 (Latin hypercube).
+"""
+
+from __future__ import annotations
+
+import math
+import time
+from dataclasses import dataclass
+
+import numpy as np
+
+from synth.search import candidate_from_params
+
+__all__ = ["ORIGIN", "SearchObjective", "propose"]
+
+ORIGIN = "search"
+
+#: Safety factors applied to the limits inside the search, so that designs
+#: estimated feasible on the coarse grids survive the exact verification.
+_TIGHTEN = 0.95
+#: Points of the modal step-response grid and of the frequency grid.
+_T_POINTS = 240
+_W_POINTS = 160
+#: Population size (about; rounded to a multiple of the dimension) and generations.
+_POPULATION = 42
+_BASE_GENERATIONS = 40
+_GENERATIONS_PER_PARAM = 15
+#: How many distinct candidates a family returns, and how many get polished.
+_N_OUT = 4
+_N_POLISH = 2
+_POLISH_ITERATIONS = 30
+_POLISH_STEP = 0.02
+
+
+def _batch_mul(P, q):
+    q = np.asarray(q, dtype=float)
+    out = np.zeros((P.shape[0], P.shape[1] + q.size - 1))
+    for j, c in enumerate(q):
+        out[:, j:j + P.shape[1]] += c * P
+    return out
+
+
+def _pad_to(P, width):
+    if P.shape[1] == width:
+        return P
+    out = np.zeros((P.shape[0], width))
+    out[:, width - P.shape[1]:] = P
+    return out
+
+
+def _polyval_rows(P, Z):
+    """Evaluate row i of the polynomial batch P at every entry of row i of Z."""
+    out = np.zeros(Z.shape, dtype=complex)
+    for j in range(P.shape[1]):
+        out = out * Z + P[:, j:j + 1]
+    return out
+
+
+def _polyval_grid(P, s):
+    """Evaluate every row of P at the common points s: shape (B, len(s))."""
+    out = np.zeros((P.shape[0], s.size), dtype=complex)
+    for j in range(P.shape[1]):
+        out = out * s[None, :] + P[:, j:j + 1]
+    return out
+
+
+def _first_crossing(t, z, level):
+    """Per row: first time z reaches level (linear interpolation), inf when never."""
+    hit = z >= level
+    any_hit = hit.any(axis=1)
+    i = np.argmax(hit, axis=1)
+    rows = np.arange(z.shape[0])
+    im1 = np.maximum(i - 1, 0)
+    a, b = z[rows, im1], z[rows, i]
+    ta, tb = t[rows, im1], t[rows, i]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        frac = np.where(b > a, (level - a) / (b - a), 0.0)
+    tt = np.where(i == 0, t[rows, 0], ta + np.clip(frac, 0, 1) * (tb - ta))
+    return np.where(any_hit, tt, np.inf)
+
+
+@dataclass(frozen=True)
+class _Limits:
+    overshoot: float | None
+    settling: float | None
+    rise: float | None
+    sse: float | None
+    zeta: float | None
+    pm: float | None
+    gm_db: float | None
+    ms: float | None
+    effort: float | None
+    plant_range: tuple[float, float] | None
+
+
+class SearchObjective:
+    """Vectorised objective of one family for one problem (see the module docstring).
+
+    Call with ``X`` of shape (B, n_params); returns shape (B,).
+    :meth:`details` returns the estimated metrics as arrays.
+    """
+
+    def __init__(self, problem, family):
+        from synth.rank import reference_scales
+
+        self.problem = problem
+        self.family = family
+        plant = problem.plant
+        self.gnum = plant.num
+        self.gden = plant.den
+        self.region = problem.region
+        req = problem.requirements
+        self.band = req.settling_band_percent / 100.0
+        t = _TIGHTEN
+        self.lim = _Limits(
+            overshoot=None if req.max_overshoot_percent is None else t * req.max_overshoot_percent,
+            settling=None if req.max_settling_time is None else t * req.max_settling_time,
+            rise=None if req.max_rise_time is None else t * req.max_rise_time,
+            sse=None if req.max_steady_state_error is None else t * req.max_steady_state_error,
+            zeta=None if req.min_damping_ratio is None else min(0.9999, req.min_damping_ratio / t),
+            pm=None if req.min_phase_margin_deg is None else min(179.0, req.min_phase_margin_deg / t),
+            gm_db=None if req.min_gain_margin_db is None else req.min_gain_margin_db / t,
+            ms=None if req.max_peak_sensitivity is None else 1.0 + t * (req.max_peak_sensitivity - 1.0),
+            effort=None if req.max_control_effort is None else t * req.max_control_effort,
+            plant_range=None if req.plant_gain_range is None else
+            (req.plant_gain_range[0] / 1.02, req.plant_gain_range[1] * 1.02),
+        )
+        sp = family.space
+        self.w_char = sp.w_char
+        lo = max(sp.w_min, sp.w_char * 1e-3)
+        hi = min(10.0 * sp.w_max, sp.w_char * 1e3)
+        self.w = np.geomspace(lo, max(hi, 10 * lo), _W_POINTS)
+        self.g_jw = plant.evaluate(1j * self.w, exact_delay=True)
+        self.tau = np.linspace(0.0, 1.0, _T_POINTS) ** 2
+        self.refs = reference_scales(problem)
+        self.ts_floor = req.max_settling_time
+        self.range_factors = (None if self.lim.plant_range is None
+                              else np.geomspace(*self.lim.plant_range, 3))
+
+    # -- the pieces ---------------------------------------------------------------
+    def _loop(self, X):
+        num_c, den_c = self.family.polys(X)
+        num_l = _batch_mul(num_c, self.gnum)
+        den_l = _batch_mul(den_c, self.gden)
+        width = max(num_l.shape[1], den_l.shape[1])
+        num_l, den_l = _pad_to(num_l, width), _pad_to(den_l, width)
+        return num_c, den_c, num_l, den_l, den_l + num_l
+
+    def details(self, X) -> dict[str, np.ndarray]:
+        """Estimated metrics and the objective for a batch (arrays of shape (B,))."""
+        from synth.locus.core import roots_batch
+        from synth.rank import score_arrays
+        from synth.requirements import Region
+        from synth.verify import _in_region
+
+        X = np.atleast_2d(np.asarray(X, dtype=float))
+        B = X.shape[0]
+        num_c, den_c, num_l, den_l, char = self._loop(X)
+        roots = roots_batch(char)
+        finite = np.all(np.isfinite(roots), axis=1)
+        re = np.where(np.isfinite(roots), roots.real, np.inf)
+        stable = finite & np.all(re < 0, axis=1) & _in_region(char, Region())
+        unstable_part = np.sum(np.maximum(np.nan_to_num(re, posinf=1e6), 0.0), axis=1)
+
+        out = {k: np.full(B, np.nan) for k in ("overshoot", "settling", "rise", "sse", "effort",
+                                               "ms", "pm", "gm_db", "zeta", "lo", "hi")}
+        short = np.zeros(B)
+        idx = np.flatnonzero(stable)
+        if idx.size:
+            r = roots[idx]
+            nl, dl, ch = num_l[idx], den_l[idx], char[idx]
+            nc, dc = num_c[idx], den_c[idx]
+            # closed-loop damping and region shaping
+            mag = np.abs(r)
+            zeta = np.min(-r.real / np.maximum(mag, 1e-300), axis=1)
+            out["zeta"][idx] = zeta
+            reg_short = np.sum(np.maximum(-self.region.margin(r), 0.0), axis=1) / self.w_char
+            # modal step response of y and u
+            n = ch.shape[1] - 1
+            powers = np.arange(n, 0, -1)
+            dch = ch[:, :-1] * powers
+            c0 = ch[:, -1]
+            nu = _pad_to(_batch_mul(nc, self.gden), ch.shape[1])
+            with np.errstate(all="ignore"):
+                denom = r * _polyval_rows(dch, r)
+                ry = _polyval_rows(nl, r) / denom
+                ru = _polyval_rows(nu, r) / denom
+                yss = nl[:, -1] / c0
+                uss = nu[:, -1] / c0
+                sig = np.min(-r.real, axis=1)
+                horizon = (math.log(1.0 / self.band) + 6.0) / sig
+                if self.ts_floor is not None:
+                    horizon = np.maximum(horizon, 1.3 * self.ts_floor)
+                t = horizon[:, None] * self.tau[None, :]
+                E = np.exp(r[:, :, None] * t[:, None, :])
+                y = yss[:, None] + np.real(np.einsum("bn,bnt->bt", ry, E))
+                u = uss[:, None] + np.real(np.einsum("bn,bnt->bt", ru, E))
+            ok = np.all(np.isfinite(y), axis=1) & np.all(np.isfinite(u), axis=1)
+            scale = np.maximum(np.abs(yss), 1e-9)
+            sgn = np.where(yss >= 0, 1.0, -1.0)
+            os_ = np.maximum(0.0, np.max(sgn[:, None] * (y - yss[:, None]), axis=1)) / scale * 100
+            outside = np.abs(y - yss[:, None]) > self.band * scale[:, None]
+            last = (t.shape[1] - 1) - np.argmax(outside[:, ::-1], axis=1)
+            rows = np.arange(idx.size)
+            ts = np.where(outside.any(axis=1), t[rows, np.minimum(last + 1, t.shape[1] - 1)], 0.0)
+            z = sgn[:, None] * y / scale[:, None]
+            tr = _first_crossing(t, z, 0.9) - _first_crossing(t, z, 0.1)
+            eff = np.max(np.abs(u), axis=1)
+            sse = np.abs(1.0 - yss)
+            # frequency response with the exact delay
+            s = 1j * self.w
+            with np.errstate(all="ignore"):
+                L = _polyval_grid(nc, s) / _polyval_grid(dc, s) * self.g_jw[None, :]
+                S = 1.0 / np.abs(1.0 + L)
+                ms = np.max(np.where(np.isfinite(S), S, 0.0), axis=1)
+                lm = np.log(np.abs(L))
+                dist = np.degrees(np.abs(np.angle(-L)))  # angular distance from -1
+                cross = np.sign(lm[:, :-1]) != np.sign(lm[:, 1:])
+                frac = np.clip(lm[:, :-1] / (lm[:, :-1] - lm[:, 1:]), 0, 1)
+                pm_seg = dist[:, :-1] + frac * (dist[:, 1:] - dist[:, :-1])
+                pm = np.min(np.where(cross, pm_seg, np.inf), axis=1)
+                im = L.imag
+                pcross = (np.sign(im[:, :-1]) != np.sign(im[:, 1:])) & (L.real[:, :-1] < 0) \
+                    & (L.real[:, 1:] < 0)
+                fi = np.clip(im[:, :-1] / (im[:, :-1] - im[:, 1:]), 0, 1)
+                lmag = np.exp(lm[:, :-1] + fi * (lm[:, 1:] - lm[:, :-1]))
+                inv = 1.0 / lmag
+                hi = np.min(np.where(pcross & (lmag < 1), inv, np.inf), axis=1)
+                lo = np.max(np.where(pcross & (lmag > 1), inv, 0.0), axis=1)
+                gm_db = 20 * np.log10(hi)
+            out["overshoot"][idx] = os_
+            out["settling"][idx] = ts
+            out["rise"][idx] = tr
+            out["sse"][idx] = sse
+            out["effort"][idx] = eff
+            out["ms"][idx] = ms
+            out["pm"][idx] = pm
+            out["gm_db"][idx] = gm_db
+            out["lo"][idx] = lo
+            out["hi"][idx] = hi
+
+            lim = self.lim
+            sh = np.zeros(idx.size)
+            if lim.overshoot is not None:
+                sh += np.maximum(os_ - lim.overshoot, 0) / max(lim.overshoot, 1.0)
+            if lim.settling is not None:
+                sh += np.maximum(ts - lim.settling, 0) / lim.settling
+            if lim.rise is not None:
+                sh += np.minimum(np.maximum(tr - lim.rise, 0) / lim.rise, 10.0)
+            if lim.sse is not None:
+                sh += np.maximum(sse - lim.sse, 0) / max(lim.sse, 0.01)
+            if lim.zeta is not None:
+                sh += np.maximum(lim.zeta - zeta, 0) / lim.zeta
+            if lim.pm is not None:
+                sh += np.maximum(lim.pm - np.minimum(pm, 180.0), 0) / lim.pm
+            if lim.gm_db is not None:
+                sh += np.maximum(lim.gm_db - np.minimum(gm_db, 1e3), 0) / lim.gm_db
+            if lim.ms is not None:
+                sh += np.maximum(ms - lim.ms, 0) / lim.ms
+            if lim.effort is not None:
+                sh += np.maximum(eff - lim.effort, 0) / lim.effort
+            if lim.plant_range is not None:
+                fails = np.zeros(idx.size)
+                for k in self.range_factors:
+                    fails += ~_in_region(dl + k * nl, Region())
+                a, b = lim.plant_range
+                with np.errstate(all="ignore"):
+                    sh += fails / self.range_factors.size
+                    sh += np.maximum(np.log(b / hi), 0) + np.where(lo > 0, np.maximum(
+                        np.log(np.maximum(lo, 1e-300) / a), 0), 0)
+            sh = np.where(ok, sh, 5.0)
+            feas = sh <= 0
+            sc = score_arrays(ms, lo, hi, ts, eff, self.family.n_params, self.refs)
+            val = np.where(feas, np.minimum(sc, 0.999999), 1.0 + sh + 0.1 * np.log1p(reg_short))
+            short[idx] = val
+        f = np.where(stable, short, 10.0 + np.log1p(unstable_part / self.w_char))
+        f = np.where(np.isfinite(f), f, 1e6)
+        out["f"] = f
+        out["stable"] = stable
+        return out
+
+    def __call__(self, X) -> np.ndarray:
+        return self.details(X)["f"]
+
+
+def _lhs(rng, n, lo, hi):
+    """Latin hypercube sample of n points in the box [lo, hi]."""
+    d = lo.size
+    u = (np.argsort(rng.random((n, d)), axis=0) + rng.random((n, d))) / n
+    return lo + u * (hi - lo)
+
+
+def _seeds(family, context) -> list[np.ndarray]:
+    out = []
+    for cand in context.prior:
+        x = family.from_polys(np.asarray(cand.num), np.asarray(cand.den))
+        if x is not None and np.all(np.isfinite(x)):
+            out.append(family.clip(x))
+    for k in context.gain_seeds:
+        x = family.near_gain(k)
+        if np.all(np.isfinite(x)):
+            out.append(family.clip(x))
+    return out
+
+
+def _compass(objective, X, F, lo, hi, deadline):
+    """Batched compass search from several starts at once.
+
+    Each iteration evaluates, for every start, the 2p points one step along
+    each coordinate and one pattern move (repeating the last successful
+    step) in a single batch; a start that does not improve halves its steps.
+
+    References
+    ----------
+    T. G. Kolda, R. M. Lewis and V. Torczon, "Optimization by direct search:
+    new perspectives on some classical and modern methods", SIAM Review
+    45(3), 2003 (compass search).
+    """
+    k, p = X.shape
+    X, F = X.copy(), F.copy()
+    width = np.where(hi > lo, hi - lo, 1.0)
+    steps = np.tile(_POLISH_STEP * width, (k, 1))
+    last = np.zeros_like(X)
+    dirs = np.concatenate([np.eye(p), -np.eye(p)])
+    cut = False
+    for _ in range(_POLISH_ITERATIONS):
+        if time.monotonic() > deadline:
+            cut = True
+            break
+        trial = X[:, None, :] + dirs[None, :, :] * steps[:, None, :]
+        trial = np.concatenate([trial, (X + last)[:, None, :]], axis=1)
+        trial = np.clip(trial, lo, hi)
+        ft = objective(trial.reshape(-1, p)).reshape(k, 2 * p + 1)
+        j = np.argmin(ft, axis=1)
+        best = ft[np.arange(k), j]
+        better = best < F
+        move = trial[np.arange(k), j] - X
+        last = np.where(better[:, None], move, 0.0)
+        X = np.where(better[:, None], trial[np.arange(k), j], X)
+        F = np.where(better, best, F)
+        steps = np.where(better[:, None], steps, 0.5 * steps)
+        if np.all(steps < 1e-7 * width):
+            break
+    return X, F, cut
+
+
+def _distinct(X, E, lo, hi, n_out):
+    """Indices of up to n_out best rows, each at least a little apart in the unit box."""
+    order = np.argsort(E, kind="stable")
+    width = np.where(hi > lo, hi - lo, 1.0)
+    U = (X - lo) / width
+    chosen: list[int] = []
+    min_dist = 0.02 * math.sqrt(X.shape[1])
+    for i in order:
+        if not np.isfinite(E[i]):
+            continue
+        if all(np.linalg.norm(U[i] - U[j]) > min_dist for j in chosen):
+            chosen.append(int(i))
+        if len(chosen) >= n_out:
+            break
+    return chosen
+
+
+def propose(problem, family, context) -> list:
+    """Differential evolution over the family's box, then compass search from the best.
+
+    Parameters
+    ----------
+    problem : synth.requirements.Problem
+    family : synth.structures.Family
+    context : synth.search.SearchContext
+
+    Returns
+    -------
+    list of Candidate
+        Up to four distinct candidates, best estimated first.
+    """
+    from scipy.optimize import differential_evolution
+
+    objective = SearchObjective(problem, family)
+    lo, hi = family.bounds()
+    p = family.n_params
+    rng = np.random.default_rng(context.seed)
+    popmult = max(5, int(math.ceil(_POPULATION / p)))
+    npop = popmult * p
+    init = _lhs(rng, npop, lo, hi)
+    seeds = _seeds(family, context)
+    for i, x in enumerate(seeds[: npop // 2]):
+        init[i] = x
+    generations = _BASE_GENERATIONS + _GENERATIONS_PER_PARAM * p
+    capped = {"hit": False}
+
+    def stop(intermediate_result):
+        if time.monotonic() > context.deadline:
+            capped["hit"] = True
+            raise StopIteration
+
+    res = differential_evolution(
+        lambda Xt: objective(Xt.T), list(zip(lo, hi, strict=True)), maxiter=generations,
+        popsize=popmult, init=init, rng=rng, polish=False, vectorized=True,
+        updating="deferred", workers=1, tol=1e-3, mutation=(0.5, 1.0), recombination=0.9,
+        callback=stop)
+    pop = np.asarray(res.population)
+    energies = np.asarray(res.population_energies)
+    chosen = _distinct(pop, energies, lo, hi, _N_OUT)
+    xs = [pop[i] for i in chosen]
+    fs = [float(energies[i]) for i in chosen]
+    polished = [False] * len(xs)
+    k = min(_N_POLISH, len(xs))
+    if k and time.monotonic() <= context.deadline:
+        X0 = np.array(xs[:k])
+        F0 = np.array(fs[:k])
+        X1, F1, cut = _compass(objective, X0, F0, lo, hi, context.deadline)
+        capped["hit"] |= cut
+        for j in range(k):
+            if F1[j] < fs[j]:
+                xs[j], fs[j], polished[j] = X1[j], float(F1[j]), True
+    elif k:
+        capped["hit"] = True
+    order = np.argsort(fs, kind="stable")
+    out = []
+    for j in order:
+        prov = {
+            "method": "differential evolution (Storn and Price 1997), compass-search polish",
+            "objective": fs[j],
+            "estimated_feasible": bool(fs[j] < 1.0),
+            "polished": polished[j],
+            "generations": int(res.nit),
+            "evaluations": int(res.nfev),
+            "seeded_with": len(seeds),
+            "time_capped": capped["hit"],
+            "seed": int(context.seed),
+        }
+        out.append(candidate_from_params(family, xs[j], ORIGIN, prov))
+    return out
