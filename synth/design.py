@@ -17,6 +17,10 @@ share, so the same file and seed give the same ranking; the share is a
 safety cap, and a family cut by it is listed in ``search.time_capped`` of
 the JSON.  Verification comes on top of the search time.
 
+Strategy errors.  A strategy that raises :class:`synth.errors.SynthError` for
+a family (a case it cannot handle) is skipped for that family and named in
+``search.declined`` of the JSON; any other exception is a bug and propagates.
+
 Dead time.  All candidates are first verified with the Pade form in the
 simulation (quick); then, in rank order, each design that would be reported
 is re-verified with the exact delay and the ranking recomputed, until every
@@ -34,6 +38,7 @@ from typing import Any
 
 import numpy as np
 
+from synth.errors import SynthError
 from synth.plant import describe_factored
 from synth.rank import RankedDesign, rank_designs
 from synth.search import available_strategies
@@ -431,6 +436,7 @@ def run_design(problem, progress: ProgressFn | None = None) -> DesignRun:
     candidates = []
     per_family: dict[str, float] = {}
     capped: list[str] = []
+    skipped: list[str] = []
     t_search = time.monotonic()
     weights = [_STRATEGY_WEIGHT.get(m.ORIGIN, 1.0) for m in strategies]
     cum = np.cumsum(weights) / max(sum(weights), 1e-12)
@@ -445,7 +451,12 @@ def run_design(problem, progress: ProgressFn | None = None) -> DesignRun:
                                 deadline=deadline, budget=max(0.0, deadline - time.monotonic()),
                                 gain_seeds=seeds, prior=tuple(found), explanation=explanation)
             if ctx.budget > 0:
-                new = list(mod.propose(problem, fam, ctx))
+                try:
+                    new = list(mod.propose(problem, fam, ctx))
+                except SynthError as err:
+                    # a strategy that cannot handle this case declines it; the others go on
+                    skipped.append(f"{mod.ORIGIN} on {fam.name}: {err}")
+                    new = []
                 found.extend(new)
                 if any(c.provenance.get("time_capped") for c in new) and fam.name not in capped:
                     capped.append(fam.name)
@@ -477,6 +488,6 @@ def run_design(problem, progress: ProgressFn | None = None) -> DesignRun:
         progress(total, total, "verified")
     stats = {"strategies": [m.ORIGIN for m in strategies], "candidates": len(candidates),
              "search_seconds": round(search_seconds, 3), "family_seconds": per_family,
-             "time_capped": capped}
+             "time_capped": capped, "declined": skipped}
     return DesignRun(problem=problem, designs=tuple(ranked), proportional=proportional,
                      explanation=explanation, stats=stats)

@@ -243,13 +243,18 @@ def screen_batch(problem, nums, dens, range_points: int = 3) -> ScreenResult:
 
 def _ss(num, den):
     """State-space realisation (A, B, C, D) of a proper rational function."""
-    from scipy.signal import tf2ss
+    import warnings
+
+    from scipy.signal import BadCoefficients, tf2ss
 
     n, d = trim(num), trim(den)
     if d.size == 1:
         return (np.zeros((0, 0)), np.zeros((0, 1)), np.zeros((1, 0)),
                 np.array([[n[-1] / d[0]]]))
-    A, B, C, D = tf2ss(n, d)
+    with warnings.catch_warnings():
+        # tiny leading numerator coefficients are legitimate here (no normalisation wanted)
+        warnings.simplefilter("ignore", BadCoefficients)
+        A, B, C, D = tf2ss(n, d)
     return A, B, C, D
 
 
@@ -592,7 +597,8 @@ def frequency_metrics(problem, num_c, den_c) -> dict[str, Any]:
 
     # gain crossovers: |L| = 1
     pms, dms, wcs = [], [], []
-    mag = np.log(np.abs(L))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        mag = np.log(np.abs(L))
     sc = np.flatnonzero(finite[:-1] & finite[1:] & (np.sign(mag[:-1]) != np.sign(mag[1:])))
     f_mag = on_log(lambda x: math.log(abs(loop(x))))
     for i in sc:
@@ -740,6 +746,13 @@ def verify(problem, num_c, den_c, exact_delay: bool = True) -> Verdict:
             notes.append(f"{text} (a stable hidden mode decaying at rate {_fmt(-r.real)} 1/s)")
 
     stable = bool(Region().contains(poles)) if poles.size else True
+    n_full = max(np.polymul(dc, plant.den).size, np.polymul(nc, plant.num).size)
+    if char.size < n_full or abs(char[0]) <= 1e-12 * float(np.max(np.abs(char))):
+        # 1 + C G vanishes at infinite frequency: the loop has no well-defined response
+        stable = False
+        violations.append("ill-posed loop: 1 + C(s) G(s) vanishes at infinite frequency "
+                          f"(compensator gain {_fmt(gain, 4)})")
+        short["stability"] = _UNSTABLE_SHORTFALL
     if poles.size:
         zeta = np.where(np.abs(poles) > 0, -poles.real / np.maximum(np.abs(poles), 1e-300), 0.0)
         metrics["min_damping_ratio"] = float(np.min(zeta))
@@ -747,7 +760,7 @@ def verify(problem, num_c, den_c, exact_delay: bool = True) -> Verdict:
     else:
         metrics["min_damping_ratio"] = None
         metrics["in_region"] = True
-    if not stable:
+    if not stable and poles.size and "stability" not in short:
         worst = poles[int(np.argmax(poles.real))]
         violations.append(f"closed loop unstable: pole at {format_complex(worst)} has a "
                           "non-negative real part")

@@ -215,7 +215,7 @@ class SearchObjective:
             nc, dc = num_c[idx], den_c[idx]
             # closed-loop damping and region shaping
             mag = np.abs(r)
-            zeta = np.min(-r.real / np.maximum(mag, 1e-300), axis=1)
+            zeta = np.min(-r.real / np.maximum(mag, 1e-300), axis=1, initial=1.0)
             out["zeta"][idx] = zeta
             reg_short = np.sum(np.maximum(-self.region.margin(r), 0.0), axis=1) / self.w_char
             # modal step response of y and u
@@ -230,8 +230,9 @@ class SearchObjective:
                 ru = _polyval_rows(nu, r) / denom
                 yss = nl[:, -1] / c0
                 uss = nu[:, -1] / c0
-                sig = np.min(-r.real, axis=1)
-                horizon = (math.log(1.0 / self.band) + 6.0) / sig
+                sig = np.min(-r.real, axis=1, initial=np.inf)  # a static loop has no poles
+                horizon = np.where(np.isfinite(sig), (math.log(1.0 / self.band) + 6.0) / sig,
+                                   1.0)
                 if self.ts_floor is not None:
                     horizon = np.maximum(horizon, 1.3 * self.ts_floor)
                 t = horizon[:, None] * self.tau[None, :]
@@ -247,7 +248,9 @@ class SearchObjective:
             rows = np.arange(idx.size)
             ts = np.where(outside.any(axis=1), t[rows, np.minimum(last + 1, t.shape[1] - 1)], 0.0)
             z = sgn[:, None] * y / scale[:, None]
-            tr = _first_crossing(t, z, 0.9) - _first_crossing(t, z, 0.1)
+            with np.errstate(invalid="ignore"):  # inf - inf: never rises
+                tr = _first_crossing(t, z, 0.9) - _first_crossing(t, z, 0.1)
+            tr = np.where(np.isfinite(tr), tr, np.inf)
             eff = np.max(np.abs(u), axis=1)
             sse = np.abs(1.0 - yss)
             # frequency response with the exact delay
