@@ -69,6 +69,8 @@ __all__ = [
 _PD_RATIO = (3.0, 51.0)
 #: Zero damping range of the PID family (below 1: complex zeros; above: real).
 _PID_ZETA = (0.1, 30.0)
+#: Relative slack accepted by the general family's inverse map at the disc's edge.
+_DISC_TOL = 1e-4
 
 
 # ----------------------------------------------------------------------------
@@ -789,14 +791,20 @@ class GeneralFamily(Family):
         elif self.order == 2:
             quad, lin = p, []
         else:
-            return [math.asinh(p[1] / W / self._c1)] if abs(p[1]) <= W * (1 + 1e-12) else None
-        if any(abs(v) > 1 + 1e-12 for v in lin):
+            if abs(p[1]) > W * (1 + _DISC_TOL):
+                return None
+            return [math.asinh(min(1.0, max(-1.0, p[1] / W)) / self._c1)]
+        # roots on the disc's edge come back from numpy.roots slightly off (a triple root
+        # by about eps^(1/3)): accept and clip within _DISC_TOL
+        if any(abs(v) > 1 + _DISC_TOL for v in lin):
             return None
+        lin = [min(1.0, max(-1.0, v)) for v in lin]
         b0 = quad[2] / (W * W)
         b1 = quad[1] / W
-        if abs(b0) > 1 + 1e-12 or abs(b1) > (1 + b0) * (1 + 1e-12) + 1e-300:
+        if abs(b0) > 1 + _DISC_TOL or abs(b1) > (1 + b0) + 2 * _DISC_TOL:
             return None
-        v = b1 / (1 + b0) if 1 + b0 > 0 else 0.0
+        b0 = min(1.0, max(-1.0, b0))
+        v = min(1.0, max(-1.0, b1 / (1 + b0))) if 1 + b0 > 0 else 0.0
         c1 = self._c1
         out = [math.asinh(x / c1) for x in lin]
         return out + [math.asinh(b0 / (c1 * c1)), math.asinh(v / c1)]

@@ -65,7 +65,7 @@ def test_keep_limits_the_list():
     assert len(rank_designs(_pairs(cands), PROBLEM, keep=2)) == 2
 
 
-@settings(max_examples=25, deadline=None)
+@settings(max_examples=25, deadline=None, derandomize=True)
 @given(st.permutations(list(range(6))))
 def test_order_does_not_depend_on_input_order(perm):
     cands = [_cand("P", [k], [1.0]) for k in (0.15, 0.3, 0.5, 0.9, 2.0, 5.0)]
@@ -75,7 +75,7 @@ def test_order_does_not_depend_on_input_order(perm):
     assert a == b
 
 
-@settings(max_examples=25, deadline=None)
+@settings(max_examples=25, deadline=None, derandomize=True)
 @given(st.lists(st.floats(0.05, 8.0), min_size=2, max_size=6, unique=True), st.floats(0.05, 8.0))
 def test_adding_a_candidate_keeps_the_order_of_the_others(gains, extra):
     # the score uses problem-only references, so it cannot depend on the other candidates
