@@ -8,7 +8,9 @@ never hide a mode, and decides:
 * closed-loop poles and internal stability (an unstable cancellation between
   compensator and plant is named and rejected);
 * the minimum damping ratio over every closed-loop pole and membership of the
-  requirement region;
+  requirement region (reported as ``in_region``; the region is the search's
+  guide, not a requirement of its own: overshoot and settling time are judged
+  by the simulation, damping by every pole);
 * the exact interval of plant-gain factors around 1 that keeps the loop stable
   (:func:`synth.locus.core.stable_gain_intervals`), against ``plant_gain_range``;
 * the compensator gain against ``gain_range``;

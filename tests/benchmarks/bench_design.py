@@ -35,9 +35,11 @@ def main(argv=None) -> int:
     rows = []
     for path in files:
         problem = load_problem(path)
-        t0 = time.perf_counter()
-        verify(problem, [1.0], [1.0])
-        base = time.perf_counter() - t0
+        base = float("inf")
+        for _ in range(3):  # the first call also pays for imports
+            t0 = time.perf_counter()
+            verify(problem, [1.0], [1.0])
+            base = min(base, time.perf_counter() - t0)
         times = []
         run = None
         for _ in range(max(1, args.repeat)):
