@@ -574,6 +574,8 @@ def _lead_like(problem, num, den, structure, skipped) -> list[Placement]:
             phi = angle_deficiency(num, den, s, sign)
             if phi is None:
                 continue
+            # lead sections add positive angle: a deficiency of -165 deg is 195 deg of lead
+            phi = phi % 360.0
             base = {"deficiency_deg": phi, "gain_sign": sign}
             if structure == "lead":
                 if phi > MAX_SECTION_DEG:
