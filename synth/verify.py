@@ -535,12 +535,27 @@ def step_metrics(resp: StepResponse, band_percent: float = 2.0) -> dict[str, Any
 
 
 def _frequency_grid(plant, num_c, den_c) -> np.ndarray:
+    """Log grid over the loop's corner frequencies, dense around lightly damped roots.
+
+    A lightly damped pole or zero (damping zeta) changes |L| and its phase over
+    a relative width of about 2 zeta, narrower than the base grid's step, so
+    crossings there would be missed: 120 extra points span +-20 zeta around it.
+    """
     mags = []
+    extra = []
     for p in (trim(num_c), trim(den_c), plant.rational_num, plant.rational_den):
         p = trim(p)
         if p.size > 1:
-            r = np.abs(np.roots(p))
+            roots = np.roots(p)
+            r = np.abs(roots)
             mags.extend(r[r > 1e-12].tolist())
+            for root, m in zip(roots, r, strict=True):
+                if m > 1e-12 and root.imag > 0:
+                    zeta = abs(root.real) / m
+                    if zeta < 0.2:
+                        width = 20.0 * max(zeta, 1e-5)
+                        extra.append(np.linspace(m * max(1.0 - width, 0.5),
+                                                 m * min(1.0 + width, 2.0), 120))
     if plant.dead_time > 0:
         mags.append(1.0 / plant.dead_time)
     if not mags:
@@ -549,7 +564,10 @@ def _frequency_grid(plant, num_c, den_c) -> np.ndarray:
     hi = 1e3 * max(mags)
     decades = math.log10(hi / lo)
     n = int(min(6000, max(400, 200 * decades)))
-    return np.geomspace(lo, hi, n)
+    grid = np.geomspace(lo, hi, n)
+    if extra:
+        grid = np.unique(np.concatenate([grid, *extra]))
+    return grid
 
 
 def frequency_metrics(problem, num_c, den_c) -> dict[str, Any]:
