@@ -172,7 +172,19 @@ class SearchObjective:
         self.w_char = sp.w_char
         lo = max(sp.w_min, sp.w_char * 1e-3)
         hi = min(10.0 * sp.w_max, sp.w_char * 1e3)
-        self.w = np.geomspace(lo, max(hi, 10 * lo), _W_POINTS)
+        w = np.geomspace(lo, max(hi, 10 * lo), _W_POINTS)
+        # narrow resonances of the plant would fall between grid points: add 24 points
+        # across +-10 zeta around each lightly damped plant pole or zero
+        extra = []
+        for poly in (plant.rational_num, plant.rational_den):
+            if poly.size > 1:
+                for r in np.roots(poly):
+                    m = abs(r)
+                    if m > 0 and r.imag > 0 and abs(r.real) / m < 0.2:
+                        width = 10.0 * max(abs(r.real) / m, 1e-5)
+                        extra.append(np.linspace(m * max(1 - width, 0.5), m * min(1 + width, 2.0),
+                                                 24))
+        self.w = np.unique(np.concatenate([w, *extra])) if extra else w
         self.g_jw = plant.evaluate(1j * self.w, exact_delay=True)
         self.tau = np.linspace(0.0, 1.0, _T_POINTS) ** 2
         self.refs = reference_scales(problem)
