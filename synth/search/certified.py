@@ -453,7 +453,14 @@ def propose(problem, family, context) -> list:
             continue
         if not np.all(np.isfinite(loop.M)) or not np.all(np.isfinite(loop.c0)):
             continue
-        for x, num, prov in _solve_one(problem, family, loop, seed + i, w):
+        try:
+            solved = _solve_one(problem, family, loop, seed + i, w)
+        except (KeyboardInterrupt, SystemExit):
+            raise
+        except BaseException:  # noqa: B036 - a solver panic (pyo3) is not an Exception
+            # a numerical failure inside a solver costs this fixed part only
+            continue
+        for x, num, prov in solved:
             if not np.any(np.abs(x) > 1e-6):
                 continue  # (numerically) no controller at all
             num = trim(num)
