@@ -23,7 +23,10 @@ deficiency ``phi`` there (the angle the compensator must add) and builds:
     family's filter range), the zero from the deficiency plus the filter's lag.
 ``PID``
     the PI zero a decade (or a quarter) below ``|s_d|``, then the PD zero
-    from the deficiency plus the PI section's lag and the filter's lag.
+    from the deficiency plus the PI section's lag and the filter's lag; or
+    the two zeros on the slowest stable plant poles, the filter pole at
+    twice the target decay rate and the gain where the locus meets the
+    target damping ray.
 ``lag`` and ``lead-lag``
     a lag section for a steady-state error requirement: zero a decade (or a
     quarter) below ``|s_d|``, zero/pole ratio the needed increase of the
@@ -34,11 +37,18 @@ deficiency ``phi`` there (the angle the compensator must add) and builds:
     bisector construction supplies it.
 ``P`` and ``PI``
     the gains where the proportional locus crosses the target damping rays
-    and decay line; PI puts its zero a decade below that point.
+    and decay line; PI puts its zero a decade (or a quarter) below that
+    point, or on a slow stable plant pole, or where the angle condition at a
+    target puts it (the integrator-zero pair supplies the negative deficiency).
 ``general``
     ``order`` equal lead sections each supplying ``phi / order`` by the
     bisector method (for a deficiency too large for one lead), the last one
     replaced by a lag section when a steady-state error needs it.
+
+The gain sign is the one that can make the closed loop's constant term
+positive (Routh's necessary condition), unless ``gain_range`` excludes it.
+Lead sections read the deficiency modulo 360 deg (a wrapped -165 deg is
+195 deg of lead, beyond one section).
 
 Every candidate's provenance records the target point, the deficiency and
 the angle the compensator supplies there; the design pipeline verifies each
