@@ -26,7 +26,10 @@ are estimates: every proposal is verified afterwards by :func:`synth.verify.veri
 Determinism.  All randomness comes from ``context.seed`` (initial Latin
 hypercube and the evolution's own generator); generations and polish
 evaluations are fixed numbers, so the same problem and seed give the same
-proposals.  The deadline is only a safety cap: when it cuts the evolution,
+proposals.  Candidates of earlier strategies (``context.prior``) are polished
+next to the evolution's best but never enter its population, so the
+evolution's own proposals do not depend on which other strategies ran
+(adding a strategy can only add candidates).  The deadline is only a safety cap: when it cuts the evolution,
 the provenance says so (``time_capped``) and the run is no longer
 guaranteed to repeat.
 
@@ -71,6 +74,7 @@ _GENERATIONS_PER_PARAM = 15
 #: How many distinct candidates a family returns, and how many get polished.
 _N_OUT = 4
 _N_POLISH = 2
+_N_PRIOR_POLISH = 3
 _POLISH_ITERATIONS = 30
 _POLISH_STEP = 0.02
 
@@ -348,16 +352,23 @@ def _lhs(rng, n, lo, hi):
     return lo + u * (hi - lo)
 
 
-def _seeds(family, context) -> list[np.ndarray]:
+def _gain_starts(family, context) -> list[np.ndarray]:
+    """Start points from the proportional analysis (the same whatever else ran)."""
     out = []
-    for cand in context.prior:
-        x = family.from_polys(np.asarray(cand.num), np.asarray(cand.den))
-        if x is not None and np.all(np.isfinite(x)):
-            out.append(family.clip(x))
     for k in context.gain_seeds:
         x = family.near_gain(k)
         if np.all(np.isfinite(x)):
             out.append(family.clip(x))
+    return out
+
+
+def _prior_starts(family, context) -> list[tuple[np.ndarray, str]]:
+    """This family's candidates from earlier strategies, in the family's coordinates."""
+    out = []
+    for cand in context.prior:
+        x = family.from_polys(np.asarray(cand.num), np.asarray(cand.den))
+        if x is not None and np.all(np.isfinite(x)):
+            out.append((family.clip(x), cand.origin))
     return out
 
 
@@ -427,11 +438,16 @@ def propose(problem, family, context) -> list:
     problem : synth.requirements.Problem
     family : synth.structures.Family
     context : synth.search.SearchContext
+        ``gain_seeds`` join the evolution's start population; ``prior``
+        candidates (from earlier strategies) are only polished, alongside the
+        evolution's best, so the evolution itself does not depend on which
+        other strategies ran.
 
     Returns
     -------
     list of Candidate
-        Up to four distinct candidates, best estimated first.
+        Up to four distinct candidates of the evolution, best estimated first,
+        plus each prior candidate that the polish improved.
     """
     from scipy.optimize import differential_evolution
 
@@ -442,8 +458,8 @@ def propose(problem, family, context) -> list:
     popmult = max(5, int(math.ceil(_POPULATION / p)))
     npop = popmult * p
     init = _lhs(rng, npop, lo, hi)
-    seeds = _seeds(family, context)
-    for i, x in enumerate(seeds[: npop // 2]):
+    starts = _gain_starts(family, context)
+    for i, x in enumerate(starts[: npop // 2]):
         init[i] = x
     generations = _BASE_GENERATIONS + _GENERATIONS_PER_PARAM * p
     capped = {"hit": False}
@@ -463,29 +479,49 @@ def propose(problem, family, context) -> list:
     chosen = _distinct(pop, energies, lo, hi, _N_OUT)
     xs = [pop[i] for i in chosen]
     fs = [float(energies[i]) for i in chosen]
-    polished = [False] * len(xs)
+    src = ["evolution"] * len(xs)
     k = min(_N_POLISH, len(xs))
-    if k and time.monotonic() <= context.deadline:
-        X0 = np.array(xs[:k])
-        F0 = np.array(fs[:k])
+    # prior candidates: polished too, best few (they are already in the run as they are)
+    priors = _prior_starts(family, context)
+    if priors:
+        PX = np.array([x for x, _ in priors])
+        PF = objective(PX)
+        keep = _distinct(PX, PF, lo, hi, _N_PRIOR_POLISH)
+        prior_x = [PX[i] for i in keep]
+        prior_f = [float(PF[i]) for i in keep]
+        prior_src = [f"polished {priors[i][1]} candidate" for i in keep]
+    else:
+        prior_x, prior_f, prior_src = [], [], []
+    polished = [False] * len(xs)
+    n_start = k + len(prior_x)
+    if n_start and time.monotonic() <= context.deadline:
+        X0 = np.array(xs[:k] + prior_x)
+        F0 = np.array(fs[:k] + prior_f)
         X1, F1, cut = _compass(objective, X0, F0, lo, hi, context.deadline)
         capped["hit"] |= cut
         for j in range(k):
             if F1[j] < fs[j]:
                 xs[j], fs[j], polished[j] = X1[j], float(F1[j]), True
-    elif k:
+        for j in range(len(prior_x)):
+            if F1[k + j] < prior_f[j]:
+                xs.append(X1[k + j])
+                fs.append(float(F1[k + j]))
+                polished.append(True)
+                src.append(prior_src[j])
+    elif n_start:
         capped["hit"] = True
     order = np.argsort(fs, kind="stable")
     out = []
     for j in order:
         prov = {
             "method": "differential evolution (Storn and Price 1997), compass-search polish",
+            "start": src[j],
             "objective": fs[j],
             "estimated_feasible": bool(fs[j] < 1.0),
             "polished": polished[j],
             "generations": int(res.nit),
             "evaluations": int(res.nfev),
-            "seeded_with": len(seeds),
+            "gain_starts": len(starts),
             "time_capped": capped["hit"],
             "seed": int(context.seed),
         }
