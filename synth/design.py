@@ -34,6 +34,7 @@ import time
 import zlib
 from collections.abc import Callable
 from dataclasses import dataclass, field
+from types import MappingProxyType
 from typing import Any
 
 import numpy as np
@@ -58,7 +59,7 @@ ProgressFn = Callable[[float, float, str], None]
 
 #: Relative share of a family's time slice per strategy origin (normalised over
 #: the strategies present; unused time passes to the next strategy).
-_STRATEGY_WEIGHT = {"placement": 0.15, "convex": 0.35, "search": 0.5}
+_STRATEGY_WEIGHT = MappingProxyType({"placement": 0.15, "convex": 0.35, "search": 0.5})
 
 
 # ----------------------------------------------------------------------------

@@ -42,6 +42,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from types import MappingProxyType
 
 import numpy as np
 
@@ -51,8 +52,9 @@ from synth.verify import Verdict
 
 __all__ = ["RankedDesign", "Refs", "rank_designs", "reference_scales", "score", "score_arrays"]
 
-WEIGHTS = {"sensitivity": 0.30, "gain_range": 0.15, "speed": 0.25, "effort": 0.15,
-           "simplicity": 0.15}
+#: Weights of the score terms (read-only).
+WEIGHTS = MappingProxyType({"sensitivity": 0.30, "gain_range": 0.15, "speed": 0.25,
+                            "effort": 0.15, "simplicity": 0.15})
 #: Relative agreement of compensator frequency responses that counts as a duplicate
 #: (looser between designs of one structure, so the list shows real alternatives).
 _DUPLICATE_RTOL = 5e-3
