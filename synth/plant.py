@@ -318,5 +318,14 @@ def describe_factored(num, den) -> str:
     k = kn / kd
     numtxt = join(fn)
     dentxt = join(fd)
-    numpart = f"{k:.4g}" if numtxt == "1" else f"{k:.4g} {numtxt}"
-    return numpart if dentxt == "1" else f"{numpart} / ({dentxt})"
+    if numtxt == "1":
+        numpart = f"{k:.4g}"
+    elif abs(k - 1.0) < 1e-12:
+        numpart = numtxt
+    else:
+        numpart = f"{k:.4g} {numtxt}"
+    if dentxt == "1":
+        return numpart
+    # a single factor needs no extra parentheses: "/ (s+2)", "/ s^2"
+    single = len(fd) == 1 or all(f == "s" for f in fd)
+    return f"{numpart} / {dentxt}" if single else f"{numpart} / ({dentxt})"
