@@ -229,12 +229,16 @@ def _solve(problem) -> bool:
     for solver in ("CLARABEL", "SCS"):
         if solver not in cp.installed_solvers():
             continue
+        # SCS is the fallback only: cap its effort so one solve cannot eat the time budget
+        opts = {"max_iters": 4000, "time_limit_secs": 1.0} if solver == "SCS" else {}
         try:
             with warnings.catch_warnings():
                 # an inaccurate solution is rejected below; no warning for users
                 warnings.simplefilter("ignore")
-                problem.solve(solver=solver)
-        except (cp.SolverError, ArithmeticError, ValueError):
+                problem.solve(solver=solver, **opts)
+        except (KeyboardInterrupt, SystemExit):
+            raise
+        except BaseException:  # noqa: BLE001 - solver errors and Clarabel's Rust panics alike
             continue
         if problem.status == cp.OPTIMAL:
             return True
