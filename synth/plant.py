@@ -119,7 +119,7 @@ class Plant:
                    float(dead_time), int(pade_order), str(label))
 
     @classmethod
-    def from_zpk(cls, zeros, poles, gain: float, **kw) -> Plant:
+    def from_roots(cls, zeros, poles, gain: float, **kw) -> Plant:
         """Build from zeros, poles and gain ``k * prod(s - z) / prod(s - p)``.
 
         Complex zeros and poles stand for themselves and their conjugates; pass

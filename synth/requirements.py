@@ -332,7 +332,7 @@ def _parse_plant(t: dict, src: str) -> Plant:
                 raise InputError("missing; the zeros/poles/gain form needs poles (use [] for none)",
                                  src, "plant.poles")
             gain = _num(t.get("gain", 1.0), src, "plant.gain")
-            return Plant.from_zpk(t.get("zeros", []), t["poles"], gain, **kw)
+            return Plant.from_roots(t.get("zeros", []), t["poles"], gain, **kw)
         expr = t["expression"]
         if not isinstance(expr, str) or not expr.strip():
             raise InputError("must be a non-empty text expression in s", src, "plant.expression")

@@ -2,7 +2,7 @@
 
 External references named beside each check:
 scipy.signal.cont2discrete (methods 'bilinear' and 'zoh'), scipy.signal.freqresp,
-scipy.signal.freqz, scipy.signal.dlsim, scipy.signal.lsim, scipy.signal.lfilter,
+scipy.signal.freqz, scipy.signal.dlsim, scipy.signal.lti.output, scipy.signal.lfilter,
 numpy.roots, numpy.polyval; Astrom and Hagglund, "PID Controllers: Theory,
 Design and Tuning" (ISA, 1995), from memory; Ogata, "Discrete-Time Control
 Systems" (2nd ed., 1995), from memory; common practice of the trade.
@@ -16,7 +16,7 @@ import numpy as np
 import pytest
 from hypothesis import assume, given, settings
 from hypothesis import strategies as st
-from scipy.signal import cont2discrete, dlsim, freqresp, freqz, lsim
+from scipy.signal import cont2discrete, dlsim, freqresp, freqz, lti
 
 from synth.errors import InputError
 from synth.expression import parse_rational
@@ -389,10 +389,10 @@ def test_zoh_whole_sample_delay_adds_poles_at_origin():
 @pytest.mark.parametrize("delay", [0.03, 0.17, 0.25])
 def test_zoh_fractional_delay_matches_delayed_continuous_step(delay):
     # A held unit step is an exact step, so the sampled response is the
-    # continuous step response delayed: y[k] = y_c(kT - delay) (scipy.signal.lsim).
+    # continuous step response delayed: y[k] = y_c(kT - delay) (scipy.signal.lti.output).
     num, den, T, h = [2.0, 1.0], [1.0, 3.0, 2.0], 0.1, 0.01
     t = np.arange(0, 3.0 + h / 2, h)
-    _, yc, _ = lsim((num, den), np.ones_like(t), t)
+    _, yc, _ = lti(num, den).output(np.ones_like(t), t)
     numd, dend = zoh_discretise(num, den, T, dead_time=delay)
     k = np.arange(25)
     from scipy.signal import lfilter

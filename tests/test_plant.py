@@ -10,11 +10,11 @@ from synth.errors import InputError
 from synth.plant import Plant
 
 
-def test_zpk_form_matches_scipy_zpk2tf():
+def test_roots_form_matches_scipy_zpk2tf():
     # scipy.signal.zpk2tf is the reference expansion
     z, p, k = [-2.0], [0.0, -1 + 3j, -1 - 3j, -8.0], 4.0
     num, den = signal.zpk2tf(z, p, k)
-    plant = Plant.from_zpk([-2.0], [0.0, "-1+3j", -8.0], 4.0)  # a conjugate stands for its pair
+    plant = Plant.from_roots([-2.0], [0.0, "-1+3j", -8.0], 4.0)  # a conjugate stands for its pair
     assert np.allclose(plant.rational_num, num)
     assert np.allclose(plant.rational_den, den)
 
