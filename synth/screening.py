@@ -62,6 +62,7 @@ __all__ = [
     "DEFAULT_RTOL",
     "hurwitz_batch",
     "in_region_batch",
+    "region_parameters",
     "rotate_batch",
     "rotated_product_batch",
     "taylor_shift_batch",
@@ -99,7 +100,28 @@ def _as_batch(polys, name: str = "polys", allow_complex: bool = False) -> tuple[
     return arr.reshape(-1, arr.shape[-1]).astype(dtype, copy=False), lead_shape
 
 
-def _check_region(region) -> tuple[float, float]:
+def region_parameters(region) -> tuple[float, float]:
+    """Validated ``(sigma, zeta)`` of a region-like object.
+
+    Shared by the batch screen here and the convex strategy, which test the
+    same region and must reject the same bad input with the same message.
+
+    Parameters
+    ----------
+    region : object
+        Anything with numeric attributes ``.sigma`` (>= 0) and ``.zeta``
+        (in [0, 1)), such as :class:`synth.requirements.Region`.
+
+    Returns
+    -------
+    tuple of float
+        ``(sigma, zeta)`` as plain floats.
+
+    Raises
+    ------
+    InputError
+        If an attribute is missing, not numeric, or out of range.
+    """
     try:
         sigma = float(region.sigma)
         zeta = float(region.zeta)
@@ -412,7 +434,7 @@ def in_region_batch(polys, region, rtol: float = DEFAULT_RTOL) -> np.ndarray:
        48(7), 2003.
     .. [2] F. R. Gantmacher, "The Theory of Matrices", Vol. II, 1959, ch. XV.
     """
-    sigma, zeta = _check_region(region)
+    sigma, zeta = region_parameters(region)
     batch, shape = _as_batch(polys)
     beta = 0.5 * math.pi - math.acos(zeta) if zeta > 0.0 else None
     return _screen(batch, sigma, beta, float(rtol)).reshape(shape)

@@ -52,7 +52,12 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from synth.errors import InputError
-from synth.screening import in_region_batch, rotate_batch, taylor_shift_batch
+from synth.screening import (
+    in_region_batch,
+    region_parameters,
+    rotate_batch,
+    taylor_shift_batch,
+)
 
 __all__ = [
     "Certificate",
@@ -201,19 +206,6 @@ def _check_affine(c0, M, lo, hi) -> tuple[np.ndarray, np.ndarray, np.ndarray, np
     return c0, M, lo, hi
 
 
-def _region_params(region) -> tuple[float, float]:
-    try:
-        sigma = float(region.sigma)
-        zeta = float(region.zeta)
-    except (AttributeError, TypeError, ValueError):
-        raise InputError("region must have numeric attributes .sigma and .zeta") from None
-    if not math.isfinite(sigma) or sigma < 0.0:
-        raise InputError(f"region.sigma must be a finite number >= 0, got {sigma}")
-    if not math.isfinite(zeta) or not 0.0 <= zeta < 1.0:
-        raise InputError(f"region.zeta must lie in [0, 1), got {zeta}")
-    return sigma, zeta
-
-
 def _reference_point(lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
     """Box centre where both ends are finite, else the point of the box nearest 0."""
     mid = np.clip(np.zeros_like(lo), lo, hi)
@@ -300,7 +292,7 @@ def target_polynomial(
     .. [1] K. Ogata, "Modern Control Engineering", 5th ed., Prentice Hall,
        2010, sec. 5-3 (dominant closed-loop poles).
     """
-    sigma, zeta = _region_params(region)
+    sigma, zeta = region_parameters(region)
     degree = int(degree)
     if degree < 1:
         raise InputError(f"target degree must be >= 1, got {degree}")
@@ -822,7 +814,7 @@ def certified_region_design(
        problems", High Performance Optimization, Kluwer, 2000.
     """
     c0, M, lo, hi = _check_affine(c0, M, lo, hi)
-    sigma, zeta = _region_params(region)
+    sigma, zeta = region_parameters(region)
     if objective not in ("margin", "centre"):
         raise InputError(f"objective must be 'margin' or 'centre', got {objective!r}")
     iterations = int(iterations)
