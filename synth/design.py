@@ -40,6 +40,7 @@ from typing import Any
 import numpy as np
 
 from synth.errors import SynthError
+from synth.jsonout import clean, interval_lists, root_pairs
 from synth.plant import describe_factored
 from synth.rank import RankedDesign, rank_designs
 from synth.search import available_strategies
@@ -67,35 +68,6 @@ _STRATEGY_WEIGHT = MappingProxyType({"placement": 0.15, "convex": 0.35, "search"
 # ----------------------------------------------------------------------------
 
 
-def _clean(x):
-    """JSON-safe copy: numpy scalars to Python, NaN and infinities to None."""
-    if isinstance(x, dict):
-        return {str(k): _clean(v) for k, v in x.items()}
-    if isinstance(x, (list, tuple)):
-        return [_clean(v) for v in x]
-    if isinstance(x, np.ndarray):
-        return [_clean(v) for v in x.tolist()]
-    if isinstance(x, (bool, np.bool_)):
-        return bool(x)
-    if isinstance(x, (int, np.integer)):
-        return int(x)
-    if isinstance(x, (float, np.floating)):
-        v = float(x)
-        return v if math.isfinite(v) else None
-    if isinstance(x, complex):
-        return [_clean(x.real), _clean(x.imag)]
-    return x
-
-
-def _pairs(roots) -> list[list[float]]:
-    rs = sorted((complex(r) for r in roots), key=lambda z: (z.real, z.imag))
-    return [[float(r.real), float(r.imag)] for r in rs]
-
-
-def _ivs_json(ivs) -> list:
-    return [[None if a is None else float(a), None if b is None else float(b)] for a, b in ivs]
-
-
 def _derived_seed(seed: int, *labels: str) -> int:
     """A per-family, per-strategy seed from the file's seed (stable across runs and Pythons)."""
     h = zlib.crc32("/".join(labels).encode())
@@ -118,8 +90,8 @@ def _proportional(problem, explanation) -> dict:
     from synth.locus.core import region_gain_intervals, stable_gain_intervals
 
     plant = problem.plant
-    return {"stabilizing_gain_intervals": _ivs_json(stable_gain_intervals(plant.num, plant.den)),
-            "requirement_gain_intervals": _ivs_json(
+    return {"stabilizing_gain_intervals": interval_lists(stable_gain_intervals(plant.num, plant.den)),
+            "requirement_gain_intervals": interval_lists(
                 region_gain_intervals(plant.num, plant.den, problem.region))}
 
 
@@ -250,9 +222,9 @@ class DesignRun:
             "feasible": v.feasible,
             "compensator": {"numerator": [float(x) for x in num],
                             "denominator": [float(x) for x in den],
-                            "zeros": _pairs(zeros), "poles": _pairs(poles),
+                            "zeros": root_pairs(zeros), "poles": root_pairs(poles),
                             "gain": float(num[0] / den[0])},
-            "closed_loop_poles": _pairs(v.closed_loop_poles),
+            "closed_loop_poles": root_pairs(v.closed_loop_poles),
             "metrics": metrics,
             "violations": list(v.violations),
             "description": description,
@@ -286,7 +258,7 @@ class DesignRun:
         }
         if self.problem.source:
             out["source"] = self.problem.source
-        return _clean(out)
+        return clean(out)
 
     # -- terminal ------------------------------------------------------------------------
     def _proportional_lines(self) -> list[str]:

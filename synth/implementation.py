@@ -32,6 +32,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from synth.errors import InputError
+from synth.jsonout import clean
 from synth.plant import Plant
 
 __all__ = [
@@ -272,22 +273,6 @@ def loop_frequency_facts(loop: _Loop) -> LoopFrequencyFacts:
 # JSON assembly
 # ---------------------------------------------------------------------------
 
-def _clean(value):
-    """JSON-safe copy: numpy scalars to Python, non-finite floats to None."""
-    if isinstance(value, dict):
-        return {k: _clean(v) for k, v in value.items()}
-    if isinstance(value, (list, tuple)):
-        return [_clean(v) for v in value]
-    if isinstance(value, (bool, np.bool_)):
-        return bool(value)
-    if isinstance(value, (int, np.integer)):
-        return int(value)
-    if isinstance(value, (float, np.floating)):
-        v = float(value)
-        return (v if v != 0 else 0.0) if math.isfinite(v) else None  # no "-0" in the JSON
-    return value
-
-
 def _pid_forms(structure: str, loop: _Loop) -> tuple[dict | None, dict | None]:
     from synth.forms import pid_parallel_from_tf, pid_standard_from_parallel
 
@@ -407,7 +392,7 @@ def add_implementation_forms(doc: dict, sample_time: float | None = None) -> dic
         }
         if sample_time is not None:
             impl["discrete"] = _discrete(loop, sample_time)
-        design["implementation"] = _clean(impl)
+        design["implementation"] = clean(impl)
     out["implementation_settings"] = {"sample_time": sample_time}
     return out
 

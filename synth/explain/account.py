@@ -60,6 +60,7 @@ from synth.explain.gain import (
     zero_reason,
 )
 from synth.explain.structure import StructuralFacts, structural_facts
+from synth.jsonout import clean, finite_or_none, interval_lists
 from synth.locus.core import region_gain_intervals, stable_gain_intervals
 from synth.plant import Plant
 from synth.requirements import Region, overshoot_from_damping
@@ -154,7 +155,7 @@ def best_account(num, den, region: Region, req, over,
                 f"decays at best at rate {f.num(dec.value)} ({at(dec)}), short by "
                 f"{f.num(sigma - dec.value)}, which means settling in about {f.num(ts)} s.",
                 {"needed": sigma, "best": dec.value, "gain": dec.gain,
-                 "shortfall": sigma - dec.value, "settling_time": ts if math.isfinite(ts) else None}))
+                 "shortfall": sigma - dec.value, "settling_time": finite_or_none(ts)}))
             short.append(f"best decay rate {f.num(dec.value)} against {f.num(sigma)} needed")
     if zeta > 0 and not damp_ok:
         dam = maximise_over(lambda g: decay_and_damping(num, den, g)[1], over)
@@ -275,7 +276,7 @@ class Explanation:
     # -- output ---------------------------------------------------------------------------
     def to_json(self) -> dict:
         """The contract's ``synth.explain/1`` object plus extra fields; no NaN or infinity."""
-        ivs = _ivs_json
+        ivs = interval_lists
         out = {
             "schema": SCHEMA,
             "plant": self.plant.to_json(),
@@ -310,7 +311,7 @@ class Explanation:
             "suggestions": [s.to_json() for s in self.suggestions],
             "suggested_structures": list(self.suggested_structures),
         }
-        return _clean(out)
+        return clean(out)
 
     def text_lines(self) -> list[str]:
         """The terminal note: verdict, reasons, structure, warnings, what to try."""
@@ -358,28 +359,6 @@ class Explanation:
         lines.append("")
         lines.append(SAFETY_LINE)
         return lines
-
-
-def _ivs_json(ivs) -> list:
-    return [[None if a is None else float(a), None if b is None else float(b)] for a, b in ivs]
-
-
-def _clean(x):
-    """Plain JSON values: numpy scalars to Python, non-finite floats to None, tuples to lists."""
-    if isinstance(x, dict):
-        return {str(k): _clean(v) for k, v in x.items()}
-    if isinstance(x, (list, tuple)):
-        return [_clean(v) for v in x]
-    if isinstance(x, (bool, np.bool_)):
-        return bool(x)
-    if isinstance(x, (int, np.integer)):
-        return int(x)
-    if isinstance(x, (float, np.floating)):
-        v = float(x)
-        return v if math.isfinite(v) else None
-    if isinstance(x, complex):
-        return [_clean(x.real), _clean(x.imag)]
-    return x
 
 
 def explain_problem(problem) -> Explanation:

@@ -25,6 +25,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from synth.jsonout import root_pairs
 from synth.plant import Plant, trim
 
 #: a root whose real part is within this fraction of its size counts as on the imaginary axis
@@ -322,7 +323,7 @@ class StructuralFacts:
 
     def to_json(self) -> dict:
         def pts(v):
-            return [[float(z.real), float(z.imag)] for z in v]
+            return root_pairs(v, sort=False)
         return {
             "poles": pts(self.poles), "zeros": pts(self.zeros),
             "unstable_poles": pts(self.unstable_poles),

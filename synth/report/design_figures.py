@@ -23,6 +23,7 @@ from synth.implementation import (
     loop_parts,
     loop_response,
 )
+from synth.jsonout import finite_or_none
 
 __all__ = [
     "PALETTE",
@@ -84,12 +85,7 @@ class DesignCurves:
 
 
 def _metric(design: dict, key: str) -> float | None:
-    v = (design.get("metrics") or {}).get(key)
-    try:
-        v = float(v)
-    except (TypeError, ValueError):
-        return None
-    return v if math.isfinite(v) else None
+    return finite_or_none((design.get("metrics") or {}).get(key))
 
 
 def _view(t, y, u, design: dict, req, notes: list[str]):
