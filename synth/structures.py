@@ -59,6 +59,7 @@ __all__ = [
     "AffineForm",
     "FAMILIES",
     "Family",
+    "PD_RATIO_RANGE",
     "SearchSpace",
     "family_for",
     "families_for",
@@ -66,7 +67,7 @@ __all__ = [
 
 #: Derivative-filter ratio range of the PD family: pole / zero = 1 + N_f with
 #: the standard-form filter constant N_f from 2 to 50 (common practice).
-_PD_RATIO = (3.0, 51.0)
+PD_RATIO_RANGE = (3.0, 51.0)
 #: Zero damping range of the PID family (below 1: complex zeros; above: real).
 _PID_ZETA = (0.1, 30.0)
 #: Relative slack accepted by the general family's inverse map at the disc's edge.
@@ -464,8 +465,8 @@ class PDFamily(Family):
 
     def _bounds(self):
         lw0, lw1 = self._logw_bound()
-        return [self._gain_bound(), (lw0 + math.log10(_PD_RATIO[0]), lw1),
-                (math.log10(_PD_RATIO[0]), math.log10(_PD_RATIO[1]))]
+        return [self._gain_bound(), (lw0 + math.log10(PD_RATIO_RANGE[0]), lw1),
+                (math.log10(PD_RATIO_RANGE[0]), math.log10(PD_RATIO_RANGE[1]))]
 
     def _polys(self, X):
         K = self.space.gain(X[:, 0])
@@ -496,7 +497,7 @@ class PDFamily(Family):
     def near_gain(self, k):
         # filter pole at the top of the band: C ~ K z / N below the zero
         lw1 = self.space.log_w[1]
-        r = math.log10(_PD_RATIO[0])
+        r = math.log10(PD_RATIO_RANGE[0])
         return np.array([self._u(k * 10.0 ** r), lw1, r])
 
 

@@ -45,6 +45,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from synth.plant import trim
+from synth.structures import PD_RATIO_RANGE
 
 __all__ = ["ORIGIN", "AffineLoop", "affine_loop", "fixed_parts", "planned_parts", "propose"]
 
@@ -65,8 +66,6 @@ _LAG_POLE = (0.02, 0.1)
 _LEADLAG_POLES = ((5.0, 0.03, 0.3),)
 _GENERAL_ROOTS = (5.0, 0.0)  # (s + 5 w)^n, and an integrator s (s + 5 w)^(n - 1)
 _PRIORS = 2
-#: PD filter-pole / zero ratio range of the PD family (synth.structures).
-_PD_RATIO = (3.0, 51.0)
 #: Above this many unknowns the convex module's dominant-pair sweep switches to
 #: a slow bounded least-squares method; the strategy then supplies the first
 #: central polynomial itself.
@@ -131,7 +130,7 @@ def _generators(name: str, fixed, form, sign: float, k_ref: float, w: float,
         elif name == "lag":           # u (s + p) + v: zero in [p, inf)
             gen = np.array([[1.0, p], [0.0, w]])
         else:                         # u (s + p/51) + v (s + p/3): ratio in the PD range
-            gen = np.array([[1.0, p / _PD_RATIO[1]], [1.0, p / _PD_RATIO[0]]])
+            gen = np.array([[1.0, p / PD_RATIO_RANGE[1]], [1.0, p / PD_RATIO_RANGE[0]]])
         leads = gen[:, 0]
     elif name == "lead-lag":
         # (s + z_lag) (u s + v (s + p_lead)): the lag section (zero z_lag, pole

@@ -78,6 +78,7 @@ import numpy as np
 
 from synth.locus.core import line_crossing_gains
 from synth.plant import trim
+from synth.structures import PD_RATIO_RANGE
 
 __all__ = [
     "MAX_CANDIDATES",
@@ -117,8 +118,6 @@ _SPEEDUP = 1.5
 _LAG_FACTORS = (10.0, 4.0)
 #: Derivative filter pole / target magnitude (common practice: about ten).
 _FILTER_FACTOR = 10.0
-#: PD family's filter-pole / zero ratio range (see synth.structures).
-_PD_RATIO = (3.0, 51.0)
 #: Static-gain headroom of the lag section over the bare requirement.
 _SS_HEADROOM = 1.1
 
@@ -523,13 +522,13 @@ def _pd_section(s: complex, phi: float, wmax: float) -> tuple[float, float] | No
         z = -s.real + s.imag / math.tan(math.radians(psi))
         if z <= 0.0:
             return None
-        N_new = min(max(N, 1.001 * _PD_RATIO[0] * z), 0.999 * _PD_RATIO[1] * z, wmax)
+        N_new = min(max(N, 1.001 * PD_RATIO_RANGE[0] * z), 0.999 * PD_RATIO_RANGE[1] * z, wmax)
         if abs(N_new - N) <= 1e-12 * N:
             break
         N = N_new
     else:
         return None
-    if not (_PD_RATIO[0] < N / z < _PD_RATIO[1]):
+    if not (PD_RATIO_RANGE[0] < N / z < PD_RATIO_RANGE[1]):
         return None
     return z, N
 
