@@ -65,6 +65,7 @@ __all__ = [
     "ScreenResult",
     "StepResponse",
     "Verdict",
+    "batch_polymul",
     "frequency_metrics",
     "loop_polynomials",
     "screen_batch",
@@ -177,8 +178,22 @@ def loop_polynomials(plant, num_c, den_c) -> tuple[np.ndarray, np.ndarray, np.nd
     return num_l, den_l, np.polyadd(den_l, num_l)
 
 
-def _batch_mul(P, q):
-    """Row-wise product of a batch ``P (B, a)`` with one polynomial ``q``."""
+def batch_polymul(P, q) -> np.ndarray:
+    """Row-wise product of a polynomial batch with one polynomial.
+
+    Parameters
+    ----------
+    P : ndarray, shape (B, a)
+        One polynomial per row, descending powers, all of the same length.
+    q : array_like, shape (b,)
+        The common factor, descending powers.
+
+    Returns
+    -------
+    ndarray, shape (B, a + b - 1)
+        Row ``i`` equals ``numpy.polymul(P[i], q)`` (without trimming).
+    """
+    # one shifted axpy per coefficient of q: vectorised across the batch
     q = np.asarray(q, dtype=float)
     out = np.zeros((P.shape[0], P.shape[1] + q.size - 1))
     for j, c in enumerate(q):
@@ -220,8 +235,8 @@ def screen_batch(problem, nums, dens, range_points: int = 3) -> ScreenResult:
 
     nums = np.atleast_2d(np.asarray(nums, dtype=float))
     dens = np.atleast_2d(np.asarray(dens, dtype=float))
-    num_l = _batch_mul(nums, problem.plant.num)
-    den_l = _batch_mul(dens, problem.plant.den)
+    num_l = batch_polymul(nums, problem.plant.num)
+    den_l = batch_polymul(dens, problem.plant.den)
     width = max(num_l.shape[1], den_l.shape[1])
     num_l = np.pad(num_l, ((0, 0), (width - num_l.shape[1], 0)))
     den_l = np.pad(den_l, ((0, 0), (width - den_l.shape[1], 0)))

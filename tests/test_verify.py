@@ -8,7 +8,14 @@ from scipy import signal
 from scipy.interpolate import pade as scipy_pade
 
 from synth.requirements import problem_from_text
-from synth.verify import METRIC_KEYS, screen_batch, step_metrics, step_response, verify
+from synth.verify import (
+    METRIC_KEYS,
+    batch_polymul,
+    screen_batch,
+    step_metrics,
+    step_response,
+    verify,
+)
 
 
 def _problem(num, den, req="", dead_time=0.0, extra=""):
@@ -328,3 +335,14 @@ def test_lightly_damped_mode_margins_against_freqresp():
     pc = np.flatnonzero((np.diff(np.sign(L.imag)) != 0) & (L.real[:-1] < 0))
     gm = -20 * np.log10(max(abs(L[i]) for i in pc if abs(L[i]) < 1.0))
     assert v.metrics["gain_margin_db"] == pytest.approx(gm, abs=0.01)
+
+
+def test_batch_polymul_matches_numpy_polymul():
+    """Reference: numpy.polymul, row by row."""
+    rng = np.random.default_rng(7)
+    P = rng.normal(size=(5, 4))
+    q = rng.normal(size=3)
+    out = batch_polymul(P, q)
+    assert out.shape == (5, 6)
+    for row, p in zip(out, P, strict=True):
+        assert np.allclose(row, np.polymul(p, q), rtol=1e-13, atol=1e-13)

@@ -56,6 +56,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from synth.search import candidate_from_params
+from synth.verify import batch_polymul
 
 __all__ = ["ORIGIN", "SearchObjective", "propose"]
 
@@ -77,14 +78,6 @@ _N_POLISH = 2
 _N_PRIOR_POLISH = 3
 _POLISH_ITERATIONS = 30
 _POLISH_STEP = 0.02
-
-
-def _batch_mul(P, q):
-    q = np.asarray(q, dtype=float)
-    out = np.zeros((P.shape[0], P.shape[1] + q.size - 1))
-    for j, c in enumerate(q):
-        out[:, j:j + P.shape[1]] += c * P
-    return out
 
 
 def _pad_to(P, width):
@@ -199,8 +192,8 @@ class SearchObjective:
     # -- the pieces ---------------------------------------------------------------
     def _loop(self, X):
         num_c, den_c = self.family.polys(X)
-        num_l = _batch_mul(num_c, self.gnum)
-        den_l = _batch_mul(den_c, self.gden)
+        num_l = batch_polymul(num_c, self.gnum)
+        den_l = batch_polymul(den_c, self.gden)
         width = max(num_l.shape[1], den_l.shape[1])
         num_l, den_l = _pad_to(num_l, width), _pad_to(den_l, width)
         return num_c, den_c, num_l, den_l, den_l + num_l
@@ -239,7 +232,7 @@ class SearchObjective:
             powers = np.arange(n, 0, -1)
             dch = ch[:, :-1] * powers
             c0 = ch[:, -1]
-            nu = _pad_to(_batch_mul(nc, self.gden), ch.shape[1])
+            nu = _pad_to(batch_polymul(nc, self.gden), ch.shape[1])
             with np.errstate(all="ignore"):
                 denom = r * _polyval_rows(dch, r)
                 ry = _polyval_rows(nl, r) / denom
