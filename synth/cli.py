@@ -217,6 +217,12 @@ def main(argv: list[str] | None = None) -> None:
     except ImportError:  # pragma: no cover - older typer uses click itself
         from click import exceptions as clickex
 
+    import warnings
+
+    if not os.environ.get("SYNTH_DEBUG"):
+        # numerical warnings (a pole exactly on a frequency grid point, say) are handled
+        # where they arise; they are noise to a user
+        warnings.simplefilter("ignore", RuntimeWarning)
     try:
         rv = app(args=argv, prog_name="synth", standalone_mode=False)
     except SynthError as err:

@@ -192,6 +192,10 @@ class Plant:
     def evaluate(self, s, exact_delay: bool = True) -> np.ndarray:
         """Frequency response ``G(s)`` at complex points ``s`` (vectorised)."""
         s = np.asarray(s, dtype=complex)
+        with np.errstate(divide="ignore", invalid="ignore"):  # a pole on the grid gives inf
+            return self._evaluate(s, exact_delay)
+
+    def _evaluate(self, s: np.ndarray, exact_delay: bool) -> np.ndarray:
         if exact_delay:
             g = np.polyval(self.rational_num, s) / np.polyval(self.rational_den, s)
             return g * np.exp(-s * self.dead_time) if self.dead_time else g
@@ -294,7 +298,8 @@ def factor_strings(poly) -> tuple[float, list[str]]:
                 j = cand[np.argmin(np.abs(roots[cand] - np.conj(r)))]
                 used[j] = True
             a, b = -2 * r.real, abs(r) ** 2
-            factors.append(f"(s^2{a:+.4g}s{b:+.4g})")
+            mid = f"{a:+.4g}s" if abs(a) > 1e-12 * max(1.0, b) else ""
+            factors.append(f"(s^2{mid}{b:+.4g})")
         elif abs(r) < 1e-12:
             factors.append("s")
         else:
