@@ -15,11 +15,12 @@ import json
 import os
 import sys
 import tempfile
+from contextlib import contextmanager
 from pathlib import Path
 
 import typer
 
-from synth.errors import OptionError, SynthError
+from synth.errors import InputError, OptionError, SynthError
 
 EXIT_BAD_INPUT = 2
 EXIT_NO_FEASIBLE = 3
@@ -70,6 +71,17 @@ def _write_json_atomic(path: str, doc: dict) -> None:
         raise
 
 
+@contextmanager
+def _about(problem):
+    """Name the requirements file in errors raised while working on its problem."""
+    try:
+        yield
+    except InputError as err:
+        if err.source is None:
+            raise InputError(err.message, problem.source, err.key or "plant") from None
+        raise
+
+
 def _load(file: str):
     from synth.requirements import load_problem
 
@@ -88,7 +100,8 @@ def explain(
     problem = _load(file)
     from synth.explain import explain_problem
 
-    result = explain_problem(problem)
+    with _about(problem):
+        result = explain_problem(problem)
     doc = result.to_json()
     _echo_lines(result.text_lines())
     if json_out:
@@ -126,7 +139,8 @@ def trace(
         result, operating_gain = trace_design_loop(problem, load_design_json(path), rank,
                                                    source=path)
     else:
-        result, operating_gain = trace_problem(problem), None
+        with _about(problem):
+            result, operating_gain = trace_problem(problem), None
     doc = result.to_json()
     if operating_gain is not None:
         doc["operating_gain"] = operating_gain
@@ -162,7 +176,7 @@ def design(
     from synth.design import run_design
     from synth.progress import terminal_progress
 
-    with terminal_progress("searching") as progress:
+    with _about(problem), terminal_progress("searching") as progress:
         run = run_design(problem, progress=progress)
     doc = run.to_json()
     _echo_lines(run.table_lines())
