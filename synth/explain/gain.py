@@ -24,6 +24,7 @@ import numpy as np
 from synth.explain import _fmt as f
 from synth.explain.structure import in_closed_rhp, in_open_rhp, is_real, roots_of
 from synth.locus.core import closed_loop_roots, line_crossing_gains, loop_polys
+from synth.locus.special import asymptotes as locus_asymptotes
 
 Interval = tuple[float | None, float | None]
 
@@ -203,14 +204,12 @@ def asymptote_facts(num, den, sign: int) -> AsymptoteFacts:
     n, d = loop_polys(num, den)
     nt = n[np.flatnonzero(n)[0]:]
     excess = d.size - nt.size
-    if excess == 0:
+    if excess == 0:  # also covers a static loop, which the locus engine refuses
         return AsymptoteFacts(sign, 0, None, (), 0, False)
-    sum_p = -d[1] / d[0] if d.size > 1 else 0.0
-    sum_z = -nt[1] / nt[0] if nt.size > 1 else 0.0
-    centroid = float((sum_p - sum_z) / excess) + 0.0
-    s = sign * np.sign(nt[0] / d[0])
-    offset = 180.0 if s > 0 else 0.0
-    angles = np.sort((offset + 360.0 * np.arange(excess)) / excess)
+    # centroid and angles from the locus engine, so explain and the locus agree
+    asym = locus_asymptotes(nt, d, negative=sign < 0)
+    centroid = asym.centroid
+    angles = np.asarray(asym.angles_deg)
     c = np.cos(np.radians(angles))
     vertical = np.abs(c) <= 1e-9
     tol = 1e-9 * max(1.0, abs(centroid))
