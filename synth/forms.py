@@ -31,6 +31,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from synth.errors import InputError
+from synth.plant import coefficients
 
 __all__ = [
     "PidParallel",
@@ -64,27 +65,6 @@ _UNIT_CIRCLE_TOL = 1e-10
 # small helpers
 # ---------------------------------------------------------------------------
 
-def _poly(p, name: str) -> np.ndarray:
-    """Validate a coefficient array, trim leading zeros (keep at least one)."""
-    try:
-        arr = np.atleast_1d(np.asarray(p, dtype=float))
-    except (TypeError, ValueError):
-        raise InputError(f"{name} must be a list of numbers") from None
-    if arr.ndim != 1 or arr.size == 0:
-        raise InputError(f"{name} must be a non-empty 1-D list of numbers")
-    if not np.all(np.isfinite(arr)):
-        raise InputError(f"{name} has a non-finite coefficient")
-    nz = np.flatnonzero(arr)
-    return arr[nz[0]:].copy() if nz.size else np.zeros(1)
-
-
-def _nonzero_poly(p, name: str) -> np.ndarray:
-    arr = _poly(p, name)
-    if not np.any(arr):
-        raise InputError(f"{name} is the zero polynomial")
-    return arr
-
-
 def _positive_time(T, name: str = "the sample time") -> float:
     if isinstance(T, bool) or not isinstance(T, numbers.Real) or not math.isfinite(T) or T <= 0:
         raise InputError(f"{name} must be a finite number > 0, got {T!r}")
@@ -112,7 +92,7 @@ def polynomial_text(coeffs, var: str = "s", digits: int = 6) -> str:
     str
         The polynomial; ``"0"`` for the zero polynomial.
     """
-    c = _poly(coeffs, "the polynomial")
+    c = coefficients(coeffs, "the polynomial")
     n = c.size - 1
     parts: list[str] = []
     for i, a in enumerate(c):
@@ -176,8 +156,8 @@ def factored_text(num, den, var: str = "s", digits: int = 6) -> str:
     str
         The factored form.
     """
-    n = _poly(num, "the numerator")
-    d = _nonzero_poly(den, "the denominator")
+    n = coefficients(num, "the numerator")
+    d = coefficients(den, "the denominator", allow_zero=False)
     if not np.any(n):
         return "0"
     gain = n[0] / d[0]
@@ -299,8 +279,8 @@ def pid_parallel_from_tf(num, den) -> PidParallel | None:
     .. [1] K. J. Astrom and T. Hagglund, *PID Controllers: Theory, Design and
        Tuning*, 2nd ed., ISA, 1995, ch. 3 (controller forms).
     """
-    n = _poly(num, "the compensator numerator")
-    d = _nonzero_poly(den, "the compensator denominator")
+    n = coefficients(num, "the compensator numerator")
+    d = coefficients(den, "the compensator denominator", allow_zero=False)
     dd, nd = d.size - 1, n.size - 1
     if dd > 2:
         return None
@@ -380,7 +360,7 @@ def tf_from_pid_parallel(p: PidParallel) -> tuple[np.ndarray, np.ndarray]:
     else:
         num = [kd, kp]
         den = [1.0]
-    return _poly(num, "numerator"), np.array(den)
+    return coefficients(num, "numerator"), np.array(den)
 
 
 def pid_standard_from_parallel(p: PidParallel) -> PidStandard | None:
@@ -477,8 +457,8 @@ def tustin_prewarp(num, den, T: float, w_warp: float | None = None
        method with frequency pre-warping), from memory.
     """
     T = _positive_time(T)
-    n = _poly(num, "the compensator numerator")
-    d = _nonzero_poly(den, "the compensator denominator")
+    n = coefficients(num, "the compensator numerator")
+    d = coefficients(den, "the compensator denominator", allow_zero=False)
     if w_warp is None or w_warp == 0:
         c = 2.0 / T
     else:
@@ -560,8 +540,8 @@ def difference_equation(numd, dend, digits: int = 8) -> DifferenceEquation:
        Processing*, 3rd ed., Pearson, 2010, section 6.1 (direct-form
        difference equations).
     """
-    b = _poly(numd, "the discrete numerator")
-    a = _nonzero_poly(dend, "the discrete denominator")
+    b = coefficients(numd, "the discrete numerator")
+    a = coefficients(dend, "the discrete denominator", allow_zero=False)
     if b.size > a.size:
         raise InputError("the discrete compensator is not causal (numerator degree above denominator)")
     b = np.concatenate([np.zeros(a.size - b.size), b]) / a[0]
@@ -652,8 +632,8 @@ def zoh_discretise(num, den, T: float, dead_time: float = 0.0
     if isinstance(dead_time, bool) or not isinstance(dead_time, numbers.Real) or not math.isfinite(
             dead_time) or dead_time < 0:
         raise InputError(f"the dead time must be a finite number >= 0, got {dead_time!r}")
-    n = _poly(num, "the plant numerator")
-    d = _nonzero_poly(den, "the plant denominator")
+    n = coefficients(num, "the plant numerator")
+    d = coefficients(den, "the plant denominator", allow_zero=False)
     if n.size > d.size:
         raise InputError("the plant is improper (numerator degree above denominator)")
     whole = math.floor(dead_time / T + 1e-12)
@@ -693,7 +673,7 @@ def zoh_discretise(num, den, T: float, dead_time: float = 0.0
         else:
             h[1] += D
         bcoef = np.convolve(acoef, h)[:length]
-    numd = _poly(bcoef, "numerator")
+    numd = coefficients(bcoef, "numerator")
     dend = np.concatenate([acoef, np.zeros(whole)])
     return numd, dend
 
@@ -776,10 +756,10 @@ def sampled_loop_check(plant_numd, plant_dend, c_numd, c_dend, T: float) -> Samp
     from scipy.signal import lfilter
 
     T = _positive_time(T)
-    gn = _poly(plant_numd, "the discrete plant numerator")
-    gd = _nonzero_poly(plant_dend, "the discrete plant denominator")
-    cn = _poly(c_numd, "the discrete compensator numerator")
-    cd = _nonzero_poly(c_dend, "the discrete compensator denominator")
+    gn = coefficients(plant_numd, "the discrete plant numerator")
+    gd = coefficients(plant_dend, "the discrete plant denominator", allow_zero=False)
+    cn = coefficients(c_numd, "the discrete compensator numerator")
+    cd = coefficients(c_dend, "the discrete compensator denominator", allow_zero=False)
     open_den = np.convolve(cd, gd)
     open_num = np.convolve(cn, gn)
     if open_num.size > open_den.size:

@@ -33,7 +33,7 @@ import numpy as np
 
 from synth.errors import InputError
 from synth.jsonout import clean
-from synth.plant import Plant
+from synth.plant import Plant, coefficients
 
 __all__ = [
     "PID_STRUCTURES",
@@ -59,18 +59,8 @@ _PER_DECADE = 240
 # ---------------------------------------------------------------------------
 
 def _floats(values, what: str, zero_ok: bool = False) -> np.ndarray:
-    try:
-        arr = np.atleast_1d(np.asarray(values, dtype=float))
-    except (TypeError, ValueError):
-        raise InputError(f"{what} must be a list of numbers", key=what) from None
-    if arr.ndim != 1 or arr.size == 0 or not np.all(np.isfinite(arr)):
-        raise InputError(f"{what} must be a non-empty list of finite numbers", key=what)
-    nz = np.flatnonzero(arr)
-    if nz.size == 0:
-        if zero_ok:
-            return np.zeros(1)
-        raise InputError(f"{what} is the zero polynomial", key=what)
-    return arr[nz[0]:]
+    # the document's own key names the list, so the error points at it
+    return coefficients(values, what, allow_zero=zero_ok, key=what)
 
 
 @dataclass(frozen=True)

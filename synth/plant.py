@@ -33,6 +33,51 @@ def trim(poly) -> np.ndarray:
     return p[nz[0]:].copy()
 
 
+def coefficients(poly, what: str, *, allow_zero: bool = True, key: str | None = None) -> np.ndarray:
+    """Validated coefficient list without its exact leading zeros.
+
+    The one reader of user- or document-supplied coefficient lists, so every
+    module rejects the same bad input with the same words.
+
+    Parameters
+    ----------
+    poly : array_like
+        Coefficients in descending powers.
+    what : str
+        How the message names the list, for example ``"the numerator"``.
+    allow_zero : bool, optional
+        Return ``array([0.])`` for the zero polynomial (default) instead of
+        raising.
+    key : str, optional
+        The input key the error points at.
+
+    Returns
+    -------
+    ndarray
+        A fresh float array; only exact zeros are trimmed (unlike :func:`trim`).
+
+    Raises
+    ------
+    InputError
+        For non-numbers, an empty or nested list, a non-finite coefficient,
+        or (with ``allow_zero=False``) the zero polynomial.
+    """
+    try:
+        arr = np.atleast_1d(np.asarray(poly, dtype=float))
+    except (TypeError, ValueError):
+        raise InputError(f"{what} must be a list of numbers", key=key) from None
+    if arr.ndim != 1 or arr.size == 0:
+        raise InputError(f"{what} must be a non-empty 1-D list of numbers", key=key)
+    if not np.all(np.isfinite(arr)):
+        raise InputError(f"{what} has a non-finite coefficient", key=key)
+    nz = np.flatnonzero(arr)
+    if nz.size == 0:
+        if allow_zero:
+            return np.zeros(1)
+        raise InputError(f"{what} is the zero polynomial", key=key)
+    return arr[nz[0]:].copy()
+
+
 def poly_from_roots(roots, gain: float = 1.0) -> np.ndarray:
     """Real polynomial ``gain * prod(s - r)`` (complex roots must come in conjugate pairs)."""
     roots = np.asarray(roots, dtype=complex)

@@ -7,7 +7,7 @@ import pytest
 from scipy import signal
 
 from synth.errors import InputError
-from synth.plant import Plant
+from synth.plant import Plant, coefficients
 
 
 def test_roots_form_matches_scipy_zpk2tf():
@@ -52,3 +52,15 @@ def test_leading_zeros_trimmed_and_common_factor_reported():
     assert plant.order == 2
     shared = plant.common_factors()
     assert len(shared) == 1 and abs(shared[0] + 1.0) < 1e-9
+
+
+def test_coefficients_reads_and_rejects_lists_the_same_way_everywhere():
+    assert coefficients([0.0, 0.0, 2.0, 1.0], "the numerator").tolist() == [2.0, 1.0]
+    assert coefficients([0.0], "the numerator").tolist() == [0.0]
+    for bad, words in ((["a"], "list of numbers"), ([], "non-empty"), ([[1.0], [2.0]], "1-D"),
+                       ([1.0, float("nan")], "non-finite")):
+        with pytest.raises(InputError, match=words):
+            coefficients(bad, "the numerator")
+    with pytest.raises(InputError, match="zero polynomial") as err:
+        coefficients([0.0, 0.0], "x.den", allow_zero=False, key="x.den")
+    assert err.value.key == "x.den"

@@ -39,6 +39,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from synth.errors import InputError
+from synth.plant import coefficients
 
 _EPS = float(np.finfo(float).eps)
 #: relative size of Im K under which a candidate special point counts as on the locus
@@ -222,25 +223,10 @@ def _sorted_complex(z: np.ndarray) -> np.ndarray:
     return z[np.lexsort((z.imag, z.real))] if z.size else z
 
 
-def _validated(poly, name: str) -> np.ndarray:
-    try:
-        p = np.atleast_1d(np.asarray(poly, dtype=float))
-    except (TypeError, ValueError):
-        raise InputError(f"the loop {name} must be a list of real numbers") from None
-    if p.ndim != 1 or p.size == 0:
-        raise InputError(f"the loop {name} must be a non-empty list of coefficients")
-    if not np.all(np.isfinite(p)):
-        raise InputError(f"the loop {name} has a non-finite coefficient")
-    nz = np.flatnonzero(p != 0.0)
-    if nz.size == 0:
-        raise InputError(f"the loop {name} is identically zero")
-    return p[nz[0]:].copy()
-
-
 def loop_pair(num, den) -> tuple[np.ndarray, np.ndarray]:
     """Validate and trim a loop ``K N / D``; raise InputError for unusable loops."""
-    n = _validated(num, "numerator")
-    d = _validated(den, "denominator")
+    n = coefficients(num, "the loop numerator", allow_zero=False)
+    d = coefficients(den, "the loop denominator", allow_zero=False)
     if n.size > d.size:
         raise InputError(
             f"the loop has more zeros ({n.size - 1}) than poles ({d.size - 1}); "
