@@ -25,32 +25,11 @@ from synth.requirements import load_problem
 
 CASES = Path(__file__).resolve().parent.parent / "cases"
 
-# Cases where the global search, seeded with the new strategies' candidates
-# (``context.prior``), has been seen to end on a slightly worse optimum than
-# without them: part of its differential-evolution start population is
-# replaced by the prior candidates, so its path changes.  A guarantee needs a
-# change in synth/search/evolve.py (keep its own start population and polish
-# the priors on top).  Not strict: whether a given case shows it changes with
-# every tuning of the search.
-_PRIOR_SENSITIVE = {
-    "oven-temperature": "evolve's result depends on the prior seeds (issue 5 report)",
-}
-
 #: Scores closer than this are the same optimum polished along a slightly
 #: different path (the score lies in [0, 1); a lost design costs 0.01 or more).
 SCORE_RESOLUTION = 1e-3
 
 NAMES = sorted(p.stem for p in CASES.glob("*.toml"))
-
-
-def _params():
-    out = []
-    for name in NAMES:
-        marks = ()
-        if name in _PRIOR_SENSITIVE:
-            marks = (pytest.mark.xfail(strict=False, reason=_PRIOR_SENSITIVE[name]),)
-        out.append(pytest.param(name, marks=marks, id=name))
-    return out
 
 
 def _run(problem, origins, monkeypatch):
@@ -70,7 +49,7 @@ def _best_feasible(run) -> float | None:
     return min(scores) if scores else None
 
 
-@pytest.mark.parametrize("name", _params())
+@pytest.mark.parametrize("name", NAMES)
 def test_new_strategies_never_lower_the_best_feasible_score(name, monkeypatch):
     problem = load_problem(CASES / f"{name}.toml")
     base = _run(problem, ("search",), monkeypatch)
