@@ -551,17 +551,24 @@ def coefficient_reason(b: CoefficientBlock, both_signs: bool = False) -> Reason:
     elif b.kind == "sign":
         rel = ">" if b.n_coef > 0 else "<"
         text = (f"The {_coef_name(b.power)} coefficient of the characteristic polynomial is "
-                f"{f.num(b.d_coef)} {'+' if b.n_coef >= 0 else '-'} {f.num(abs(b.n_coef))} K, "
+                f"{f.num(b.d_coef)} {_k_term(b.n_coef)}, "
                 f"positive only for K {rel} {f.num(b.bound)}, so no {word} gain makes every "
                 f"coefficient positive and none stabilises.")
     else:
         text = (f"The {_coef_name(b.power)} coefficient {f.num(b.d_coef)} "
-                f"{'+' if b.n_coef >= 0 else '-'} {f.num(abs(b.n_coef))} K needs K > {f.num(b.bound)} "
+                f"{_k_term(b.n_coef)} needs K > {f.num(b.bound)} "
                 f"while the {_coef_name(b.other_power)} coefficient {f.num(b.other_d)} "
-                f"{'+' if b.other_n >= 0 else '-'} {f.num(abs(b.other_n))} K needs "
+                f"{_k_term(b.other_n)} needs "
                 f"K < {f.num(b.other_bound)}, so no {word} gain makes every coefficient positive "
                 f"and none stabilises.")
     return Reason("coefficient", b.sign, text, b.to_json())
+
+
+def _k_term(n: float) -> str:
+    """``+ 2.5 K``, ``- K``: the gain term of a coefficient, written as an engineer would."""
+    sign = "+" if n >= 0 else "-"
+    mag = abs(n)
+    return f"{sign} K" if mag == 1.0 else f"{sign} {f.num(mag)} K"
 
 
 def asymptote_reason(a: AsymptoteFacts, last: Crossing | None, beyond: float | None) -> Reason | None:
