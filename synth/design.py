@@ -323,6 +323,9 @@ class DesignRun:
             lines.append(f"{'':>{widths[0]}}  C(s) = {describe_factored(num, den)}")
             for text in d.verdict.violations:
                 lines.append(f"{'':>{widths[0]}}  fails: {text}")
+            for text in d.verdict.notes:
+                if text.startswith("slow closed-loop pole"):  # worth an engineer's eye
+                    lines.append(f"{'':>{widths[0]}}  note: {text}")
         if not self.designs:
             lines.append("  no candidate was proposed")
         n_ok = sum(d.verdict.feasible for d in self.designs)

@@ -834,6 +834,8 @@ def verify(problem, num_c, den_c, exact_delay: bool = True) -> Verdict:
         metrics.update(step_metrics(resp, req.settling_band_percent))
         metrics.update(frequency_metrics(problem, nc, dc))
         _check_limits(req, metrics, poles, violations, short)
+    if stable:
+        notes.extend(_slow_hidden_poles(poles, num_l, region))
     if plant.dead_time > 0 and not exact and exact_delay:
         notes.append("dead time too short to resolve against the horizon: time-domain "
                      "metrics from the Pade form")
@@ -842,6 +844,32 @@ def verify(problem, num_c, den_c, exact_delay: bool = True) -> Verdict:
                    internally_stable=internally_stable, shortfall=float(sum(short.values())),
                    notes=tuple(notes), exact_delay=exact or plant.dead_time == 0,
                    shortfalls=short)
+
+
+def _slow_hidden_poles(poles, num_l, region) -> list[str]:
+    """Notes on slow closed-loop poles that a nearby loop zero hides from the step response.
+
+    Such a pole barely shows in the reference step (its residue is small) but
+    it is still a mode of the loop: a disturbance entering at the plant input
+    decays at its rate. Slow means slower than the required decay rate, or
+    slower than a tenth of the fastest pole when no rate is required.
+    """
+    zeros = np.roots(trim(num_l)) if trim(num_l).size > 1 else np.zeros(0, complex)
+    if not poles.size or not zeros.size:
+        return []
+    rates = -poles.real
+    slow_limit = region.sigma if region.sigma > 0 else 0.1 * float(np.max(np.abs(poles)))
+    out = []
+    for p, rate in zip(poles, rates, strict=True):
+        if rate >= slow_limit or p.imag < 0:
+            continue
+        d = np.abs(zeros - p)
+        j = int(np.argmin(d))
+        if d[j] <= 0.2 * abs(p):
+            out.append(f"slow closed-loop pole at {format_complex(p)} is nearly cancelled by the "
+                       f"loop zero at {format_complex(zeros[j])}: the reference step hides it, "
+                       f"but a disturbance at the plant input decays only at {_fmt(rate)} 1/s")
+    return out
 
 
 def _check_limits(req, m, poles, violations, short) -> None:

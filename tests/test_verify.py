@@ -346,3 +346,25 @@ def test_batch_polymul_matches_numpy_polymul():
     assert out.shape == (5, 6)
     for row, p in zip(out, P, strict=True):
         assert np.allclose(row, np.polymul(p, q), rtol=1e-13, atol=1e-13)
+
+
+def test_slow_pole_hidden_by_a_loop_zero_is_noted():
+    # Double integrator with a lead whose zero sits almost at the origin: the loop
+    # keeps a closed-loop pole next to that zero. The reference step barely shows
+    # it, but the disturbance response G/(1+CG) decays at its rate (scipy.signal.step).
+    prob = _problem([1.0], [1.0, 0.0, 0.0], "max_settling_time = 20.0\n")
+    num_c, den_c = [0.6, 0.6 * 0.002], [1.0, 8.0]
+    v = verify(prob, num_c, den_c)
+    char = np.polyadd(np.polymul(den_c, [1.0, 0.0, 0.0]), num_c)
+    slow = min(np.roots(char), key=lambda r: -r.real)  # numpy.roots
+    assert -slow.real < 0.003
+    assert any("slow closed-loop pole" in n for n in v.notes), v.notes
+    # the disturbance step response G/(1+CG) = den_c / char is still far from its
+    # final value long after the fast modes have gone
+    t = np.linspace(0, 200, 4001)
+    _, y = signal.step((den_c, char), T=t)
+    final = den_c[-1] / char[-1]
+    assert abs(y[-1] - final) > 0.2 * abs(final)
+    # a design without such a pair gets no note
+    v2 = verify(prob, [0.6, 0.6 * 0.5], [1.0, 8.0])
+    assert not any("slow closed-loop pole" in n for n in v2.notes)
