@@ -671,3 +671,26 @@ def test_random_problems_give_clean_accounts(plant, req, dead_time):
         assert _inside(e.requirement_gain_intervals, k)
         if "gain_range" in req:
             assert req["gain_range"][0] <= k <= req["gain_range"][1]
+
+
+def test_candidate_gains_ask_stability_over_the_plant_gain_range_and_region_at_nominal():
+    # The contract's plant_gain_range asks for stability at every factor; the region is
+    # judged at the nominal plant. Checked at interior gains with numpy.roots.
+    from synth.requirements import problem_from_text
+
+    prob = problem_from_text(
+        "[plant]\nnumerator = [-0.004]\ndenominator = [1.0, 0.08, -0.002]\n"
+        "[requirements]\nmax_overshoot_percent = 30.0\nmax_settling_time = 150.0\n"
+        "plant_gain_range = [0.5, 2.0]\n")
+    e = explain_problem(prob)
+    num, den = prob.plant.num, prob.plant.den
+    region = prob.region
+    assert e.candidate_gain_intervals
+    for lo, hi in e.candidate_gain_intervals:
+        lo = -1e3 if lo is None else lo
+        hi = 1e3 if hi is None else hi
+        for k in np.linspace(lo, hi, 9)[1:-1]:
+            nominal = np.roots(np.polyadd(den, k * num))
+            assert np.all(region.margin(nominal) > 0)
+            for c in (0.5, 1.0, 2.0):
+                assert np.all(np.roots(np.polyadd(den, c * k * num)).real < 0)

@@ -505,8 +505,10 @@ def explain_problem(problem) -> Explanation:
                                "requirement": [list(iv) for iv in rob_reg]}))
 
     cand = list(reg_in)
-    if rob_reg is not None:
-        cand = intersect_all(cand, rob_reg)
+    if rob_stab is not None:
+        # the contract's plant_gain_range asks for stability at every factor (the region
+        # is asked at the nominal plant), as the design verifier judges it
+        cand = intersect_all(cand, rob_stab)
     if req.max_control_effort is not None and facts.relative_degree > 0:
         u = req.max_control_effort
         cand = intersect(cand, -u, u)
