@@ -9,20 +9,24 @@ with fewer parameters, then to the simpler structure in the order of
 search) and finally by the compensator coefficients, so the order is total
 and deterministic.
 
-Score.  A weighted sum of five terms, each in [0, 1], lower is better:
+Score.  A weighted sum of six terms, each in [0, 1], lower is better; the
+weights add up to 1:
 
 ============  ======  ==================================================
 term          weight  value
 ============  ======  ==================================================
-sensitivity   0.30    ``1 - 1/Ms`` (Ms the peak sensitivity)
-gain range    0.15    ``1 / (1 + g)``, ``g = min(ln hi, ln(1/lo))`` over the
+sensitivity   0.27    ``1 - 1/Ms`` (Ms the peak sensitivity)
+gain range    0.13    ``1 / (1 + g)``, ``g = min(ln hi, ln(1/lo))`` over the
                       stable plant-gain range ``(lo, hi)`` (``lo <= 0``
                       counts as unbounded below)
-speed         0.25    ``Ts / (Ts + T_ref)`` (Ts the settling time)
-effort        0.15    ``min(1, log10(1 + U / U_ref) / 4)`` (U the peak
+speed         0.22    ``Ts / (Ts + T_ref)`` (Ts the settling time)
+effort        0.13    ``min(1, log10(1 + U / U_ref) / 4)`` (U the peak
                       control effort: logarithmic, so a thousandfold effort
                       still costs more than a hundredfold)
-simplicity    0.15    ``n_params / 8``
+simplicity    0.13    ``n_params / 8``
+tracking      0.12    ``min(1, e)`` (e the step's steady-state error): even
+                      where no error limit is set, a loop that barely moves
+                      its output toward the reference is no design
 ============  ======  ==================================================
 
 The references ``T_ref`` and ``U_ref`` depend on the problem only (the
@@ -53,8 +57,8 @@ from synth.verify import Verdict
 __all__ = ["RankedDesign", "Refs", "rank_designs", "reference_scales", "score", "score_arrays"]
 
 #: Weights of the score terms (read-only).
-WEIGHTS = MappingProxyType({"sensitivity": 0.30, "gain_range": 0.15, "speed": 0.25,
-                            "effort": 0.15, "simplicity": 0.15})
+WEIGHTS = MappingProxyType({"sensitivity": 0.27, "gain_range": 0.13, "speed": 0.22,
+                            "effort": 0.13, "simplicity": 0.13, "tracking": 0.12})
 #: Relative agreement of compensator frequency responses that counts as a duplicate
 #: (looser between designs of one structure, so the list shows real alternatives).
 _DUPLICATE_RTOL = 5e-3
@@ -102,7 +106,7 @@ def reference_scales(problem) -> Refs:
     return Refs(settling_time=float(t_ref), control_effort=float(u_ref))
 
 
-def score_arrays(ms, lo, hi, ts, effort, n_params, refs: Refs) -> np.ndarray:
+def score_arrays(ms, lo, hi, ts, effort, n_params, refs: Refs, sse=0.0) -> np.ndarray:
     """Vectorised :func:`score` (NaN or missing values count as the worst term)."""
     ms = np.asarray(ms, dtype=float)
     lo = np.asarray(lo, dtype=float)
@@ -118,10 +122,12 @@ def score_arrays(ms, lo, hi, ts, effort, n_params, refs: Refs) -> np.ndarray:
         t_speed = np.where(np.isfinite(ts) & (ts >= 0), ts / (ts + refs.settling_time), 1.0)
         t_eff = np.where(np.isfinite(effort) & (effort >= 0),
                          np.minimum(1.0, np.log10(1.0 + effort / refs.control_effort) / 4.0), 1.0)
+        sse = np.asarray(sse, dtype=float)
+        t_track = np.where(np.isfinite(sse) & (sse >= 0), np.minimum(1.0, sse), 1.0)
     t_simple = float(n_params) / 8.0
     w = WEIGHTS
     return (w["sensitivity"] * t_sens + w["gain_range"] * t_gain + w["speed"] * t_speed
-            + w["effort"] * t_eff + w["simplicity"] * t_simple)
+            + w["effort"] * t_eff + w["simplicity"] * t_simple + w["tracking"] * t_track)
 
 
 def score(verdict: Verdict, n_params: int, refs: Refs) -> float:
@@ -136,7 +142,8 @@ def score(verdict: Verdict, n_params: int, refs: Refs) -> float:
         return np.nan if v is None else float(v)
 
     return float(score_arrays(val("peak_sensitivity"), lo, hi, val("settling_time"),
-                              val("peak_control_effort"), n_params, refs))
+                              val("peak_control_effort"), n_params, refs,
+                              sse=val("steady_state_error")))
 
 
 def _n_params(candidate: Candidate) -> int:

@@ -244,7 +244,8 @@ def _range(v, src, key, *, positive=False):
 
 # name -> validator(value, src, key)
 _REQ_SPEC = {
-    "max_overshoot_percent": lambda v, s, k: _num(v, s, k, lo=0, lo_open=True, hi=100, hi_open=True),
+    # 0 is a real requirement ("no overshoot"): the region then asks for real poles
+    "max_overshoot_percent": lambda v, s, k: _num(v, s, k, lo=0, hi=100, hi_open=True),
     "max_settling_time": lambda v, s, k: _num(v, s, k, lo=0, lo_open=True),
     "settling_band_percent": lambda v, s, k: _num(v, s, k, lo=0, lo_open=True, hi=50),
     "min_damping_ratio": lambda v, s, k: _num(v, s, k, lo=0, lo_open=True, hi=1, hi_open=True),
