@@ -24,9 +24,12 @@ effort        0.13    ``min(1, log10(1 + U / U_ref) / 4)`` (U the peak
                       control effort: logarithmic, so a thousandfold effort
                       still costs more than a hundredfold)
 simplicity    0.13    ``n_params / 8``
-tracking      0.12    ``min(1, e)`` (e the step's steady-state error): even
-                      where no error limit is set, a loop that barely moves
-                      its output toward the reference is no design
+tracking      0.12    ``clip(1 - y_ss, 0, 1)`` (y_ss the step's final
+                      value): even where no error limit is set, a loop
+                      that barely moves its output toward the reference
+                      (or moves it the wrong way) is no design; a final
+                      value at or above 1 costs nothing, since a prefilter
+                      gain can scale it down
 ============  ======  ==================================================
 
 The references ``T_ref`` and ``U_ref`` depend on the problem only (the
@@ -106,7 +109,7 @@ def reference_scales(problem) -> Refs:
     return Refs(settling_time=float(t_ref), control_effort=float(u_ref))
 
 
-def score_arrays(ms, lo, hi, ts, effort, n_params, refs: Refs, sse=0.0) -> np.ndarray:
+def score_arrays(ms, lo, hi, ts, effort, n_params, refs: Refs, final_value=1.0) -> np.ndarray:
     """Vectorised :func:`score` (NaN or missing values count as the worst term)."""
     ms = np.asarray(ms, dtype=float)
     lo = np.asarray(lo, dtype=float)
@@ -122,8 +125,8 @@ def score_arrays(ms, lo, hi, ts, effort, n_params, refs: Refs, sse=0.0) -> np.nd
         t_speed = np.where(np.isfinite(ts) & (ts >= 0), ts / (ts + refs.settling_time), 1.0)
         t_eff = np.where(np.isfinite(effort) & (effort >= 0),
                          np.minimum(1.0, np.log10(1.0 + effort / refs.control_effort) / 4.0), 1.0)
-        sse = np.asarray(sse, dtype=float)
-        t_track = np.where(np.isfinite(sse) & (sse >= 0), np.minimum(1.0, sse), 1.0)
+        fv = np.asarray(final_value, dtype=float)
+        t_track = np.where(np.isfinite(fv), np.clip(1.0 - fv, 0.0, 1.0), 1.0)
     t_simple = float(n_params) / 8.0
     w = WEIGHTS
     return (w["sensitivity"] * t_sens + w["gain_range"] * t_gain + w["speed"] * t_speed
@@ -143,7 +146,7 @@ def score(verdict: Verdict, n_params: int, refs: Refs) -> float:
 
     return float(score_arrays(val("peak_sensitivity"), lo, hi, val("settling_time"),
                               val("peak_control_effort"), n_params, refs,
-                              sse=val("steady_state_error")))
+                              final_value=val("final_value")))
 
 
 def _n_params(candidate: Candidate) -> int:

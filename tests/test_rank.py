@@ -88,17 +88,18 @@ def test_adding_a_candidate_keeps_the_order_of_the_others(gains, extra):
 
 def test_score_terms_move_the_documented_way():
     refs = Refs(settling_time=2.0, control_effort=1.0)
-    base = dict(ms=1.5, lo=0.2, hi=5.0, ts=2.0, effort=1.0, n_params=2, sse=0.0)
+    base = dict(ms=1.5, lo=0.2, hi=5.0, ts=2.0, effort=1.0, n_params=2, fv=1.0)
 
     def sc(**kw):
         args = {**base, **kw}
         return float(score_arrays(args["ms"], args["lo"], args["hi"], args["ts"], args["effort"],
-                                  args["n_params"], refs, sse=args["sse"]))
+                                  args["n_params"], refs, final_value=args["fv"]))
 
     s0 = sc()
     assert sc(ms=2.5) > s0 and sc(ts=4.0) > s0 and sc(effort=100.0) > s0
     assert sc(n_params=4) > s0 and sc(hi=50.0, lo=0.02) < s0
-    assert sc(sse=0.5) > s0 and sc(sse=2.0) == sc(sse=1.0)  # tracking term saturates at 1
+    # tracking: an output that barely moves (or moves the wrong way) costs; above 1 it is free
+    assert sc(fv=0.5) > s0 and sc(fv=2.0) == s0 and sc(fv=-1.0) == sc(fv=0.0) > sc(fv=0.5)
     assert sc(effort=1e3) > sc(effort=1e2)  # still penalised far out (logarithmic)
     assert 0.0 <= s0 < 1.0
     assert sc(ms=float("nan")) > s0  # a missing value counts as the worst

@@ -325,7 +325,8 @@ class SearchObjective:
                         np.log(np.maximum(lo, 1e-300) / a), 0), 0)
             sh = np.where(ok, sh, 5.0)
             feas = sh <= 0
-            sc = score_arrays(ms, lo, hi, ts, eff, self.family.n_params, self.refs, sse=sse)
+            sc = score_arrays(ms, lo, hi, ts, eff, self.family.n_params, self.refs,
+                              final_value=yss)
             val = np.where(feas, np.minimum(sc, 0.999999), 1.0 + sh + 0.1 * np.log1p(reg_short))
             short[idx] = val
         f = np.where(stable, short, 10.0 + np.log1p(unstable_part / self.w_char))
