@@ -7,8 +7,9 @@ within a fair share of ``search.time_budget``, verifies every candidate with
 and keeps ``search.keep``.  The result, :class:`DesignRun`, gives the
 contract's ``synth.design/1`` JSON and the terminal table.
 
-Time.  Each family gets ``time_budget / number of families`` seconds for its
-strategies; within it, strategy i may run until its cumulative share of the
+Time.  Each family gets an equal part of the budget still left when it
+starts (``(time_budget - elapsed) / families left``), so time an early family
+leaves unused passes to the later ones; within it, strategy i may run until its cumulative share of the
 slice (placement 15 %, convex 35 %, search 50 %, renormalised over the
 strategies present), so time one strategy leaves passes to the next and a
 slow one cannot starve the global search.
@@ -408,16 +409,18 @@ def run_design(problem, progress: ProgressFn | None = None) -> DesignRun:
     strategies = available_strategies()
     total = len(families) * len(strategies) + 1
     done = 0
-    share = search.time_budget / max(1, len(families))
     candidates = []
     per_family: dict[str, float] = {}
     capped: list[str] = []
     skipped: list[str] = []
     t_search = time.monotonic()
+    t_end = t_search + search.time_budget
     weights = [_STRATEGY_WEIGHT.get(m.ORIGIN, 1.0) for m in strategies]
     cum = np.cumsum(weights) / max(sum(weights), 1e-12)
-    for fam in families:
+    for i, fam in enumerate(families):
         start = time.monotonic()
+        # an equal part of what is left: slack from fast families passes to later ones
+        share = max(0.0, t_end - start) / (len(families) - i)
         found: list = []
         for mod, frac in zip(strategies, cum, strict=True):
             # each strategy may use the time up to its cumulative share of the family's
