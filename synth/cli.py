@@ -83,7 +83,7 @@ def _about(problem):
 
 
 def _load(file: str):
-    from synth.requirements import load_problem
+    from synth.problem.requirements import load_problem
 
     return load_problem(file)
 
@@ -134,7 +134,7 @@ def trace(
 
     if design:
         path, rank = _split_design_ref(design)
-        from synth.compare import load_design_json
+        from synth.outputs.compare import load_design_json
 
         result, operating_gain = trace_design_loop(problem, load_design_json(path), rank,
                                                    source=path)
@@ -148,7 +148,7 @@ def trace(
     if operating_gain is not None:
         typer.echo(f"design {rank} operates at gain {operating_gain:.6g}")
     if plot:
-        from synth.report.locus_plot import plot_locus
+        from synth.outputs.report.locus_plot import plot_locus
 
         plot_locus(result, plot, region=problem.region,
                    operating_gain=operating_gain,
@@ -174,21 +174,21 @@ def design(
         raise OptionError(f"--report {report}: exists and is not a folder")
     problem = _load(file)
     from synth.design import run_design
-    from synth.progress import terminal_progress
+    from synth.outputs.progress import terminal_progress
 
     with _about(problem), terminal_progress("searching") as progress:
         run = run_design(problem, progress=progress)
     doc = run.to_json()
     _echo_lines(run.table_lines())
     if sample_time is not None or doc.get("designs"):
-        from synth.implementation import add_implementation_forms, implementation_lines
+        from synth.outputs.implementation import add_implementation_forms, implementation_lines
 
         doc = add_implementation_forms(doc, sample_time=sample_time)
         _echo_lines(implementation_lines(doc, sample_time=sample_time))
     if json_out:
         _write_json_atomic(json_out, doc)
     if report:
-        from synth.report.document import write_report
+        from synth.outputs.report.document import write_report
 
         written = write_report(problem, doc, report)
         for path in written:
@@ -206,7 +206,7 @@ def compare(
     """Rankings and metrics of several design runs side by side."""
     if len(files) < 2:
         raise OptionError("compare needs at least two design JSON files")
-    from synth.compare import compare_runs, load_design_json
+    from synth.outputs.compare import compare_runs, load_design_json
 
     _check_output_path(json_out, "--json")
     _check_output_path(plot, "--plot", (".png", ".svg"))
@@ -216,7 +216,7 @@ def compare(
     if json_out:
         _write_json_atomic(json_out, result.to_json())
     if plot:
-        from synth.report.compare_plot import plot_step_overlay
+        from synth.outputs.report.compare_plot import plot_step_overlay
 
         plot_step_overlay(runs, plot)
         typer.echo(f"picture written to {plot}")

@@ -1,7 +1,7 @@
 """The ``synth design`` pipeline: search every structure, verify every candidate, rank.
 
 :func:`run_design` loops over the structure families (``search.structures``,
-or all of them), runs every available strategy of :mod:`synth.search` on each
+or all of them), runs every available strategy of :mod:`synth.strategies` on each
 within a fair share of ``search.time_budget``, verifies every candidate with
 :func:`synth.verify.verify`, ranks them with :func:`synth.rank.rank_designs`
 and keeps ``search.keep``.  The result, :class:`DesignRun`, gives the
@@ -41,12 +41,12 @@ from typing import Any
 import numpy as np
 
 from synth.errors import SynthError
-from synth.jsonout import clean, interval_lists, root_pairs
-from synth.plant import describe_factored
+from synth.families import FAMILIES, families_for
+from synth.outputs.jsonout import clean, interval_lists, root_pairs
+from synth.problem.plant import describe_factored
 from synth.rank import RankedDesign, rank_designs
-from synth.search import available_strategies
-from synth.structures import FAMILIES, families_for
-from synth.verify import METRIC_KEYS, verify
+from synth.strategies import available_strategies
+from synth.verify.verdict import METRIC_KEYS, verify
 
 __all__ = ["CAUTION", "DesignRun", "SCHEMA", "run_design"]
 
@@ -111,8 +111,8 @@ def _interval_point(lo, hi, scale: float) -> float:
 
 def _gain_seeds(problem, explanation) -> tuple[float, ...]:
     """Proportional gains to start from: those passing the most checks first."""
+    from synth.families.base import SearchSpace
     from synth.locus.core import region_gain_intervals, stable_gain_intervals
-    from synth.structures import SearchSpace
 
     plant = problem.plant
     if explanation is not None:
@@ -208,7 +208,7 @@ class DesignRun:
         description = f"{c.structure}: C(s) = {describe_factored(num, den)}"
         params = None
         if family is not None and c.params:
-            from synth.structures import SearchSpace
+            from synth.families.base import SearchSpace
 
             fam = family(SearchSpace.for_problem(self.problem))
             description = fam.describe(np.asarray(c.params))
@@ -399,7 +399,7 @@ def run_design(problem, progress: ProgressFn | None = None) -> DesignRun:
     -------
     DesignRun
     """
-    from synth.search import SearchContext
+    from synth.strategies import SearchContext
 
     search = problem.search
     explanation = _explain(problem)

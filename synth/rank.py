@@ -39,7 +39,7 @@ candidate never changes the order of the others.
 
 Near duplicates.  Two designs whose compensator frequency responses agree
 within 0.5 % over the design band (40 points from ``w_min`` to ``w_max`` of
-:class:`synth.structures.SearchSpace`) are the same controller for every
+:class:`synth.families.SearchSpace`) are the same controller for every
 practical purpose; only the better ranked one is kept.  Between two designs
 of the same structure the tolerance is 10 %, so the list shows alternatives
 rather than small variations of one design.
@@ -53,9 +53,9 @@ from types import MappingProxyType
 
 import numpy as np
 
-from synth.requirements import STRUCTURES
-from synth.search import ORIGINS, Candidate
-from synth.verify import Verdict
+from synth.problem.requirements import STRUCTURES
+from synth.strategies import ORIGINS, Candidate
+from synth.verify.verdict import Verdict
 
 __all__ = ["RankedDesign", "Refs", "rank_designs", "reference_scales", "score", "score_arrays"]
 
@@ -92,11 +92,11 @@ def reference_scales(problem) -> Refs:
 
     ``T_ref`` is ``max_settling_time`` when given, else ``4 / w_char`` with
     ``w_char`` the problem's characteristic frequency
-    (:class:`synth.structures.SearchSpace`).  ``U_ref`` is
+    (:class:`synth.families.SearchSpace`).  ``U_ref`` is
     ``max_control_effort`` when given, else ``1 / |G(j 4 / T_ref)|``, the
     gain that brings the plant to unit loop gain at the speed asked for.
     """
-    from synth.structures import SearchSpace
+    from synth.families.base import SearchSpace
 
     req = problem.requirements
     space = SearchSpace.for_problem(problem)
@@ -189,7 +189,7 @@ def rank_designs(pairs, problem, keep: int | None = None) -> list[RankedDesign]:
     -------
     list of RankedDesign
     """
-    from synth.structures import SearchSpace
+    from synth.families.base import SearchSpace
 
     refs = reference_scales(problem)
     items = []

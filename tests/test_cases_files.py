@@ -22,7 +22,7 @@ PLANT_FORMS = ({"numerator", "denominator"}, {"zeros", "poles", "gain"}, {"expre
 
 
 def _load(name: str):
-    from synth.requirements import load_problem
+    from synth.problem.requirements import load_problem
 
     return load_problem(CASES / name)
 
@@ -80,7 +80,7 @@ def test_case_file_is_well_formed(path):
 
 @pytest.mark.parametrize("path", FILES, ids=lambda p: p.name)
 def test_case_loads_through_load_problem(path):
-    from synth.requirements import load_problem
+    from synth.problem.requirements import load_problem
 
     problem = load_problem(path)
     assert problem.plant.den.size >= 2

@@ -24,10 +24,10 @@ import numpy as np
 import pytest
 import scipy.signal
 
-from synth.requirements import problem_from_text
-from synth.search import SearchContext
-from synth.search.certified import ORIGIN, affine_loop, propose
-from synth.structures import family_for
+from synth.families import family_for
+from synth.problem.requirements import problem_from_text
+from synth.strategies import SearchContext
+from synth.strategies.certified import ORIGIN, affine_loop, propose
 
 GRID = np.concatenate([-np.logspace(-4, 4, 3000)[::-1], [0.0], np.logspace(-4, 4, 3000)])
 

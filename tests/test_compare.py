@@ -19,9 +19,9 @@ import numpy as np
 import pytest
 from scipy import signal
 
-from synth.compare import compare_runs, load_design_json, same_design
 from synth.errors import InputError
-from synth.report.compare_plot import (
+from synth.outputs.compare import compare_runs, load_design_json, same_design
+from synth.outputs.report.compare_plot import (
     closed_loop,
     overlay_curves,
     plot_step_overlay,
@@ -178,7 +178,7 @@ def test_two_design_runs_of_the_same_case_file_rank_identically():
     from pathlib import Path
 
     from synth.design import run_design
-    from synth.requirements import load_problem
+    from synth.problem.requirements import load_problem
 
     path = Path(__file__).resolve().parents[1] / "cases" / "needs-unstable-compensator.toml"
     first = run_design(load_problem(path)).to_json()

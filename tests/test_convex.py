@@ -31,7 +31,7 @@ import pytest
 from scipy.optimize import lsq_linear
 
 from synth.errors import InputError
-from synth.search.convex import (
+from synth.numerics.sos import (
     certified_region_design,
     place_poles_ls,
     spr_polynomial,
@@ -335,6 +335,6 @@ def test_bad_inputs_raise_input_error():
 
 
 def test_cvxpy_not_imported_at_module_import():
-    code = "import sys, synth.screening, synth.search.convex; print('cvxpy' in sys.modules)"
+    code = "import sys, synth.numerics.screening, synth.numerics.sos; print('cvxpy' in sys.modules)"
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert out.stdout.strip() == "False"

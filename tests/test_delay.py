@@ -1,4 +1,4 @@
-"""Tests for synth.delay.pade.
+"""Tests for synth.problem.delay.pade.
 
 External references: scipy.interpolate.pade applied to the Taylor coefficients
 of exp(-x) (reference library); the all-pass property of the diagonal Pade
@@ -15,8 +15,8 @@ import numpy as np
 import pytest
 from scipy.interpolate import pade as scipy_pade
 
-from synth.delay import MAX_PADE_ORDER, pade
 from synth.errors import InputError
+from synth.problem.delay import MAX_PADE_ORDER, pade
 
 
 @pytest.mark.parametrize("order", range(1, MAX_PADE_ORDER + 1))

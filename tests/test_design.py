@@ -16,8 +16,8 @@ from scipy import signal
 from scipy.interpolate import pade as scipy_pade
 
 from synth.design import SCHEMA, run_design
-from synth.requirements import problem_from_text
-from synth.verify import verify
+from synth.problem.requirements import problem_from_text
+from synth.verify.verdict import verify
 
 
 def _problem(plant: str, req: str, search: str) -> object:

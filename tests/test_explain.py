@@ -25,8 +25,14 @@ from hypothesis import strategies as st
 from scipy import signal
 
 from synth.explain import explain_problem
-from synth.plant import Plant
-from synth.requirements import STRUCTURES, Problem, Requirements, SearchSettings, problem_from_text
+from synth.problem.plant import Plant
+from synth.problem.requirements import (
+    STRUCTURES,
+    Problem,
+    Requirements,
+    SearchSettings,
+    problem_from_text,
+)
 
 
 def _explain(num, den, dead_time=0.0, search=None, **req):
@@ -676,7 +682,7 @@ def test_random_problems_give_clean_accounts(plant, req, dead_time):
 def test_candidate_gains_ask_stability_over_the_plant_gain_range_and_region_at_nominal():
     # The contract's plant_gain_range asks for stability at every factor; the region is
     # judged at the nominal plant. Checked at interior gains with numpy.roots.
-    from synth.requirements import problem_from_text
+    from synth.problem.requirements import problem_from_text
 
     prob = problem_from_text(
         "[plant]\nnumerator = [-0.004]\ndenominator = [1.0, 0.08, -0.002]\n"

@@ -1,4 +1,4 @@
-"""Tests for synth.expression.parse_rational.
+"""Tests for synth.problem.expression.parse_rational.
 
 External references: numpy.polymul / numpy.polyadd / numpy.polyval (reference
 library), binomial coefficients via math.comb (mathematical fact), and
@@ -15,7 +15,7 @@ from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 
 from synth.errors import InputError
-from synth.expression import MAX_EXPONENT, parse_rational
+from synth.problem.expression import MAX_EXPONENT, parse_rational
 
 
 def _ratio(num, den, s):

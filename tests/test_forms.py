@@ -1,4 +1,4 @@
-"""Tests for synth.forms: PID forms, Tustin with pre-warping, ZOH, sampled loop.
+"""Tests for synth.outputs.forms: PID forms, Tustin with pre-warping, ZOH, sampled loop.
 
 External references named beside each check:
 scipy.signal.cont2discrete (methods 'bilinear' and 'zoh'), scipy.signal.freqresp,
@@ -19,8 +19,7 @@ from hypothesis import strategies as st
 from scipy.signal import cont2discrete, dlsim, freqresp, freqz, lti
 
 from synth.errors import InputError
-from synth.expression import parse_rational
-from synth.forms import (
+from synth.outputs.forms import (
     PidParallel,
     PidStandard,
     difference_equation,
@@ -36,6 +35,7 @@ from synth.forms import (
     tustin_prewarp,
     zoh_discretise,
 )
+from synth.problem.expression import parse_rational
 
 
 def _pad(a, n):

@@ -22,7 +22,7 @@ from handmade import hand_design
 from scipy.signal import cont2discrete, dstep, freqresp, freqz
 
 from synth.errors import OptionError
-from synth.implementation import add_implementation_forms, implementation_lines
+from synth.outputs.implementation import add_implementation_forms, implementation_lines
 
 # -- hand-built design documents -----------------------------------------------------------------
 

@@ -9,7 +9,7 @@ import math
 
 import numpy as np
 
-from synth.jsonout import clean, finite_or_none, interval_lists, root_pairs
+from synth.outputs.jsonout import clean, finite_or_none, interval_lists, root_pairs
 
 
 def test_clean_gives_strict_json():

@@ -20,7 +20,7 @@ from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 
 from synth.locus.core import region_gain_intervals, stable_gain_intervals
-from synth.requirements import Region
+from synth.problem.region import Region
 
 SETTINGS = settings(max_examples=40, deadline=None, derandomize=True)
 

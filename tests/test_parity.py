@@ -25,8 +25,8 @@ from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 
 from synth.explain import explain_problem, parity_interlacing
-from synth.plant import Plant
-from synth.requirements import Problem
+from synth.problem.plant import Plant
+from synth.problem.requirements import Problem
 
 
 def _explain(num, den, **kw):

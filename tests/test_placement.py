@@ -20,9 +20,10 @@ import numpy as np
 import pytest
 import scipy.signal
 
-from synth.requirements import problem_from_text
-from synth.search import SearchContext
-from synth.search.placement import (
+from synth.families import FAMILIES, family_for
+from synth.problem.requirements import problem_from_text
+from synth.strategies import SearchContext
+from synth.strategies.placement import (
     ORIGIN,
     angle_deficiency,
     lead_bisector,
@@ -31,7 +32,6 @@ from synth.search.placement import (
     propose,
     target_points,
 )
-from synth.structures import FAMILIES, family_for
 
 STRUCTURES = tuple(FAMILIES)
 

@@ -7,7 +7,8 @@ import pytest
 from scipy import signal
 
 from synth.errors import InputError
-from synth.plant import Plant, coefficients
+from synth.numerics.poly import coefficients
+from synth.problem.plant import Plant
 
 
 def test_roots_form_matches_scipy_zpk2tf():

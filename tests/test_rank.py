@@ -6,10 +6,10 @@ import numpy as np
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
+from synth.problem.requirements import problem_from_text
 from synth.rank import Refs, rank_designs, reference_scales, score_arrays
-from synth.requirements import problem_from_text
-from synth.search import Candidate
-from synth.verify import verify
+from synth.strategies import Candidate
+from synth.verify.verdict import verify
 
 # 4 / (s (s + 2)) under P control K: wn = 2 sqrt(K), zeta = 1 / (2 sqrt(K))
 PROBLEM = problem_from_text("""

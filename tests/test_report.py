@@ -23,10 +23,10 @@ from handmade import hand_design
 from scipy.signal import freqresp
 
 from synth.errors import OptionError
-from synth.implementation import add_implementation_forms
-from synth.report import document
-from synth.report.document import CAUTIONS, FIGURE_KINDS, SECTION_TITLES, write_report
-from synth.requirements import problem_from_text
+from synth.outputs.implementation import add_implementation_forms
+from synth.outputs.report import document
+from synth.outputs.report.document import CAUTIONS, FIGURE_KINDS, SECTION_TITLES, write_report
+from synth.problem.requirements import problem_from_text
 
 RIG = """
 [plant]
@@ -369,7 +369,7 @@ def test_report_for_a_bundled_case_from_the_real_pipeline(tmp_path):
     from pathlib import Path
 
     from synth.design import run_design
-    from synth.requirements import load_problem
+    from synth.problem.requirements import load_problem
 
     case = Path(__file__).resolve().parents[1] / "cases" / "heated-tank-delay.toml"
     problem = load_problem(case)

@@ -10,14 +10,13 @@ from hypothesis import given
 from hypothesis import strategies as st
 
 from synth.errors import InputError
-from synth.requirements import (
+from synth.problem.region import (
     Region,
     damping_from_overshoot,
     decay_rate_from_settling,
-    load_problem,
     overshoot_from_damping,
-    problem_from_text,
 )
+from synth.problem.requirements import load_problem, problem_from_text
 
 PLANT = "[plant]\nnumerator = [1.0]\ndenominator = [1.0, 3.0, 2.0]\n"
 

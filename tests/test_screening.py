@@ -1,4 +1,4 @@
-"""Tests of the eigenvalue-free screening kernel (synth.screening).
+"""Tests of the eigenvalue-free screening kernel (synth.numerics.screening).
 
 External references used here:
 
@@ -24,7 +24,7 @@ from hypothesis import HealthCheck, assume, given, settings
 from hypothesis import strategies as st
 
 from synth.errors import InputError
-from synth.screening import (
+from synth.numerics.screening import (
     hurwitz_batch,
     in_region_batch,
     rotate_batch,
@@ -34,7 +34,7 @@ from synth.screening import (
 
 # Boundary band used by the agreement tests: a sample is skipped when some
 # eigenvalue lies closer to the region boundary than BAND * (|s| + sigma).
-# The module docstring of synth.screening documents the kernel's tolerance;
+# The module docstring of synth.numerics.screening documents the kernel's tolerance;
 # agreement was measured down to about 1e-5 for degrees up to 12.
 BAND = 1e-4
 

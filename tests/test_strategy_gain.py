@@ -21,7 +21,7 @@ from pathlib import Path
 import pytest
 
 import synth.design as design
-from synth.requirements import load_problem
+from synth.problem.requirements import load_problem
 
 CASES = Path(__file__).resolve().parent.parent / "cases"
 

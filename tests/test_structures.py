@@ -6,8 +6,8 @@ from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 
 from synth.errors import InputError
-from synth.requirements import problem_from_text
-from synth.structures import FAMILIES, families_for, family_for
+from synth.families import FAMILIES, families_for, family_for
+from synth.problem.requirements import problem_from_text
 
 PROBLEM = problem_from_text("""
 [plant]

@@ -30,8 +30,8 @@ from synth.errors import InputError
 from synth.locus.branches import track_branches
 from synth.locus.grid import adaptive_grid, batch_roots
 from synth.locus.trace import trace_locus
-from synth.report.locus_plot import plot_locus
-from synth.requirements import Region
+from synth.outputs.report.locus_plot import plot_locus
+from synth.problem.region import Region
 
 OGATA3 = ([1.0], np.poly([0, -1, -2]))
 OGATA4 = ([1.0], np.poly([0, -3, -1 + 1j, -1 - 1j]))

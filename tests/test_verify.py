@@ -7,15 +7,11 @@ import pytest
 from scipy import signal
 from scipy.interpolate import pade as scipy_pade
 
-from synth.requirements import problem_from_text
-from synth.verify import (
-    METRIC_KEYS,
-    batch_polymul,
-    screen_batch,
-    step_metrics,
-    step_response,
-    verify,
-)
+from synth.numerics.poly import batch_polymul
+from synth.problem.requirements import problem_from_text
+from synth.verify.screening import screen_batch
+from synth.verify.simulation import step_metrics, step_response
+from synth.verify.verdict import METRIC_KEYS, verify
 
 
 def _problem(num, den, req="", dead_time=0.0, extra=""):
@@ -194,7 +190,7 @@ def test_exact_dead_time_against_a_high_order_pade_closed_loop():
 def test_step_metrics_definitions_on_a_known_curve():
     # hand-made response: overshoot against the final value, settling = last time outside
     # the band (definitions of the contract; common practice)
-    from synth.verify import StepResponse
+    from synth.verify.simulation import StepResponse
 
     t = np.linspace(0, 10, 10001)
     y = 2.0 * (1 - np.exp(-t) * np.cos(3 * t))

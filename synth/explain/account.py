@@ -60,10 +60,10 @@ from synth.explain.gain import (
     zero_reason,
 )
 from synth.explain.structure import StructuralFacts, structural_facts
-from synth.jsonout import clean, finite_or_none, interval_lists
 from synth.locus.core import region_gain_intervals, stable_gain_intervals
-from synth.plant import Plant
-from synth.requirements import Region, overshoot_from_damping
+from synth.outputs.jsonout import clean, finite_or_none, interval_lists
+from synth.problem.plant import Plant
+from synth.problem.region import Region, overshoot_from_damping
 
 SCHEMA = "synth.explain/1"
 SAFETY_LINE = ("Note: this is an analysis of a linear model; confirm limits, saturation and "
@@ -196,7 +196,7 @@ def best_account(num, den, region: Region, req, over,
 
 
 def _damping_source(req, zeta: float) -> str:
-    from synth.requirements import damping_from_overshoot
+    from synth.problem.region import damping_from_overshoot
 
     if req.max_overshoot_percent is not None:
         z_os = damping_from_overshoot(req.max_overshoot_percent)

@@ -25,8 +25,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from synth.jsonout import root_pairs
-from synth.plant import Plant, trim
+from synth.numerics.poly import trim
+from synth.outputs.jsonout import root_pairs
+from synth.problem.plant import Plant
 
 #: a root whose real part is within this fraction of its size counts as on the imaginary axis
 AXIS_RTOL = 1e-9

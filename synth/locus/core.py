@@ -24,7 +24,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from synth.plant import trim
+from synth.numerics.poly import trim
 
 #: relative size under which a characteristic polynomial's leading coefficient counts as zero
 _LEAD_RTOL = 1e-12
@@ -181,7 +181,7 @@ def _boundary_lines(region) -> list[tuple[complex, complex]]:
 
 
 def _inside(num, den, gains, region) -> np.ndarray:
-    from synth.requirements import Region
+    from synth.problem.region import Region
 
     reg = region if region is not None else Region()
     return reg.contains(closed_loop_roots(num, den, gains))

@@ -39,7 +39,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from synth.errors import InputError
-from synth.plant import coefficients
+from synth.numerics.poly import coefficients
 
 _EPS = float(np.finfo(float).eps)
 #: relative size of Im K under which a candidate special point counts as on the locus

@@ -23,8 +23,8 @@ ROOT = Path(__file__).resolve().parents[2]
 def main(argv=None) -> int:
     sys.path.insert(0, str(ROOT))
     from synth.design import run_design
-    from synth.requirements import load_problem
-    from synth.verify import verify
+    from synth.problem.requirements import load_problem
+    from synth.verify.verdict import verify
 
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("cases", nargs="*", help="case files (default: every cases/*.toml)")

@@ -4,7 +4,7 @@ Run with ``python tests/benchmarks/bench_screening.py [--batch N] [--sample M]``
 
 A made-up sixth-order plant (an integrator, three real poles and one damped
 mode, a zero at -4) in a loop with 200 000 random second-order compensators
-gives degree-8 closed-loop polynomials. The kernel (synth.screening.in_region_batch)
+gives degree-8 closed-loop polynomials. The kernel (synth.numerics.screening.in_region_batch)
 screens all of them for decay rate and damping. The timed region (no decay
 rate, damping >= 0.45) is the kernel's slowest case: nearly every candidate
 is stable, so nearly every one goes on to the degree-16 damping test (a
@@ -25,7 +25,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from synth.screening import in_region_batch
+from synth.numerics.screening import in_region_batch
 
 
 @dataclass(frozen=True)

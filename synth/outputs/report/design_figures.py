@@ -17,13 +17,13 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from synth.implementation import (
+from synth.outputs.implementation import (
     LoopFrequencyFacts,
     loop_frequency_facts,
     loop_parts,
     loop_response,
 )
-from synth.jsonout import finite_or_none
+from synth.outputs.jsonout import finite_or_none
 
 __all__ = [
     "PALETTE",
@@ -132,7 +132,7 @@ def design_curves(doc: dict, design: dict, problem) -> DesignCurves:
     -------
     DesignCurves
     """
-    from synth.verify import step_response
+    from synth.verify.simulation import step_response
 
     loop = loop_parts(doc, design)
     notes: list[str] = []

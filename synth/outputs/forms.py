@@ -31,7 +31,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from synth.errors import InputError
-from synth.plant import coefficients
+from synth.numerics.poly import coefficients
 
 __all__ = [
     "PidParallel",

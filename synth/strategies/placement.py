@@ -76,9 +76,9 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from synth.families.base import PD_RATIO_RANGE
 from synth.locus.core import line_crossing_gains
-from synth.plant import trim
-from synth.structures import PD_RATIO_RANGE
+from synth.numerics.poly import trim
 
 __all__ = [
     "MAX_CANDIDATES",
@@ -335,7 +335,7 @@ def _section_angle(s: complex, z: float, p: float) -> float:
 
 
 def _space(problem):
-    from synth.structures import SearchSpace
+    from synth.families.base import SearchSpace
 
     return SearchSpace.for_problem(problem)
 
@@ -995,17 +995,17 @@ def propose(problem, family, context) -> list:
     Parameters
     ----------
     problem : synth.requirements.Problem
-    family : synth.structures.Family
-    context : synth.search.SearchContext
+    family : synth.families.Family
+    context : synth.strategies.SearchContext
         Only the deadline is used: the construction is deterministic.
 
     Returns
     -------
-    list of synth.search.Candidate
+    list of synth.strategies.Candidate
         ``origin = "placement"``; each provenance holds the target point, the
         deficiency and the angle supplied there (degrees).
     """
-    from synth.search import candidate_from_polys
+    from synth.strategies import candidate_from_polys
 
     if context is not None and context.time_left() <= 0:
         return []
@@ -1028,7 +1028,7 @@ def shortlist(problem, designs, limit: int = MAX_CANDIDATES) -> list[Placement]:
     class the targets take turns (each target's first construction before
     any target's second), so the list covers the targets evenly.
     """
-    from synth.verify import screen_batch
+    from synth.verify.screening import screen_batch
 
     if not designs:
         return []

@@ -6,7 +6,7 @@ A strategy module defines
     the contract's origin name of what it proposes: ``"placement"``,
     ``"convex"`` or ``"search"``;
 ``propose(problem, family, context) -> list[Candidate]``
-    candidates of one structure family (a :class:`synth.structures.Family`)
+    candidates of one structure family (a :class:`synth.families.Family`)
     for the problem, within ``context.deadline``.
 
 Strategies only propose; :mod:`synth.design` verifies every candidate with
@@ -47,7 +47,7 @@ ORIGINS = ("placement", "convex", "search")
 
 #: Strategy modules by import path, in running order: the quick constructive
 #: ones first, so the global search can start from what they found.
-STRATEGY_MODULES = ("synth.search.placement", "synth.search.certified", "synth.search.evolve")
+STRATEGY_MODULES = ("synth.strategies.placement", "synth.strategies.certified", "synth.strategies.evolve")
 
 
 @dataclass(frozen=True)
@@ -57,7 +57,7 @@ class Candidate:
     Attributes
     ----------
     structure : str
-        Contract structure name (a key of :data:`synth.structures.FAMILIES`).
+        Contract structure name (a key of :data:`synth.families.FAMILIES`).
     origin : str
         Contract origin name (one of :data:`ORIGINS`).
     params : tuple of float
@@ -125,7 +125,7 @@ def candidate_from_params(family, x, origin: str, provenance=None) -> Candidate:
 
 def candidate_from_polys(family, num, den, origin: str, provenance=None) -> Candidate:
     """Candidate from compensator polynomials (``params`` from ``family.from_polys``)."""
-    from synth.plant import trim
+    from synth.numerics.poly import trim
 
     n, d = trim(num), trim(den)
     lead = d[0]

@@ -52,7 +52,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from synth.errors import InputError
-from synth.screening import (
+from synth.numerics.screening import (
     in_region_batch,
     region_parameters,
     rotate_batch,

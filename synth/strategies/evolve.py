@@ -55,8 +55,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from synth.search import candidate_from_params
-from synth.verify import batch_polymul
+from synth.numerics.poly import batch_polymul
+from synth.strategies import candidate_from_params
 
 __all__ = ["ORIGIN", "SearchObjective", "propose"]
 
@@ -201,9 +201,9 @@ class SearchObjective:
     def details(self, X) -> dict[str, np.ndarray]:
         """Estimated metrics and the objective for a batch (arrays of shape (B,))."""
         from synth.locus.core import roots_batch
+        from synth.problem.region import Region
         from synth.rank import score_arrays
-        from synth.requirements import Region
-        from synth.verify import _in_region
+        from synth.verify.screening import _in_region
 
         X = np.atleast_2d(np.asarray(X, dtype=float))
         B = X.shape[0]
@@ -430,8 +430,8 @@ def propose(problem, family, context) -> list:
     Parameters
     ----------
     problem : synth.requirements.Problem
-    family : synth.structures.Family
-    context : synth.search.SearchContext
+    family : synth.families.Family
+    context : synth.strategies.SearchContext
         ``gain_seeds`` join the evolution's start population; ``prior``
         candidates (from earlier strategies) are only polished, alongside the
         evolution's best, so the evolution itself does not depend on which

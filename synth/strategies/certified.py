@@ -14,10 +14,10 @@ numerator coefficients: ``c(x) = c0 + M x``.  This module
    exactly (lead, lag, PD, PI) or contains (PID, lead-lag) the family's
    shape: e.g. a lead ``K (s + z)/(s + p)``, ``0 < z < p``, is
    ``u s + v (s + p)`` with ``u, v >= 0``;
-3. calls :func:`synth.search.convex.certified_region_design` (the
+3. calls :func:`synth.numerics.sos.certified_region_design` (the
    Henrion-Sebek-Kucera positive-polynomial certificate that every
    closed-loop pole lies in the requirement region, maximising its depth
-   inside the region) and :func:`synth.search.convex.place_poles_ls` (a
+   inside the region) and :func:`synth.numerics.sos.place_poles_ls` (a
    bounded least-squares match to a target polynomial), and
 4. maps each solution back to the family with ``Family.from_polys``;
    solutions outside the family's shape are dropped.
@@ -44,8 +44,8 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from synth.plant import trim
-from synth.structures import PD_RATIO_RANGE
+from synth.families.base import PD_RATIO_RANGE
+from synth.numerics.poly import trim
 
 __all__ = ["ORIGIN", "AffineLoop", "affine_loop", "fixed_parts", "planned_parts", "propose"]
 
@@ -161,10 +161,10 @@ def _static_floor(problem, gen, den_c) -> tuple[int, float] | None:
 
     The static loop gain is ``n_C(0) G(0) / d_C(0)`` with ``n_C(0) = sum_i x_i
     gen[i, -1]``; when exactly one generator has a constant term, the limit
-    ``Kp >= Kp_req`` (:func:`synth.search.placement.static_gain_need`) is a
+    ``Kp >= Kp_req`` (:func:`synth.strategies.placement.static_gain_need`) is a
     lower bound on that ``x_i``.
     """
-    from synth.search.placement import static_gain_need
+    from synth.strategies.placement import static_gain_need
 
     num_g, den_g = problem.plant.num, problem.plant.den
     kp, _ = static_gain_need(problem, num_g, den_g)
@@ -188,7 +188,7 @@ def affine_loop(problem, family, fixed, sign: int = 1) -> AffineLoop:
     Parameters
     ----------
     problem : synth.requirements.Problem
-    family : synth.structures.Family
+    family : synth.families.Family
     fixed : sequence of float
         Values of ``family.fixed_names`` (see :meth:`Family.affine_form`).
     sign : {1, -1}
@@ -230,7 +230,7 @@ def affine_loop(problem, family, fixed, sign: int = 1) -> AffineLoop:
 
 def _reference_speed(problem) -> float:
     """Natural frequency of the middle placement target (the requirement region moved inward)."""
-    from synth.search.placement import target_points
+    from synth.strategies.placement import target_points
 
     wns = sorted(t.natural_frequency for t in target_points(problem))
     return float(wns[len(wns) // 2]) if wns else 1.0
@@ -242,7 +242,7 @@ def fixed_parts(problem, family, prior=()) -> list[tuple[float, ...]]:
     Parameters
     ----------
     problem : synth.requirements.Problem
-    family : synth.structures.Family
+    family : synth.families.Family
     prior : sequence of Candidate
         Earlier candidates of this family; their denominators come first.
 
@@ -331,7 +331,7 @@ def _regions(region):
     and failing that plain stability, is certified and the provenance says
     so (``certified`` stays false: it refers to the requirement region).
     """
-    from synth.requirements import Region
+    from synth.problem.region import Region
 
     yield region, None
     if region.zeta > 0.0 and region.sigma > 0.0:
@@ -342,8 +342,8 @@ def _regions(region):
 
 def _solve_one(problem, family, loop: AffineLoop, seed: int, w: float):
     """Pole placement and certified region design on one parametrisation."""
-    from synth.screening import in_region_batch
-    from synth.search.convex import certified_region_design, place_poles_ls, target_polynomial
+    from synth.numerics.screening import in_region_batch
+    from synth.numerics.sos import certified_region_design, place_poles_ls, target_polynomial
 
     region = problem.region
     out = []
@@ -403,7 +403,7 @@ def planned_parts(problem) -> int:
     ``_COST_GUESS`` seconds per fixed part, between 1 and 3; the rest is left
     to the global search.
     """
-    from synth.structures import families_for
+    from synth.families import families_for
 
     share = float(problem.search.time_budget) / max(1, len(families_for(problem)))
     return int(min(3, max(1, math.floor(0.4 * share / _COST_GUESS))))
@@ -415,21 +415,21 @@ def propose(problem, family, context) -> list:
     Parameters
     ----------
     problem : synth.requirements.Problem
-    family : synth.structures.Family
-    context : synth.search.SearchContext
+    family : synth.families.Family
+    context : synth.strategies.SearchContext
         ``seed`` seeds the convex module's sampling; ``deadline`` caps the
         sweep of fixed parts (a sweep cut short says ``time_capped``).
 
     Returns
     -------
-    list of synth.search.Candidate
+    list of synth.strategies.Candidate
         ``origin = "convex"``; ``provenance["certified"]`` tells whether the
         certificate for the requirement region holds; ``certificate_region``
         is the region the certificates were written for (weaker, with a
         ``relaxed`` note, when the requirement region admits none).
     """
-    from synth.search import candidate_from_polys
-    from synth.search.placement import gain_signs
+    from synth.strategies import candidate_from_polys
+    from synth.strategies.placement import gain_signs
 
     signs = gain_signs(problem)
     if not signs:

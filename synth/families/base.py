@@ -1,0 +1,393 @@
+"""Compensator structure families behind one small interface.
+
+Every family maps a parameter vector ``x`` (a point of its search space) to a
+compensator
+
+    C(s) = K * monic_num(s) / monic_den(s),
+
+``K`` being the root-locus gain that ``requirements.gain_range`` bounds (the
+``gain`` of the design JSON).  All families share the same methods, in the
+spirit of scikit-learn's estimators, so a strategy written against one works
+with every other:
+
+``name``, ``n_params``, ``param_names``
+    identification and size of the search space;
+``bounds()``
+    box bounds ``(lo, hi)`` of the search space;
+``polys(X)``
+    batched map ``X (B, p) -> (num (B, k), den (B, k))``;
+``describe(x)``, ``natural(x)``
+    readable text and a ``{name: value}`` mapping in natural units;
+``from_polys(num, den)``
+    the inverse map where the polynomials have the family's shape, else ``None``;
+``near_gain(k)``
+    a parameter vector whose compensator is close to the plain gain ``k``
+    (used to seed searches from the proportional analysis);
+``affine_form(fixed)``
+    the compensator numerator as an affine function ``num0 + x @ basis`` of
+    free coefficients once the listed part of the denominator is fixed (for
+    convex strategies).
+
+Search-space coordinates.  Pole and zero magnitudes are searched as
+``log10`` of rad/s between ``SearchSpace.w_min`` and ``SearchSpace.w_max``
+(``w_max`` is ``search.max_frequency``).  The gain is searched in the
+coordinate ``u = asinh(K / gain_scale)``: logarithmic for large ``|K|``,
+linear near zero and continuous through zero, so one coordinate covers
+direct- and reverse-acting gains.  Coefficients of the free ("general")
+family use the same signed-logarithmic coordinate, so their roots may lie
+anywhere, right half-plane included.
+
+Families: P, PI, PD (with derivative filter), PID (with derivative filter),
+lead, lag, lead-lag and general (fixed order 1 to 3, free numerator and
+denominator).  Integral families have the pole at s = 0 in the denominator.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+from dataclasses import dataclass
+from typing import ClassVar
+
+import numpy as np
+
+from synth.errors import InputError
+from synth.numerics.poly import trim
+from synth.problem.plant import describe_factored
+
+#: Derivative-filter ratio range of the PD family: pole / zero = 1 + N_f with
+#: the standard-form filter constant N_f from 2 to 50 (common practice).
+PD_RATIO_RANGE = (3.0, 51.0)
+
+
+@dataclass(frozen=True)
+class SearchSpace:
+    """Frequency and gain scales of one problem's search.
+
+    Parameters
+    ----------
+    w_min, w_max : float
+        Smallest and largest compensator pole/zero magnitude in rad/s
+        (``w_max`` is ``search.max_frequency``).
+    w_char : float
+        Characteristic frequency of the problem (geometric mean of the plant's
+        non-zero pole and zero magnitudes, the inverse dead time and the speed
+        the requirements ask for).
+    gain_lo, gain_hi : float
+        Bounds of the compensator gain ``K``.
+    gain_scale : float
+        Scale of the ``asinh`` gain coordinate.
+    order : int
+        Order of the "general" family (``search.general_order``).
+    """
+
+    w_min: float
+    w_max: float
+    w_char: float
+    gain_lo: float
+    gain_hi: float
+    gain_scale: float
+    order: int = 2
+
+    @classmethod
+    def for_problem(cls, problem) -> SearchSpace:
+        """Derive the scales from the plant, requirements and search settings."""
+        plant = problem.plant
+        req = problem.requirements
+        search = problem.search
+        w_max = float(search.max_frequency)
+        mags = []
+        for poly in (plant.rational_num, plant.rational_den):
+            p = trim(poly)
+            if p.size > 1:
+                r = np.abs(np.roots(p))
+                mags.extend(float(v) for v in r if v > 1e-9)
+        if plant.dead_time > 0:
+            mags.append(1.0 / plant.dead_time)
+        region = problem.region
+        if region.sigma > 0:
+            mags.append(region.sigma)
+        if req.max_rise_time is not None:
+            mags.append(1.8 / req.max_rise_time)
+        if mags:
+            w_char = float(np.exp(np.mean(np.log(mags))))
+            w_low = min(mags)
+        else:
+            w_char = 1.0
+            w_low = 1.0
+        w_char = min(max(w_char, w_max * 1e-6), w_max)
+        w_min = min(1e-3 * w_char, 2e-2 * w_low)
+        w_min = min(max(w_min, w_max * 1e-7), w_max * 1e-2)
+
+        if req.gain_range is not None:
+            lo, hi = (float(v) for v in req.gain_range)
+            scale = 1e-4 * max(abs(lo), abs(hi))
+        else:
+            # magnitudes that make |C G| about one near the characteristic
+            # frequency, widened by four decades each way
+            g = abs(complex(plant.evaluate(np.array([1j * w_char]), exact_delay=False)[0]))
+            k_ref = 1.0 / g if np.isfinite(g) and g > 0 else 1.0
+            hi = 1e4 * k_ref
+            lo = -hi
+            scale = 1e-4 * k_ref
+        return cls(w_min=float(w_min), w_max=w_max, w_char=w_char, gain_lo=lo, gain_hi=hi,
+                   gain_scale=float(scale), order=int(search.general_order))
+
+    # -- coordinates ---------------------------------------------------------------
+    def gain(self, u):
+        """Gain ``K`` from its search coordinate."""
+        return self.gain_scale * np.sinh(u)
+
+    def gain_coord(self, k):
+        """Search coordinate of the gain ``K``."""
+        return np.arcsinh(np.asarray(k, dtype=float) / self.gain_scale)
+
+    @property
+    def gain_bounds(self) -> tuple[float, float]:
+        return float(self.gain_coord(self.gain_lo)), float(self.gain_coord(self.gain_hi))
+
+    @property
+    def log_w(self) -> tuple[float, float]:
+        return math.log10(self.w_min), math.log10(self.w_max)
+
+
+@dataclass(frozen=True)
+class AffineForm:
+    """Compensator with a fixed denominator and numerator ``num0 + x @ basis``.
+
+    Parameters
+    ----------
+    den : ndarray, shape (k,)
+        Fixed monic compensator denominator.
+    num0 : ndarray, shape (k,)
+        Constant part of the numerator (padded to the length of ``den``).
+    basis : ndarray, shape (m, k)
+        Row ``i`` is the numerator's dependence on the free coefficient ``x[i]``.
+    names : tuple of str
+        Names of the free coefficients.
+
+    Notes
+    -----
+    The closed-loop characteristic polynomial ``den * den_G + num(x) * num_G``
+    is then affine in ``x``.  Map a solution back to the family with
+    ``family.from_polys(form.numerator(x), form.den)`` (``None`` when the
+    solution falls outside the family, e.g. a "lead" whose zero passed its pole).
+    """
+
+    den: np.ndarray
+    num0: np.ndarray
+    basis: np.ndarray
+    names: tuple[str, ...]
+
+    def numerator(self, x) -> np.ndarray:
+        """Numerator coefficients for free coefficients ``x`` (shape (m,) or (B, m))."""
+        return self.num0 + np.asarray(x, dtype=float) @ self.basis
+
+
+def _col(X, j):
+    return X[:, j]
+
+
+def _ones(B):
+    return np.ones(B)
+
+
+def _stack(*cols):
+    return np.stack(cols, axis=1)
+
+
+def _mul_rows(a, b):
+    """Row-wise product of two batches of polynomials."""
+    B = a.shape[0]
+    out = np.zeros((B, a.shape[1] + b.shape[1] - 1))
+    for j in range(b.shape[1]):
+        out[:, j:j + a.shape[1]] += a * b[:, j:j + 1]
+    return out
+
+
+def _lpad(P, width):
+    """Pad a batch of polynomials with leading zeros to ``width`` columns."""
+    if P.shape[1] == width:
+        return P
+    out = np.zeros((P.shape[0], width))
+    out[:, width - P.shape[1]:] = P
+    return out
+
+
+def _as_batch(X, p):
+    X = np.atleast_2d(np.asarray(X, dtype=float))
+    if X.shape[1] != p:
+        raise InputError(f"expected {p} parameters per row, got {X.shape[1]}")
+    return X
+
+
+def _real_roots_or_none(poly, positive=True):
+    """Negated real roots of a monic polynomial (the ``a`` in ``s + a``), or None."""
+    p = trim(poly)
+    if p.size == 1:
+        return np.zeros(0)
+    r = np.roots(p)
+    # a double root comes back from numpy.roots split by about sqrt(eps)
+    if np.any(np.abs(r.imag) > 1e-6 * np.maximum(1.0, np.abs(r))):
+        return None
+    a = -r.real
+    if positive and np.any(a <= 0):
+        return None
+    return np.sort(a)
+
+
+def _gain_of(num, den) -> float:
+    n, d = trim(num), trim(den)
+    return float(n[0] / d[0])
+
+
+@dataclass(frozen=True)
+class Family:
+    """Base class: one compensator structure over a :class:`SearchSpace`.
+
+    Subclasses set ``name``, ``param_names`` and implement ``_polys``,
+    ``_bounds``, ``natural``, ``from_polys`` and ``near_gain``.
+    """
+
+    space: SearchSpace
+    name: ClassVar[str] = ""
+    param_names: ClassVar[tuple[str, ...]] = ()
+    #: names of the denominator parameters that ``affine_form`` expects fixed
+    fixed_names: ClassVar[tuple[str, ...]] = ()
+
+    @property
+    def n_params(self) -> int:
+        return len(self.param_names)
+
+    def bounds(self) -> tuple[np.ndarray, np.ndarray]:
+        """Box bounds ``(lo, hi)`` of the search space, each shape (n_params,)."""
+        lo, hi = zip(*self._bounds(), strict=True)
+        return np.asarray(lo, dtype=float), np.asarray(hi, dtype=float)
+
+    def polys(self, X) -> tuple[np.ndarray, np.ndarray]:
+        """Numerators and denominators for a batch of parameter vectors.
+
+        Parameters
+        ----------
+        X : array_like, shape (B, n_params) or (n_params,)
+
+        Returns
+        -------
+        num, den : ndarray, shape (B, k)
+            ``num = K * monic numerator`` and the monic denominator, padded on
+            the left to the common length ``k = compensator order + 1``.
+        """
+        X = _as_batch(X, self.n_params)
+        num, den = self._polys(X)
+        k = max(num.shape[1], den.shape[1])
+        return _lpad(num, k), _lpad(den, k)
+
+    def poly(self, x) -> tuple[np.ndarray, np.ndarray]:
+        """``(num, den)`` of one parameter vector, leading zeros trimmed."""
+        num, den = self.polys(np.asarray(x, dtype=float)[None, :])
+        return trim(num[0]), trim(den[0])
+
+    def describe(self, x) -> str:
+        """One readable line: the factored compensator and the family's own terms."""
+        num, den = self.poly(x)
+        extra = ", ".join(f"{k} {v:.4g}" for k, v in self.natural(x).items() if k != "gain")
+        text = f"{self.name}: C(s) = {describe_factored(num, den)}"
+        return f"{text} ({extra})" if extra else text
+
+    def clip(self, x) -> np.ndarray:
+        """Project a parameter vector into the bounds."""
+        lo, hi = self.bounds()
+        return np.clip(np.asarray(x, dtype=float), lo, hi)
+
+    def affine_form(self, fixed: Sequence[float] = ()) -> AffineForm:
+        """Numerator affine in free coefficients with the denominator fixed.
+
+        Parameters
+        ----------
+        fixed : sequence of float
+            Values of ``fixed_names`` (pole magnitudes in rad/s; for the
+            general family the monic denominator's coefficients after the
+            leading 1).
+        """
+        fixed = [float(v) for v in fixed]
+        if len(fixed) != len(self.fixed_names):
+            raise InputError(f"{self.name}: affine_form needs {len(self.fixed_names)} fixed "
+                             f"values ({', '.join(self.fixed_names) or 'none'}), got {len(fixed)}")
+        den = self._fixed_den(fixed)
+        k = den.size
+        # every family's numerator is a full polynomial of the denominator's degree
+        names = tuple(f"b{k - 1 - i}" for i in range(k))
+        return AffineForm(den=den, num0=np.zeros(k), basis=np.eye(k), names=names)
+
+    # -- hooks -------------------------------------------------------------------
+    def _bounds(self):  # pragma: no cover - abstract
+        raise NotImplementedError
+
+    def _polys(self, X):  # pragma: no cover - abstract
+        raise NotImplementedError
+
+    def _fixed_den(self, fixed):  # pragma: no cover - abstract
+        raise NotImplementedError
+
+    def natural(self, x) -> dict[str, float]:  # pragma: no cover - abstract
+        raise NotImplementedError
+
+    def from_polys(self, num, den) -> np.ndarray | None:  # pragma: no cover - abstract
+        raise NotImplementedError
+
+    def near_gain(self, k: float) -> np.ndarray:  # pragma: no cover - abstract
+        raise NotImplementedError
+
+    # -- shared pieces ---------------------------------------------------------------
+    def _gain_bound(self):
+        return self.space.gain_bounds
+
+    def _logw_bound(self):
+        return self.space.log_w
+
+    def _u(self, k):
+        return float(self.space.gain_coord(k))
+
+
+@dataclass(frozen=True)
+class _PairFamily(Family):
+    """Lead or lag ``K (s + z) / (s + p)``: the two magnitudes are sorted into zero and pole."""
+
+    lead: ClassVar[bool] = True
+    param_names: ClassVar[tuple[str, ...]] = ("gain", "log10_a", "log10_b")
+    fixed_names: ClassVar[tuple[str, ...]] = ("pole",)
+
+    def _bounds(self):
+        lw = self._logw_bound()
+        return [self._gain_bound(), lw, lw]
+
+    def _zp(self, a, b):
+        lo, hi = np.minimum(a, b), np.maximum(a, b)
+        return (lo, hi) if self.lead else (hi, lo)
+
+    def _polys(self, X):
+        K = self.space.gain(X[:, 0])
+        z, p = self._zp(10.0 ** X[:, 1], 10.0 ** X[:, 2])
+        B = X.shape[0]
+        return K[:, None] * _stack(_ones(B), z), _stack(_ones(B), p)
+
+    def _fixed_den(self, fixed):
+        return np.array([1.0, fixed[0]])
+
+    def natural(self, x):
+        K = float(self.space.gain(x[0]))
+        z, p = self._zp(10.0 ** float(x[1]), 10.0 ** float(x[2]))
+        return {"gain": K, "zero": float(z), "pole": float(p), "ratio": float(max(z, p) / min(z, p))}
+
+    def from_polys(self, num, den):
+        n, d = trim(num), trim(den)
+        if n.size != 2 or d.size != 2:
+            return None
+        z, p = n[1] / n[0], d[1] / d[0]
+        if z <= 0 or p <= 0 or (z > p if self.lead else z < p):
+            return None
+        return np.array([self._u(n[0] / d[0]), math.log10(z), math.log10(p)])
+
+    def near_gain(self, k):
+        lw = math.log10(self.space.w_char)
+        return np.array([self._u(k), lw, lw])

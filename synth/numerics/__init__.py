@@ -1,0 +1,1 @@
+"""Shared numerics: polynomial helpers, Hurwitz screening, sum-of-squares certificates."""

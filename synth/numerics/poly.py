@@ -1,0 +1,130 @@
+"""Polynomial helpers shared by every stage: trimming, validated coefficient lists,
+products, roots shared by two polynomials and readable complex numbers.
+
+Polynomials are numpy arrays of real coefficients in descending powers.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from synth.errors import InputError
+
+#: Relative size below which a leading coefficient counts as zero when trimming.
+_TRIM_RTOL = 1e-14
+
+
+def trim(poly) -> np.ndarray:
+    """Return ``poly`` as a float array without leading zeros (at least one entry)."""
+    p = np.atleast_1d(np.asarray(poly, dtype=float))
+    if p.size == 0:
+        return np.zeros(1)
+    scale = np.max(np.abs(p)) if p.size else 0.0
+    if scale == 0.0:
+        return np.zeros(1)
+    nz = np.flatnonzero(np.abs(p) > _TRIM_RTOL * scale)
+    return p[nz[0]:].copy()
+
+
+def coefficients(poly, what: str, *, allow_zero: bool = True, key: str | None = None) -> np.ndarray:
+    """Validated coefficient list without its exact leading zeros.
+
+    The one reader of user- or document-supplied coefficient lists, so every
+    module rejects the same bad input with the same words.
+
+    Parameters
+    ----------
+    poly : array_like
+        Coefficients in descending powers.
+    what : str
+        How the message names the list, for example ``"the numerator"``.
+    allow_zero : bool, optional
+        Return ``array([0.])`` for the zero polynomial (default) instead of
+        raising.
+    key : str, optional
+        The input key the error points at.
+
+    Returns
+    -------
+    ndarray
+        A fresh float array; only exact zeros are trimmed (unlike :func:`trim`).
+
+    Raises
+    ------
+    InputError
+        For non-numbers, an empty or nested list, a non-finite coefficient,
+        or (with ``allow_zero=False``) the zero polynomial.
+    """
+    try:
+        arr = np.atleast_1d(np.asarray(poly, dtype=float))
+    except (TypeError, ValueError):
+        raise InputError(f"{what} must be a list of numbers", key=key) from None
+    if arr.ndim != 1 or arr.size == 0:
+        raise InputError(f"{what} must be a non-empty 1-D list of numbers", key=key)
+    if not np.all(np.isfinite(arr)):
+        raise InputError(f"{what} has a non-finite coefficient", key=key)
+    nz = np.flatnonzero(arr)
+    if nz.size == 0:
+        if allow_zero:
+            return np.zeros(1)
+        raise InputError(f"{what} is the zero polynomial", key=key)
+    return arr[nz[0]:].copy()
+
+
+def poly_from_roots(roots, gain: float = 1.0) -> np.ndarray:
+    """Real polynomial ``gain * prod(s - r)`` (complex roots must come in conjugate pairs)."""
+    roots = np.asarray(roots, dtype=complex)
+    p = np.poly(roots) if roots.size else np.ones(1)
+    return gain * np.real(p)
+
+
+def common_roots(a, b, rtol: float = 1e-6) -> list[complex]:
+    """Roots shared by polynomials ``a`` and ``b`` (within a relative tolerance).
+
+    Used to *report* pole-zero cancellations; synth never cancels them.
+    """
+    ra = np.roots(trim(a))
+    rb = list(np.roots(trim(b)))
+    shared = []
+    for r in ra:
+        if not rb:
+            break
+        d = np.abs(np.asarray(rb) - r)
+        j = int(np.argmin(d))
+        if d[j] <= rtol * max(1.0, abs(r)):
+            shared.append(complex(r))
+            rb.pop(j)
+    return shared
+
+
+def format_complex(z: complex, digits: int = 4) -> str:
+    """Short readable form of a complex number, e.g. ``-1.5`` or ``-0.5+2j``."""
+    z = complex(z)
+    fmt = f"{{:.{digits}g}}"
+    if abs(z.imag) <= 1e-12 * max(1.0, abs(z)):
+        return fmt.format(z.real)
+    sign = "+" if z.imag >= 0 else "-"
+    return f"{fmt.format(z.real)}{sign}{fmt.format(abs(z.imag))}j"
+
+
+def batch_polymul(P, q) -> np.ndarray:
+    """Row-wise product of a polynomial batch with one polynomial.
+
+    Parameters
+    ----------
+    P : ndarray, shape (B, a)
+        One polynomial per row, descending powers, all of the same length.
+    q : array_like, shape (b,)
+        The common factor, descending powers.
+
+    Returns
+    -------
+    ndarray, shape (B, a + b - 1)
+        Row ``i`` equals ``numpy.polymul(P[i], q)`` (without trimming).
+    """
+    # one shifted axpy per coefficient of q: vectorised across the batch
+    q = np.asarray(q, dtype=float)
+    out = np.zeros((P.shape[0], P.shape[1] + q.size - 1))
+    for j, c in enumerate(q):
+        out[:, j:j + P.shape[1]] += c * P
+    return out

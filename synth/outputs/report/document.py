@@ -1,0 +1,1085 @@
+"""The design report: one self-contained HTML page and a PDF of the same content.
+
+:func:`write_report` builds the report once as a list of sections made of
+simple blocks (headings, paragraphs, lists, tables, preformatted lines and
+figures), then renders that list twice:
+
+* ``report.html``: one file, figures as inline SVG, styles inline, no
+  scripts and no external resources, with print rules so it prints cleanly;
+* ``report.pdf``: A4 pages laid out by matplotlib (``PdfPages``), text and
+  figures flowing in the same order.
+
+Both files are written to temporary names first and moved into place only
+when both succeeded, so a failure leaves no partial report.
+
+The safety cautions come first in both.
+"""
+
+from __future__ import annotations
+
+import html
+import math
+import os
+import re
+import tempfile
+import textwrap
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from synth.errors import InputError, OptionError
+
+__all__ = ["CAUTIONS", "SECTION_TITLES", "FIGURE_KINDS", "build_sections", "write_report"]
+
+#: The cautions printed at the top of every report.
+CAUTIONS = (
+    "Every design here comes from a linear model of the plant. The real machine is not that "
+    "model.",
+    "Before any design goes near hardware, verify it against a model with actuator saturation, "
+    "measurement and computation delay, and the plant's nonlinearities.",
+    "Commission with reduced gains first, with hardware limits (current, travel, speed, "
+    "temperature) and an independent way to stop the machine in place.",
+    "Follow local codes, the functional-safety standards that apply to the machine, and licensed "
+    "engineering practice; this report does not replace them.",
+)
+
+#: Fixed section titles (design sections are titled "Design N: structure").
+SECTION_TITLES = {
+    "cautions": "Read this first",
+    "plant": "Plant",
+    "requirements": "Requirements",
+    "proportional": "What proportional gain alone can do",
+    "ranking": "Ranking",
+    "notes": "How the numbers were found",
+}
+
+#: The figures drawn for each top design, in order.
+FIGURE_KINDS = ("locus", "step", "bode", "sensitivity")
+
+#: Designs given a full section.
+_TOP = 3
+
+
+# ---------------------------------------------------------------------------
+# the document model
+# ---------------------------------------------------------------------------
+
+@dataclass(frozen=True)
+class Heading:
+    text: str
+
+
+@dataclass(frozen=True)
+class Para:
+    text: str
+    style: str = "body"  # body | muted | good | bad
+
+
+@dataclass(frozen=True)
+class Bullets:
+    items: tuple[str, ...]
+    style: str = "body"
+
+
+@dataclass(frozen=True)
+class Table:
+    header: tuple[str, ...]
+    rows: tuple[tuple[str, ...], ...]
+    numeric: tuple[bool, ...] = ()
+
+
+@dataclass(frozen=True)
+class Pre:
+    lines: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class Figure:
+    """A drawing, made one of two ways.
+
+    ``draw(target)`` draws into a matplotlib Figure or SubFigure (vector in
+    both outputs); ``to_file(path)`` writes a ``.svg`` or ``.png`` picture
+    itself (used for pictures made by other modules, such as the root locus).
+    """
+
+    kind: str
+    height_in: float
+    caption: str
+    alt: str
+    draw: Callable | None = None
+    to_file: Callable | None = None
+
+
+@dataclass(frozen=True)
+class Section:
+    ident: str
+    title: str
+    blocks: tuple = field(default_factory=tuple)
+    css: str = ""
+    new_page: bool = False
+
+
+# ---------------------------------------------------------------------------
+# numbers as text
+# ---------------------------------------------------------------------------
+
+def _g(v, digits: int = 4, none: str = "-") -> str:
+    if v is None:
+        return none
+    if isinstance(v, bool):
+        return "yes" if v else "no"
+    try:
+        x = float(v)
+    except (TypeError, ValueError):
+        return str(v)
+    if not math.isfinite(x):
+        return "unbounded" if x > 0 else "-unbounded"
+    return f"{x:.{digits}g}"
+
+
+def _interval(iv) -> str:
+    lo, hi = iv
+    return f"({'-inf' if lo is None else _g(lo)}, {'+inf' if hi is None else _g(hi)})"
+
+
+def _intervals(ivs) -> str:
+    ivs = list(ivs or [])
+    return ", ".join(_interval(iv) for iv in ivs) if ivs else "none"
+
+
+def _cplx(p) -> str:
+    re, im = (float(p[0]), float(p[1])) if isinstance(p, (list, tuple)) else (p.real, p.imag)
+    if abs(im) <= 1e-12 * max(1.0, abs(re)):
+        return _g(re)
+    return f"{_g(re)} {'+' if im >= 0 else '-'} {_g(abs(im))}j"
+
+
+def _cplx_list(ps, limit: int = 12) -> str:
+    if ps is None:
+        ps = []
+    ps = [[float(np.real(p)), float(np.imag(p))] if np.iscomplexobj(p) or np.isscalar(p) else p
+          for p in ps]
+    # one of each conjugate pair keeps the list short
+    shown = [p for p in ps if not (isinstance(p, (list, tuple)) and float(p[1]) < 0)]
+    text = ", ".join(_cplx(p) for p in shown[:limit])
+    if len(shown) > limit:
+        text += f", ... ({len(shown) - limit} more)"
+    pairs = len(ps) - len(shown)
+    if pairs:
+        text += "  (each complex value stands with its conjugate)"
+    return text or "none"
+
+
+# ---------------------------------------------------------------------------
+# content
+# ---------------------------------------------------------------------------
+
+_REQ_TEXT = {
+    "max_overshoot_percent": ("overshoot", "at most {} % on a unit step"),
+    "max_settling_time": ("settling time", "at most {} s"),
+    "settling_band_percent": ("settling band", "{} % around the final value"),
+    "min_damping_ratio": ("damping", "every closed-loop pole damped at least {}"),
+    "max_rise_time": ("rise time", "at most {} s (10 % to 90 %)"),
+    "max_steady_state_error": ("steady-state error", "at most {} of the step"),
+    "plant_gain_range": ("plant gain tolerance", "stable for plant gain factors {}"),
+    "gain_range": ("compensator gain", "K within {}"),
+    "min_phase_margin_deg": ("phase margin", "at least {} deg"),
+    "min_gain_margin_db": ("gain margin", "at least {} dB"),
+    "max_peak_sensitivity": ("peak sensitivity", "at most {}"),
+    "max_control_effort": ("control effort", "peak |u| at most {} for a unit step"),
+}
+
+_METRICS = (
+    ("overshoot_percent", "overshoot (%)", "max_overshoot_percent"),
+    ("settling_time", "settling time (s)", "max_settling_time"),
+    ("rise_time", "rise time (s)", "max_rise_time"),
+    ("steady_state_error", "steady-state error", "max_steady_state_error"),
+    ("min_damping_ratio", "least damping ratio", "min_damping_ratio"),
+    ("phase_margin_deg", "phase margin (deg)", "min_phase_margin_deg"),
+    ("gain_margin_db", "gain margin (dB)", "min_gain_margin_db"),
+    ("peak_sensitivity", "peak sensitivity", "max_peak_sensitivity"),
+    ("peak_control_effort", "peak control effort", "max_control_effort"),
+    ("stable_plant_gain_range", "stable plant-gain factors", "plant_gain_range"),
+)
+
+
+def _req_value_text(key: str, value) -> str:
+    if isinstance(value, (list, tuple)):
+        return f"[{_g(value[0])}, {_g(value[1])}]"
+    return _g(value)
+
+
+def _metric_text(key: str, value) -> str:
+    if key == "stable_plant_gain_range":
+        if not value:
+            return "-"
+        lo, hi = value
+        return f"[{_g(lo, none='0')}, {_g(hi, none='unbounded')}]"
+    if key == "gain_margin_db" and value is None:
+        return "unbounded"
+    return _g(value)
+
+
+def _plant_section(problem, doc) -> Section:
+    plant = problem.plant
+    blocks = []
+    if plant.label:
+        blocks.append(Para(f"{plant.label}"))
+    blocks.append(Pre((f"G(s) = {plant.describe()}",)))
+    rows = [("order (engine form)", str(plant.order)),
+            ("relative degree", str(plant.relative_degree)),
+            ("poles", _cplx_list(np.roots(plant.rational_den) if len(plant.denominator) > 1
+                                 else [])),
+            ("zeros", _cplx_list(np.roots(plant.rational_num) if len(plant.numerator) > 1
+                                 else []))]
+    dc = plant.dc_gain()
+    rows.append(("static gain G(0)", _g(dc) if math.isfinite(dc) else "unbounded (integrator)"))
+    if plant.dead_time:
+        rows.append(("dead time", f"{plant.dead_time:g} s"))
+    blocks.append(Table(("property", "value"), tuple(rows)))
+    if plant.dead_time:
+        blocks.append(Para(
+            f"The design engine replaces the dead time by a Pade form of order {plant.pade_order}; "
+            "its right-half-plane zeros appear in the root loci. Time responses and frequency "
+            "responses in this report use the exact delay.", "muted"))
+    common = plant.common_factors()
+    if common:
+        blocks.append(Para("The plant's numerator and denominator share the factor(s) at "
+                           + ", ".join(_cplx([c.real, c.imag]) for c in common)
+                           + "; synth never cancels them.", "bad"))
+    return Section("plant", SECTION_TITLES["plant"], tuple(blocks))
+
+
+def _requirements_section(problem) -> Section:
+    req = problem.requirements
+    given = req.given()
+    blocks = []
+    if not given:
+        blocks.append(Para("The file sets no requirement beyond closed-loop stability."))
+    else:
+        rows = []
+        for key, value in given.items():
+            name, template = _REQ_TEXT.get(key, (key, "{}"))
+            rows.append((name, template.format(_req_value_text(key, value)), key))
+        blocks.append(Table(("requirement", "asked for", "file key"), tuple(rows)))
+    region = problem.region
+    blocks.append(Para(
+        "Pole region used for placement: " + region.describe()
+        + (" (from the overshoot, damping and settling-time limits; exact only for a dominant "
+           "pole pair, so the verdicts come from simulation)." if not region.is_stability_only
+           else ".")))
+    return Section("requirements", SECTION_TITLES["requirements"], tuple(blocks))
+
+
+def _explain_data(problem, doc) -> dict:
+    """The proportional verdict and its reasons.
+
+    From :func:`synth.explain.explain_problem` (which gives the reasons); while
+    that module is absent, from the document's ``proportional`` object, else
+    from the engine's exact gain intervals.
+    """
+    if isinstance(doc.get("explain"), dict):
+        return doc["explain"]
+    try:
+        from synth.explain import explain_problem
+    except ImportError:
+        explain_problem = None
+    if explain_problem is not None:
+        return explain_problem(problem).to_json()
+    if isinstance(doc.get("proportional"), dict):
+        return {"proportional": doc["proportional"], "reasons": doc.get("reasons") or []}
+    from synth.locus.core import region_gain_intervals, stable_gain_intervals
+
+    num, den = problem.plant.num, problem.plant.den
+    region = problem.region
+    return {"proportional": {
+        "stabilizing_gain_intervals": [list(iv) for iv in stable_gain_intervals(num, den)],
+        "requirement_gain_intervals": [list(iv) for iv in region_gain_intervals(num, den, region)],
+    }, "reasons": []}
+
+
+def _proportional_section(problem, doc) -> Section:
+    ex = _explain_data(problem, doc)
+    prop = ex.get("proportional") or {}
+    stab = prop.get("stabilizing_gain_intervals") or []
+    reqiv = prop.get("requirement_gain_intervals") or []
+    blocks = []
+    if not stab:
+        verdict = Para("Verdict: no proportional gain, positive or negative, stabilises this "
+                       "plant; a dynamic compensator is needed.", "bad")
+    elif problem.region.is_stability_only:
+        verdict = Para(f"Verdict: proportional gain stabilises the loop for K in {_intervals(stab)}.",
+                       "good")
+    elif reqiv:
+        verdict = Para("Verdict: proportional gain alone places every closed-loop pole in the "
+                       f"requirement region for K in {_intervals(reqiv)} (stable for K in "
+                       f"{_intervals(stab)}).", "good")
+    else:
+        verdict = Para("Verdict: proportional gain can stabilise the loop (K in "
+                       f"{_intervals(stab)}) but no gain puts every closed-loop pole in the "
+                       "requirement region.", "bad")
+    blocks.append(verdict)
+    rows = [("stabilising gains", _intervals(stab))]
+    if not problem.region.is_stability_only:
+        rows.append(("gains meeting the pole region", _intervals(reqiv)))
+    if "strongly_stabilizable" in ex:
+        rows.append(("stable compensator can stabilise", _g(ex.get("strongly_stabilizable"))))
+    blocks.append(Table(("fact", "value"), tuple(rows)))
+    reasons = [str(r.get("text", r)) if isinstance(r, dict) else str(r)
+               for r in ex.get("reasons") or []]
+    if reasons:
+        blocks.append(Para("Why:"))
+        blocks.append(Bullets(tuple(reasons)))
+    blocks.append(Para("Gain intervals are open and cover all real gains; a negative gain is "
+                       "reverse acting.", "muted"))
+    return Section("proportional", SECTION_TITLES["proportional"], tuple(blocks))
+
+
+def _ranking_section(doc) -> Section:
+    designs = sorted(doc.get("designs") or [], key=lambda d: d.get("rank", 0))
+    if not designs:
+        return Section("ranking", SECTION_TITLES["ranking"],
+                       (Para("The search found no candidate design.", "bad"),))
+    header = ("rank", "structure", "origin", "meets all", "OS %", "Ts s", "Tr s", "ess",
+              "zeta", "PM deg", "GM dB", "Ms", "|u| max")
+    keys = ("overshoot_percent", "settling_time", "rise_time", "steady_state_error",
+            "min_damping_ratio", "phase_margin_deg", "gain_margin_db", "peak_sensitivity",
+            "peak_control_effort")
+    rows = []
+    for d in designs:
+        m = d.get("metrics") or {}
+        rows.append((str(d.get("rank")), str(d.get("structure")), str(d.get("origin", "")),
+                     "yes" if d.get("feasible") else "no",
+                     *(_metric_text(k, m.get(k)) for k in keys)))
+    blocks = [Table(header, tuple(rows), numeric=(True, False, False, False) + (True,) * 9)]
+    blocks.append(Para("OS overshoot, Ts settling time, Tr rise time, ess steady-state error, zeta "
+                       "least closed-loop damping ratio, PM and GM phase and gain margins, Ms peak "
+                       "sensitivity, |u| max peak control effort for a unit step.", "muted"))
+    unmet = [(d, v) for d in designs for v in (d.get("violations") or [])]
+    if unmet:
+        blocks.append(Para("Requirements not met:"))
+        blocks.append(Bullets(tuple(f"design {d.get('rank')} ({d.get('structure')}): {v}"
+                                    for d, v in unmet), "bad"))
+    n_ok = sum(1 for d in designs if d.get("feasible"))
+    blocks.insert(0, Para(f"{len(designs)} designs kept, {n_ok} meeting every requirement. "
+                          "Feasible designs come first.", "good" if n_ok else "bad"))
+    return Section("ranking", SECTION_TITLES["ranking"], tuple(blocks))
+
+
+def _locus_figure(problem, doc, design) -> Figure:
+    """The design's root locus, drawn by :func:`synth.report.locus_plot.plot_locus`."""
+    from synth.locus import trace_design_loop
+
+    _cache: dict = {}  # the trace serves the SVG and the PDF; compute it once
+
+    def to_file(path):
+        from synth.outputs.report.locus_plot import plot_locus
+
+        if "trace" not in _cache:
+            try:
+                _cache["trace"], _cache["gain"] = trace_design_loop(
+                    problem, doc, int(design.get("rank", 1)))
+            except InputError as err:  # e.g. a zero gain: the loop has no locus to draw
+                _cache["trace"], _cache["why"] = None, err.message
+        if _cache["trace"] is None:
+            _placeholder(path, f"no root locus: {_cache['why']}")
+            return
+        plot_locus(_cache["trace"], path, region=problem.region,
+                   operating_gain=_cache["gain"], title="root locus of the design's loop, "
+                   f"operating at K = {_cache['gain']:.4g}")
+
+    return Figure("locus", 4.4,
+                  "Root locus of the loop as the compensator gain K varies: open-loop poles x, "
+                  "zeros o, the requirement region shaded, and the closed-loop poles at the "
+                  "design's gain marked.", "root locus", to_file=to_file)
+
+
+def _placeholder(path, message: str) -> None:
+    """A small picture that says why a figure could not be drawn."""
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from matplotlib.figure import Figure as MplFigure
+
+    fig = MplFigure(figsize=(8.0, 2.0))
+    FigureCanvasAgg(fig)
+    fig.text(0.5, 0.5, "\n".join(textwrap.wrap(message, 90)), ha="center", va="center",
+             fontsize=10, color=_COLORS["muted"])
+    fig.savefig(path, format=Path(path).suffix[1:])
+
+
+def _design_section(problem, doc, design, curves) -> Section:
+    from synth.outputs.report.design_figures import draw_bode, draw_sensitivity, draw_step
+
+    rank = design.get("rank")
+    structure = design.get("structure")
+    req = problem.requirements
+    comp = design.get("compensator") or {}
+    im = design.get("implementation") or {}
+    blocks = []
+    if design.get("feasible"):
+        blocks.append(Para("Meets every requirement (by the checks listed below).", "good"))
+    else:
+        blocks.append(Para("Does NOT meet every requirement:", "bad"))
+        blocks.append(Bullets(tuple(design.get("violations") or ["(no reason recorded)"]), "bad"))
+    blocks.append(Pre((f"C(s) = {im.get('factored', '')}",)))
+    described = str(design.get("description") or "")
+    blocks.append(Table(("property", "value"), (
+        *((("structure", described),) if described else ()),
+        ("found by", str(design.get("origin", "-"))),
+        ("gain K", _g(comp.get("gain"), 6)),
+        ("compensator zeros", _cplx_list(comp.get("zeros"))),
+        ("compensator poles", _cplx_list(comp.get("poles"))),
+        ("closed-loop poles", _cplx_list(design.get("closed_loop_poles"))),
+    )))
+    given = req.given()
+    m = design.get("metrics") or {}
+    rows = []
+    for key, label, rkey in _METRICS:
+        need = _req_value_text(rkey, given[rkey]) if rkey in given else ""
+        rows.append((label, _metric_text(key, m.get(key)), need))
+    blocks.append(Heading("Checked performance"))
+    blocks.append(Table(("metric", "value", "required"), tuple(rows), numeric=(False, True, True)))
+
+    blocks.append(Heading("Root locus"))
+    blocks.append(_locus_figure(problem, doc, design))
+    blocks.append(Heading("Step response and control effort"))
+    blocks.append(Figure("step", 3.4, "Output and control effort for a unit-step reference, with the overshoot "
+                         "limit, the settling band after the settling-time limit and the effort "
+                         "limit where the requirements set them.", "step response and effort",
+                         draw=lambda t: draw_step(t, curves, req, "unit-step reference")))
+    blocks.append(Heading("Loop frequency response"))
+    f = curves.facts
+    blocks.append(Figure("bode", 3.4, "Bode plot of the loop L(jw) = C(jw) G(jw): the phase margin is marked "
+                         "at the gain crossover, the gain margin at the phase crossover.",
+                         "Bode magnitude and phase",
+                         draw=lambda t: draw_bode(t, curves, design, "loop L = C G")))
+    blocks.append(Para(
+        f"From these curves: gain crossover {_g(f.crossover)} rad/s, phase margin "
+        f"{_g(f.phase_margin_deg)} deg, gain margin "
+        f"{'unbounded' if f.gain_margin_db is None else _g(f.gain_margin_db) + ' dB'}, "
+        f"closed-loop bandwidth {_g(f.bandwidth)} rad/s.", "muted"))
+    blocks.append(Heading("Sensitivity"))
+    blocks.append(Figure("sensitivity", 2.4, "Sensitivity magnitude |1/(1 + L(jw))|; its peak is the inverse of "
+                         "the shortest distance from the Nyquist curve to -1.",
+                         "sensitivity magnitude",
+                         draw=lambda t: draw_sensitivity(t, curves, req, "S = 1/(1+L)")))
+    for n in (*curves.notes, *(design.get("notes") or [])):
+        blocks.append(Para(f"Note: {str(n).rstrip('.')}.", "muted"))
+    blocks.extend(_implementation_blocks(im))
+    return Section(f"design-{rank}", f"Design {rank}: {structure}", tuple(blocks), "design",
+                   new_page=True)
+
+
+def _implementation_blocks(im: dict) -> list:
+    blocks = [Heading("Implementation forms")]
+    if not im:
+        return blocks + [Para("No implementation forms in this document.", "muted")]
+    poly = im.get("polynomial") or {}
+    rows = [("factored", f"C(s) = {im.get('factored', '')}"),
+            ("polynomial", f"C(s) = {poly.get('text', '')}")]
+    par, std = im.get("parallel"), im.get("standard")
+    if par:
+        rows.append(("parallel PID", f"Kp = {_g(par.get('kp'), 6)}, Ki = {_g(par.get('ki'), 6)} 1/s, "
+                                     f"Kd = {_g(par.get('kd'), 6)} s, Tf = {_g(par.get('tf'), 6)} s"))
+    if std:
+        rows.append(("standard PID", f"Kc = {_g(std.get('kc'), 6)}, "
+                                     f"Ti = {_g(std.get('ti'), 6, 'none (no integral)')} s, "
+                                     f"Td = {_g(std.get('td'), 6)} s, "
+                                     f"N = {_g(std.get('n'), 6, 'none (no filter)')}"))
+    blocks.append(Table(("form", "compensator"), tuple(rows)))
+    if par:
+        blocks.append(Para("Parallel: C = Kp + Ki/s + Kd s/(Tf s + 1). Standard: "
+                           "C = Kc (1 + 1/(Ti s) + Td s/((Td/N) s + 1)), so Kp = Kc, Ki = Kc/Ti, "
+                           "Kd = Kc Td, Tf = Td/N.", "muted"))
+        if par.get("conventional") is False:
+            blocks.append(Para("The gains do not share one sign: valid arithmetic, but not a "
+                               "conventional PID tuning.", "muted"))
+    dz = im.get("discrete")
+    if dz is None:
+        blocks.append(Para("For a sampled controller, run synth design with --sample-time T.",
+                           "muted"))
+        return blocks
+    blocks.append(Heading("Discrete time"))
+    warp = dz.get("warp_frequency")
+    method = ("Tustin's method pre-warped at the gain crossover "
+              f"{_g(warp)} rad/s" if warp else "Tustin's method without pre-warping")
+    rows = [("sample time", f"{_g(dz.get('sample_time'), 6)} s"), ("method", method),
+            ("closed-loop bandwidth", f"{_g(dz.get('closed_loop_bandwidth'))} rad/s")]
+    if dz.get("numerator") is not None:
+        from synth.outputs.forms import polynomial_text
+
+        rows.append(("C(z)", f"({polynomial_text(dz['numerator'], 'z')}) / "
+                             f"({polynomial_text(dz['denominator'], 'z')})"))
+    sl = dz.get("sampled_loop")
+    if sl:
+        verdict = "stable" if sl.get("stable") else "UNSTABLE"
+        rows.append(("sampled loop (plant by zero-order hold)",
+                     f"{verdict}; largest closed-loop root |z| = {_g(sl.get('spectral_radius'))}; "
+                     f"overshoot at the samples {_g(sl.get('overshoot_percent'), 4, 'n/a')} %"))
+    blocks.append(Table(("item", "value"), tuple(rows)))
+    de = dz.get("difference_equation")
+    if de:
+        blocks.append(Para("Difference equation (e = reference - measurement, u = controller "
+                           "output):"))
+        blocks.append(Pre(tuple(textwrap.wrap(de.get("text", ""), 88,
+                                              subsequent_indent="       "))))
+        blocks.append(Table(("coefficient", "values"), (
+            ("b (e[k], e[k-1], ...)", ", ".join(_g(v, 10) for v in de.get("b") or [])),
+            ("a (u[k], u[k-1], ...)", ", ".join(_g(v, 10) for v in de.get("a") or [])),
+        )))
+    warns = dz.get("warnings") or []
+    if warns:
+        blocks.append(Bullets(tuple(warns), "bad"))
+    return blocks
+
+
+def _notes_section(doc) -> Section:
+    items = (
+        "Loop convention: unity negative feedback around L = C G; the closed-loop characteristic "
+        "polynomial is formed without cancelling common factors.",
+        "Time-domain figures: unit-step reference; overshoot against the final value; settling "
+        "time is the last time outside the band.",
+        "Margins: read from L(jw) at the gain crossover (phase margin) and the phase crossover "
+        "(gain margin). Sensitivity peak: the largest |1/(1+L(jw))|.",
+        "Discrete forms: Tustin's method with pre-warping at the gain crossover (Franklin, Powell "
+        "and Workman, Digital Control of Dynamic Systems); the sampled loop uses the plant "
+        "discretised by a zero-order hold. Common practice asks for a sampling frequency of 10 "
+        "to 20 times the closed-loop bandwidth.",
+        "PID forms: parallel and standard forms as in Astrom and Hagglund, PID Controllers: "
+        "Theory, Design and Tuning.",
+    )
+    return Section("notes", SECTION_TITLES["notes"], (Bullets(items),))
+
+
+def build_sections(problem, doc: dict, top: int = _TOP) -> list[Section]:
+    """The report's content as a list of sections (shared by the HTML and the PDF).
+
+    Parameters
+    ----------
+    problem : synth.requirements.Problem
+    doc : dict
+        A synth.design/1 document; implementation forms are added when missing.
+    top : int
+        How many designs get a full section.
+
+    Returns
+    -------
+    list of Section
+    """
+    from synth.outputs.report.design_figures import design_curves
+
+    designs = sorted(doc.get("designs") or [], key=lambda d: d.get("rank", 0))
+    if designs and any("implementation" not in d for d in designs):
+        from synth.outputs.implementation import add_implementation_forms
+
+        doc = add_implementation_forms(doc)
+        designs = sorted(doc.get("designs") or [], key=lambda d: d.get("rank", 0))
+    sections = [
+        Section("cautions", SECTION_TITLES["cautions"], (Bullets(CAUTIONS),), "caution"),
+        _plant_section(problem, doc),
+        _requirements_section(problem),
+        _proportional_section(problem, doc),
+        _ranking_section(doc),
+    ]
+    for d in designs[:top]:
+        curves = design_curves(doc, d, problem)
+        sections.append(_design_section(problem, doc, d, curves))
+    sections.append(_notes_section(doc))
+    return sections
+
+
+# ---------------------------------------------------------------------------
+# HTML
+# ---------------------------------------------------------------------------
+
+_CSS = """
+:root { --ink:#22303c; --muted:#6b7885; --rule:#d5dce2; --accent:#1b6f8a; --bad:#9b2f45;
+        --good:#24744a; --paper:#fbfaf7; --caution:#fff4e0; --cautionrule:#d08a1e; }
+* { box-sizing: border-box; }
+body { margin:0; background:var(--paper); color:var(--ink);
+       font: 15px/1.5 "Source Sans 3", "Segoe UI", "DejaVu Sans", Helvetica, Arial, sans-serif; }
+main { max-width: 60rem; margin: 0 auto; padding: 1.5rem 1.5rem 4rem; }
+header.top { border-bottom: 3px solid var(--accent); margin-bottom: 1rem; }
+header.top h1 { font-size: 1.7rem; margin: 0 0 .2rem; letter-spacing: .01em; }
+header.top p { margin: .1rem 0 .6rem; color: var(--muted); }
+h2 { font-size: 1.3rem; margin: 2rem 0 .6rem; padding-bottom: .2rem;
+     border-bottom: 1px solid var(--rule); }
+h3 { font-size: 1.05rem; margin: 1.4rem 0 .4rem; color: var(--accent); }
+section.caution { background: var(--caution); border-left: 6px solid var(--cautionrule);
+                  padding: .3rem 1.2rem .6rem; margin: 1rem 0 1.5rem; }
+section.caution h2 { border: none; margin-top: .6rem; }
+section.caution li { margin: .25rem 0; font-weight: 600; }
+p.muted { color: var(--muted); font-size: .9rem; }
+p.good { color: var(--good); font-weight: 600; }
+p.bad, ul.bad { color: var(--bad); }
+p.bad { font-weight: 600; }
+table { border-collapse: collapse; margin: .5rem 0 .8rem; font-size: .9rem; }
+th, td { border-bottom: 1px solid var(--rule); padding: .25rem .6rem; text-align: left;
+         vertical-align: top; }
+th { background: #eef2f4; font-weight: 600; }
+td.num { text-align: right; font-variant-numeric: tabular-nums; }
+div.wide { overflow-x: auto; }
+pre { background: #f0f3f5; border: 1px solid var(--rule); padding: .5rem .8rem;
+      font: 13.5px/1.45 "DejaVu Sans Mono", Menlo, Consolas, monospace; white-space: pre-wrap; }
+figure.plot { margin: .6rem 0 1rem; }
+figure.plot svg { width: 100%; height: auto; display: block; background: #fff;
+                  border: 1px solid var(--rule); }
+figcaption { font-size: .85rem; color: var(--muted); margin-top: .3rem; }
+nav.toc { font-size: .9rem; margin: .5rem 0 1rem; }
+nav.toc a { color: var(--accent); text-decoration: none; margin-right: .9rem; }
+@media print {
+  @page { size: A4; margin: 16mm 14mm; }
+  body { background: #fff; font-size: 10.5pt; }
+  main { max-width: none; padding: 0; }
+  nav.toc { display: none; }
+  section.design { break-before: page; }
+  figure.plot, table, pre, section.caution { break-inside: avoid; }
+  h2, h3 { break-after: avoid; }
+  section.caution { -webkit-print-color-adjust: exact; print-color-adjust: exact; }
+  div.wide { overflow: visible; }
+}
+"""
+
+
+def _html_table(t: Table) -> str:
+    num = t.numeric or (False,) * len(t.header)
+    head = "".join(f"<th>{html.escape(h)}</th>" for h in t.header)
+    body = []
+    for row in t.rows:
+        cells = "".join(
+            f"<td class=\"num\">{html.escape(c)}</td>" if (i < len(num) and num[i])
+            else f"<td>{html.escape(c)}</td>" for i, c in enumerate(row))
+        body.append(f"<tr>{cells}</tr>")
+    return (f"<div class=\"wide\"><table><thead><tr>{head}</tr></thead><tbody>"
+            + "".join(body) + "</tbody></table></div>")
+
+
+_ID_REF = re.compile(r'(\bid="|url\(#|href="#)([^")]+)')
+
+
+def _prefix_ids(svg: str, prefix: str) -> str:
+    """Prefix every element id of one SVG, and the references to them.
+
+    matplotlib names groups ``axes_1``, ``line2d_3``, ... in every picture; in
+    one HTML page ids must be unique.
+    """
+    return _ID_REF.sub(lambda m: f"{m.group(1)}{prefix}-{m.group(2)}", svg)
+
+
+def _svg_text(fig_block: Figure, salt: str) -> str:
+    """Draw a figure block into a standalone SVG string, ready to inline."""
+    import io
+
+    import matplotlib
+
+    # text stays text (small, selectable); the salt keeps element ids unique per figure
+    with matplotlib.rc_context({"svg.fonttype": "none", "svg.hashsalt": salt,
+                                "font.family": "DejaVu Sans"}):
+        if fig_block.to_file is not None:
+            with tempfile.TemporaryDirectory(prefix="synth-fig-") as tmp:
+                path = Path(tmp) / "figure.svg"
+                fig_block.to_file(path)
+                text = path.read_text(encoding="utf-8")
+        else:
+            from matplotlib.backends.backend_agg import FigureCanvasAgg
+            from matplotlib.figure import Figure as MplFigure
+
+            fig = MplFigure(figsize=(7.4, fig_block.height_in))
+            FigureCanvasAgg(fig)
+            fig_block.draw(fig)
+            buf = io.StringIO()
+            fig.savefig(buf, format="svg", metadata={"Date": None})
+            text = buf.getvalue()
+    svg = _prefix_ids(text[text.find("<svg"):], salt)
+    label = html.escape(fig_block.alt, quote=True)
+    return svg.replace("<svg", f"<svg role=\"img\" aria-label=\"{label}\"", 1)
+
+
+def render_html(sections: list[Section], title: str, subtitle: str) -> str:
+    """The HTML page for a list of sections."""
+    out = ["<!DOCTYPE html>", "<html lang=\"en\">", "<head>", "<meta charset=\"utf-8\">",
+           "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">",
+           f"<title>{html.escape(title)}</title>", f"<style>{_CSS}</style>", "</head>", "<body>",
+           "<main>", "<header class=\"top\">", f"<h1>{html.escape(title)}</h1>",
+           f"<p>{html.escape(subtitle)}</p>", "</header>"]
+    toc = " ".join(f"<a href=\"#{s.ident}\">{html.escape(s.title)}</a>" for s in sections
+                   if s.ident != "cautions")
+    nfig = 0
+    for sec in sections:
+        cls = f" class=\"{sec.css}\"" if sec.css else ""
+        out.append(f"<section id=\"{sec.ident}\"{cls}>")
+        out.append(f"<h2>{html.escape(sec.title)}</h2>")
+        for b in sec.blocks:
+            if isinstance(b, Heading):
+                out.append(f"<h3>{html.escape(b.text)}</h3>")
+            elif isinstance(b, Para):
+                cls = "" if b.style == "body" else f" class=\"{b.style}\""
+                out.append(f"<p{cls}>{html.escape(b.text)}</p>")
+            elif isinstance(b, Bullets):
+                cls = "" if b.style == "body" else f" class=\"{b.style}\""
+                items = "".join(f"<li>{html.escape(i)}</li>" for i in b.items)
+                out.append(f"<ul{cls}>{items}</ul>")
+            elif isinstance(b, Table):
+                out.append(_html_table(b))
+            elif isinstance(b, Pre):
+                out.append("<pre>" + html.escape("\n".join(b.lines)) + "</pre>")
+            elif isinstance(b, Figure):
+                nfig += 1
+                out.append(f"<figure class=\"plot\" data-figure=\"{b.kind}\">"
+                           + _svg_text(b, f"synth-fig-{nfig}")
+                           + f"<figcaption>{html.escape(b.caption)}</figcaption></figure>")
+        out.append("</section>")
+        if sec.ident == "cautions":
+            out.append(f"<nav class=\"toc\">{toc}</nav>")
+    out += ["</main>", "</body>", "</html>", ""]
+    return "\n".join(out)
+
+
+# ---------------------------------------------------------------------------
+# PDF
+# ---------------------------------------------------------------------------
+
+_PAGE_W, _PAGE_H = 8.27, 11.69      # A4, inches
+_MARGIN = 0.7                        # inches
+_BODY_PT = 9.5
+_CHAR_EM = 0.56                      # average DejaVu Sans character width, in em
+_MONO_EM = 0.602                     # DejaVu Sans Mono advance width, in em
+_COLORS = {"body": "#22303c", "muted": "#6b7885", "good": "#24744a", "bad": "#9b2f45",
+           "accent": "#1b6f8a"}
+
+
+class _PdfWriter:
+    """Flows blocks down A4 pages drawn by matplotlib (one instance per report)."""
+
+    def __init__(self, pdf, title: str, subtitle: str):
+        self.pdf = pdf
+        self.title = title
+        self.subtitle = subtitle
+        self.page = None
+        self.y = 0.0  # inches from the top
+        self.pages = 0
+
+    # -- pages --------------------------------------------------------------
+    def new_page(self) -> None:
+        from matplotlib.backends.backend_agg import FigureCanvasAgg
+        from matplotlib.figure import Figure as MplFigure
+
+        self.finish_page()
+        self.page = MplFigure(figsize=(_PAGE_W, _PAGE_H))
+        FigureCanvasAgg(self.page)
+        self.pages += 1
+        self.y = _MARGIN
+        self.page.text(_MARGIN / _PAGE_W, 0.35 / _PAGE_H, f"{self.title}", fontsize=7,
+                       color=_COLORS["muted"], va="bottom")
+        self.page.text(1 - _MARGIN / _PAGE_W, 0.35 / _PAGE_H, f"page {self.pages}", fontsize=7,
+                       color=_COLORS["muted"], va="bottom", ha="right")
+
+    def finish_page(self) -> None:
+        if self.page is not None:
+            self.pdf.savefig(self.page)
+            self.page = None
+
+    def room(self, need_in: float) -> None:
+        if self.page is None or self.y + need_in > _PAGE_H - _MARGIN:
+            self.new_page()
+
+    # -- primitives ---------------------------------------------------------
+    @property
+    def width_in(self) -> float:
+        return _PAGE_W - 2 * _MARGIN
+
+    def _fx(self, x_in: float) -> float:
+        return x_in / _PAGE_W
+
+    def _fy(self, y_in: float) -> float:
+        return 1.0 - y_in / _PAGE_H
+
+    def text_lines(self, lines, size: float, color: str, weight: str = "normal",
+                   family: str = "DejaVu Sans", indent: float = 0.0, lead: float = 1.32) -> None:
+        step = size * lead / 72.0
+        for line in lines:
+            self.room(step)
+            self.page.text(self._fx(_MARGIN + indent), self._fy(self.y), line, fontsize=size,
+                           color=color, weight=weight, family=family, va="top")
+            self.y += step
+
+    def wrap(self, text: str, size: float, indent: float = 0.0, mono: bool = False) -> list[str]:
+        em = _MONO_EM if mono else _CHAR_EM
+        chars = max(20, int((self.width_in - indent) * 72.0 / (size * em)))
+        return textwrap.wrap(text, chars) or [""]
+
+    # -- blocks -------------------------------------------------------------
+    def title_block(self) -> None:
+        self.new_page()
+        self.text_lines(self.wrap(self.title, 17), 17, _COLORS["accent"], "bold")
+        self.text_lines(self.wrap(self.subtitle, 9), 9, _COLORS["muted"])
+        self.y += 0.1
+
+    def section(self, sec: Section) -> None:
+        if sec.new_page:
+            self.new_page()
+        self.room(0.9)
+        self.y += 0.12
+        self.text_lines([sec.title], 13.5, _COLORS["body"], "bold")
+        x0, x1 = self._fx(_MARGIN), self._fx(_PAGE_W - _MARGIN)
+        self.page.add_artist(_line(x0, x1, self._fy(self.y + 0.02), "#d5dce2", 0.8))
+        self.y += 0.1
+        if sec.css == "caution":
+            self.caution_box(sec)
+            return
+        for i, b in enumerate(sec.blocks):
+            if isinstance(b, Heading) and i + 1 < len(sec.blocks):
+                # keep a heading with the start of what it introduces
+                self.room(0.6 + self.lead_height(sec.blocks[i + 1]))
+            self.block(b)
+
+    def lead_height(self, b) -> float:
+        """Height (inches) of the part of a block that must follow its heading."""
+        if isinstance(b, Figure):
+            return b.height_in + 0.3
+        if isinstance(b, Table):
+            return 8.5 * 1.4 / 72.0 * min(len(b.rows) + 1, 4)
+        return 3 * _BODY_PT * 1.32 / 72.0
+
+    def caution_box(self, sec: Section) -> None:
+        from matplotlib.patches import Rectangle
+
+        lines = []
+        for item in sec.blocks[0].items:
+            wrapped = self.wrap(item, 10, indent=0.45)
+            lines.append((True, wrapped[0]))
+            lines.extend((False, w) for w in wrapped[1:])
+        step = 10 * 1.35 / 72.0
+        height = step * len(lines) + 0.25
+        self.room(height)
+        top = self.y
+        self.page.add_artist(Rectangle((self._fx(_MARGIN), self._fy(top + height)),
+                                       self.width_in / _PAGE_W, height / _PAGE_H,
+                                       transform=self.page.transFigure, facecolor="#fff4e0",
+                                       edgecolor="#d08a1e", linewidth=1.2))
+        self.y += 0.12
+        for first, line in lines:
+            if first:
+                self.page.text(self._fx(_MARGIN + 0.2), self._fy(self.y), "!", fontsize=10,
+                               color="#d08a1e", weight="bold", va="top")
+            self.page.text(self._fx(_MARGIN + 0.45), self._fy(self.y), line, fontsize=10,
+                           color=_COLORS["body"], weight="bold", va="top")
+            self.y += step
+        self.y = top + height + 0.15
+
+    def block(self, b) -> None:
+        if isinstance(b, Heading):
+            self.room(0.6)
+            self.y += 0.08
+            self.text_lines([b.text], 11, _COLORS["accent"], "bold")
+            self.y += 0.03
+        elif isinstance(b, Para):
+            color = _COLORS.get(b.style, _COLORS["body"])
+            size = 8.5 if b.style == "muted" else _BODY_PT
+            weight = "bold" if b.style in ("good", "bad") else "normal"
+            self.text_lines(self.wrap(b.text, size), size, color, weight)
+            self.y += 0.06
+        elif isinstance(b, Bullets):
+            color = _COLORS.get(b.style, _COLORS["body"])
+            for item in b.items:
+                wrapped = self.wrap(item, _BODY_PT, indent=0.25)
+                self.room(_BODY_PT * 1.32 / 72)
+                self.page.text(self._fx(_MARGIN + 0.08), self._fy(self.y), "•",
+                               fontsize=_BODY_PT, color=color, va="top")
+                self.text_lines(wrapped, _BODY_PT, color, indent=0.25)
+            self.y += 0.06
+        elif isinstance(b, Pre):
+            lines = []
+            for line in b.lines:
+                lines.extend(self.wrap(line, 8.5, indent=0.15, mono=True))
+            self.text_lines(lines, 8.5, _COLORS["body"], family="DejaVu Sans Mono", indent=0.15)
+            self.y += 0.08
+        elif isinstance(b, Table):
+            self.table(b)
+        elif isinstance(b, Figure):
+            self.figure(b)
+
+    def table(self, t: Table) -> None:
+        ncol = len(t.header)
+        widths = [max(len(t.header[i]), *(len(r[i]) for r in t.rows)) for i in range(ncol)]
+        total = sum(widths) + 2 * (ncol - 1)
+        size = min(8.5, self.width_in * 72.0 / (max(total, 1) * _MONO_EM))
+        rows = [tuple(r) for r in t.rows]
+        if size < 7.5:
+            # too wide: keep the type readable and wrap the widest column instead
+            size = 7.5
+            cap = int(self.width_in * 72.0 / (size * _MONO_EM)) - (total - max(widths))
+            wide = int(np.argmax(widths))
+            widths[wide] = max(cap, 12)
+            split = []
+            for r in rows:
+                parts = textwrap.wrap(r[wide], widths[wide]) or [""]
+                for k, part in enumerate(parts):
+                    split.append(tuple(part if i == wide else (r[i] if k == 0 else "")
+                                       for i in range(ncol)))
+            rows = split
+        num = t.numeric or (False,) * ncol
+
+        def fmt(cells, header=False):
+            out = []
+            for i, c in enumerate(cells):
+                c = c[: widths[i]]
+                out.append(c.rjust(widths[i]) if (num[i] if i < len(num) else False) and not header
+                           else c.ljust(widths[i]))
+            return "  ".join(out)
+
+        step = size * 1.4 / 72.0
+        self.room(step * min(len(rows) + 1, 4))
+        self._table_header(fmt(t.header, True), size)
+        for r in rows:
+            if self.y + step > _PAGE_H - _MARGIN:
+                self.new_page()
+                self._table_header(fmt(t.header, True), size)
+            self.page.text(self._fx(_MARGIN), self._fy(self.y), fmt(r), fontsize=size,
+                           family="DejaVu Sans Mono", color=_COLORS["body"], va="top")
+            self.y += step
+        self.y += 0.1
+
+    def _table_header(self, text: str, size: float) -> None:
+        step = size * 1.4 / 72.0
+        self.page.text(self._fx(_MARGIN), self._fy(self.y), text, fontsize=size,
+                       family="DejaVu Sans Mono", weight="bold", color=_COLORS["body"], va="top")
+        self.y += step
+        x0, x1 = self._fx(_MARGIN), self._fx(_PAGE_W - _MARGIN)
+        self.page.add_artist(_line(x0, x1, self._fy(self.y - 0.02), "#9aa6b0", 0.6))
+        self.y += 0.03
+
+    def figure(self, f: Figure) -> None:
+        picture = None
+        height = f.height_in
+        if f.to_file is not None:
+            from matplotlib.image import imread
+
+            with tempfile.TemporaryDirectory(prefix="synth-fig-") as tmp:
+                path = Path(tmp) / "figure.png"
+                f.to_file(path)
+                picture = imread(path)
+            # keep the picture's own aspect, at most the text width and the block's height
+            aspect = picture.shape[1] / picture.shape[0]
+            height = min(self.width_in / aspect, f.height_in)
+        cap = self.wrap(f.caption, 8)
+        self.room(height + len(cap) * 8 * 1.3 / 72 + 0.1)
+        top, bottom = self.y, self.y + height
+        # a subfigure fills whole grid cells (the grid's margins do not apply), so
+        # place it on a grid of hundredths of an inch
+        rows, cols = int(round(_PAGE_H * 100)), int(round(_PAGE_W * 100))
+        gs = self.page.add_gridspec(rows, cols, wspace=0, hspace=0)
+        width = self.width_in if picture is None else height * aspect
+        left = _MARGIN + 0.5 * (self.width_in - width)
+        c0, c1 = int(round(left * 100)), int(round((left + width) * 100))
+        sub = self.page.add_subfigure(gs[int(round(top * 100)):int(round(bottom * 100)), c0:c1])
+        if picture is not None:
+            ax = sub.add_axes((0.0, 0.0, 1.0, 1.0))
+            ax.imshow(picture, interpolation="lanczos")
+            ax.set_axis_off()
+        else:
+            f.draw(sub)
+        self.y = bottom + 0.1
+        self.text_lines(cap, 8, _COLORS["muted"])
+        self.y += 0.08
+
+
+def _line(x0, x1, y, color, width):
+    from matplotlib.lines import Line2D
+
+    return Line2D([x0, x1], [y, y], color=color, linewidth=width)
+
+
+def render_pdf(sections: list[Section], title: str, subtitle: str, path: Path) -> int:
+    """Write the sections as an A4 PDF; returns the page count."""
+    import matplotlib
+    from matplotlib.backends.backend_pdf import PdfPages
+
+    with matplotlib.rc_context({"pdf.fonttype": 42, "font.family": "DejaVu Sans"}):
+        with PdfPages(path, metadata={"Title": title, "Creator": "synth",
+                                      "CreationDate": None, "ModDate": None}) as pdf:
+            w = _PdfWriter(pdf, title, subtitle)
+            w.title_block()
+            for sec in sections:
+                w.section(sec)
+            w.finish_page()
+    return w.pages
+
+
+# ---------------------------------------------------------------------------
+# entry point
+# ---------------------------------------------------------------------------
+
+def _title(problem) -> tuple[str, str]:
+    label = problem.plant.label
+    title = "Compensator design report" + (f": {label}" if label else "")
+    subtitle = f"requirements file {problem.source}; made by synth design"
+    return title, subtitle
+
+
+def write_report(problem, doc: dict, outdir) -> list[Path]:
+    """Write ``report.html`` and ``report.pdf`` for a design run into ``outdir``.
+
+    Parameters
+    ----------
+    problem : synth.requirements.Problem
+        The problem the run solved (plant, requirements, region).
+    doc : dict
+        Its synth.design/1 document, preferably with implementation forms
+        (:func:`synth.implementation.add_implementation_forms`); they are
+        added when missing.
+    outdir : str or path-like
+        Folder for the report; created when missing.
+
+    Returns
+    -------
+    list of pathlib.Path
+        The files written: ``[outdir/report.html, outdir/report.pdf]``.
+
+    Raises
+    ------
+    synth.errors.OptionError
+        When ``outdir`` exists and is not a folder, or cannot be created or
+        written.
+
+    Notes
+    -----
+    Both files are first written under temporary names in ``outdir`` and
+    renamed into place only when both are complete; on any failure the
+    temporary files (and a folder this call created) are removed.
+    """
+    out = Path(outdir)
+    if out.exists() and not out.is_dir():
+        raise OptionError(f"--report {outdir}: exists and is not a folder")
+    created = not out.exists()
+    try:
+        out.mkdir(parents=True, exist_ok=True)
+    except OSError as err:
+        raise OptionError(f"--report {outdir}: cannot create the folder ({err.strerror})") from None
+    temps: list[Path] = []
+    try:
+        sections = build_sections(problem, doc)
+        title, subtitle = _title(problem)
+        page = render_html(sections, title, subtitle)
+        fd, tmp_html = tempfile.mkstemp(prefix=".report-", suffix=".html", dir=out)
+        temps.append(Path(tmp_html))
+        with os.fdopen(fd, "w", encoding="utf-8") as fh:
+            fh.write(page)
+        fd, tmp_pdf = tempfile.mkstemp(prefix=".report-", suffix=".pdf", dir=out)
+        os.close(fd)
+        temps.append(Path(tmp_pdf))
+        render_pdf(sections, title, subtitle, Path(tmp_pdf))
+        final = [out / "report.html", out / "report.pdf"]
+        for tmp, dest in zip(temps, final, strict=True):
+            os.chmod(tmp, 0o644)
+            os.replace(tmp, dest)
+        temps.clear()
+        return final
+    except OSError as err:
+        raise OptionError(f"--report {outdir}: cannot write the report ({err})") from None
+    finally:
+        for tmp in temps:
+            tmp.unlink(missing_ok=True)
+        if created and out.is_dir() and not any(out.iterdir()):
+            out.rmdir()

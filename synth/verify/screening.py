@@ -1,0 +1,74 @@
+"""Cheap batched screens for searches: stability, region membership, plant-gain range.
+
+Eigenvalue-free (Routh on shifted and rotated polynomials, :mod:`synth.numerics.screening`).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from synth.numerics.poly import batch_polymul
+
+
+@dataclass(frozen=True)
+class ScreenResult:
+    """Batched screening verdicts (see :func:`screen_batch`)."""
+
+    char: np.ndarray
+    stable: np.ndarray
+    in_region: np.ndarray
+    plant_range_ok: np.ndarray
+
+
+def _in_region(polys, region) -> np.ndarray:
+    """Batched region test: the eigenvalue-free kernel, or eigenvalues as a fallback."""
+    try:
+        from synth.numerics.screening import in_region_batch
+    except ImportError:  # kernel not installed: same answer from eigenvalues
+        from synth.locus.core import roots_batch
+
+        return region.contains(roots_batch(polys))
+    return in_region_batch(polys, region)
+
+
+def screen_batch(problem, nums, dens, range_points: int = 3) -> ScreenResult:
+    """Cheap batched screen of many compensators (no simulation, no eigenvalues).
+
+    Parameters
+    ----------
+    problem : synth.requirements.Problem
+    nums, dens : ndarray, shape (B, k)
+        Compensator numerators and denominators (one per row, padded).
+    range_points : int
+        Plant-gain factors tested across ``plant_gain_range`` (both ends and
+        geometrically spaced interior points).  A necessary check only; the
+        full verifier decides the range exactly.
+
+    Returns
+    -------
+    ScreenResult
+        ``char`` (B, n+1) and boolean arrays ``stable``, ``in_region``,
+        ``plant_range_ok``.
+    """
+    from synth.problem.region import Region
+
+    nums = np.atleast_2d(np.asarray(nums, dtype=float))
+    dens = np.atleast_2d(np.asarray(dens, dtype=float))
+    num_l = batch_polymul(nums, problem.plant.num)
+    den_l = batch_polymul(dens, problem.plant.den)
+    width = max(num_l.shape[1], den_l.shape[1])
+    num_l = np.pad(num_l, ((0, 0), (width - num_l.shape[1], 0)))
+    den_l = np.pad(den_l, ((0, 0), (width - den_l.shape[1], 0)))
+    char = den_l + num_l
+    stable = _in_region(char, Region())
+    region = problem.region
+    in_region = _in_region(char, region) if not region.is_stability_only else stable.copy()
+    ok = stable.copy()
+    pgr = problem.requirements.plant_gain_range
+    if pgr is not None:
+        ks = np.geomspace(pgr[0], pgr[1], max(2, range_points))
+        for k in ks:
+            ok &= _in_region(den_l + k * num_l, Region())
+    return ScreenResult(char=char, stable=stable, in_region=in_region, plant_range_ok=ok)

@@ -1,0 +1,344 @@
+"""The judge: full verification of a compensator against the requirements.
+
+Every design that synth reports passes through :func:`verify`.  It works on
+the UNREDUCED closed-loop characteristic polynomial ``den_C den_G + num_C num_G``
+(engine form, the dead time by its Pade form), so a pole-zero cancellation can
+never hide a mode, and decides:
+
+* closed-loop poles and internal stability (an unstable cancellation between
+  compensator and plant is named and rejected);
+* the minimum damping ratio over every closed-loop pole and membership of the
+  requirement region (reported as ``in_region``; the region is the search's
+  guide, not a requirement of its own: overshoot and settling time are judged
+  by the simulation, damping by every pole);
+* the exact interval of plant-gain factors around 1 that keeps the loop stable
+  (:func:`synth.locus.core.stable_gain_intervals`), against ``plant_gain_range``;
+* the compensator gain against ``gain_range``;
+* a unit-step simulation (overshoot against the final value, settling time as
+  the last time outside the band, 10-90 % rise time, steady-state error, peak
+  compensator output) -- with the EXACT dead time, see :func:`step_response`;
+* frequency-domain margins with the exact dead time in ``L(jw)``: gain margin,
+  phase margin, delay margin and peak sensitivity, from a dense logarithmic
+  grid refined at every crossing.
+
+:func:`screen_batch` is the cheap batched counterpart for searches: stability,
+region membership and stability at test points of the plant-gain range, by the
+eigenvalue-free kernel of :mod:`synth.numerics.screening`.
+
+Definitions
+-----------
+Phase margin is the angular distance of ``L(j w_c)`` from -1 at each gain
+crossover (0 to 180 degrees), the smallest over all crossovers; the delay
+margin is the smallest extra dead time that rotates some crossover onto -1,
+``((arg L(j w_c) + 180 deg) mod 360 deg) / w_c``.  Gain margin is the smallest
+factor ``> 1`` by which the loop gain can grow before the Nyquist plot passes
+through -1, i.e. ``1 / |L|`` at the phase crossovers where ``|L| < 1``
+(``null`` when there is none).  All metrics of an unstable loop except the
+poles are ``null``.
+
+References
+----------
+.. [1] K. J. Astrom and R. M. Murray, *Feedback Systems*, Princeton
+   University Press, 2008, ch. 9-10 (Nyquist criterion, stability margins,
+   sensitivity peak).
+.. [2] G. F. Franklin, J. D. Powell and M. Workman, *Digital Control of
+   Dynamic Systems*, 3rd ed., Addison-Wesley, 1998, ch. 6 (zero- and
+   triangle-hold equivalents, exact step-invariant discretisation).
+.. [3] C. F. Van Loan, "Computing integrals involving the matrix
+   exponential", IEEE Trans. Automatic Control 23(3), 1978 (block matrix
+   exponentials for the hold integrals).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+
+from synth.numerics.poly import common_roots, format_complex, trim
+from synth.verify.frequency import frequency_metrics
+from synth.verify.loop import loop_polynomials
+from synth.verify.simulation import step_metrics, step_response
+
+#: The contract's metric names, in order.
+METRIC_KEYS = ("overshoot_percent", "settling_time", "rise_time", "steady_state_error",
+               "min_damping_ratio", "phase_margin_deg", "gain_margin_db", "peak_sensitivity",
+               "peak_control_effort", "stable_plant_gain_range")
+
+#: Relative distance under which a compensator root and a plant root count as cancelling.
+_CANCEL_RTOL = 1e-5
+
+
+#: Shortfall assigned to an unstable loop (ranks below any stable one).
+_UNSTABLE_SHORTFALL = 100.0
+
+
+@dataclass(frozen=True)
+class Verdict:
+    """Everything the verifier found about one compensator.
+
+    Attributes
+    ----------
+    metrics : dict
+        The contract's metric keys (``METRIC_KEYS``) plus ``delay_margin``,
+        ``crossover_frequency``, ``final_value``, ``in_region`` and ``gain``;
+        ``None`` for unbounded or undefined values.
+    violations : tuple of str
+        What is not met, each with the numbers.
+    feasible : bool
+        No violations.
+    closed_loop_poles : tuple of complex
+        Roots of the unreduced characteristic polynomial.
+    stable, internally_stable : bool
+    shortfall : float
+        Sum of the normalised excesses over the violated requirements (0 when
+        feasible; at least 100 for an unstable loop), used to order the
+        nearest designs when none is feasible.
+    notes : tuple of str
+        Facts worth showing that are not violations (stable cancellations, ...).
+    exact_delay : bool
+        Time-domain metrics from the exact-delay simulation (always true
+        without dead time).
+    """
+
+    metrics: dict[str, Any]
+    violations: tuple[str, ...]
+    feasible: bool
+    closed_loop_poles: tuple[complex, ...]
+    stable: bool
+    internally_stable: bool
+    shortfall: float
+    notes: tuple[str, ...] = ()
+    exact_delay: bool = True
+    shortfalls: dict[str, float] = field(default_factory=dict)
+
+
+def _cancellations(plant, nc, dc) -> list[tuple[str, complex]]:
+    """Compensator roots that coincide with plant roots: ``(kind, root)`` pairs."""
+    out = []
+    if nc.size > 1:
+        for r in common_roots(nc, plant.den, rtol=_CANCEL_RTOL):
+            out.append(("zero", r))
+    if dc.size > 1 and plant.num.size > 1:
+        for r in common_roots(dc, plant.num, rtol=_CANCEL_RTOL):
+            out.append(("pole", r))
+    return out
+
+
+def _fmt(v: float, digits: int = 3) -> str:
+    return f"{v:.{digits}g}"
+
+
+def _range_text(lo, hi) -> str:
+    a = "-inf" if lo is None else _fmt(lo)
+    b = "inf" if hi is None else _fmt(hi)
+    return f"({a}, {b})"
+
+
+def verify(problem, num_c, den_c, exact_delay: bool = True) -> Verdict:
+    """Verify one compensator against every requirement of ``problem``.
+
+    Parameters
+    ----------
+    problem : synth.requirements.Problem
+    num_c, den_c : array_like
+        Compensator numerator (``K`` times the monic numerator) and monic
+        denominator, descending powers.
+    exact_delay : bool
+        Simulate a dead time exactly (default).  ``False`` uses the Pade form
+        in the simulation too (a quicker first pass; reported designs are
+        always re-verified with the exact delay).
+
+    Returns
+    -------
+    Verdict
+    """
+    from synth.locus.core import interval_containing, stable_gain_intervals
+    from synth.problem.region import Region
+
+    plant = problem.plant
+    req = problem.requirements
+    region = problem.region
+    nc, dc = trim(num_c), trim(den_c)
+    num_l, den_l, char = loop_polynomials(plant, nc, dc)
+    poles = np.roots(char) if char.size > 1 else np.zeros(0, complex)
+    poles = poles[np.lexsort((poles.imag, poles.real))] if poles.size else poles
+    gain = float(nc[0] / dc[0])
+    violations: list[str] = []
+    short: dict[str, float] = {}
+    notes: list[str] = []
+    metrics: dict[str, Any] = {k: None for k in METRIC_KEYS}
+    metrics.update(delay_margin=None, crossover_frequency=None, final_value=None,
+                   in_region=False, gain=gain)
+
+    # internal stability: cancellations between compensator and plant
+    internally_stable = True
+    for kind, r in _cancellations(plant, nc, dc):
+        what = ("compensator zero at {z} cancels the plant pole at {z}" if kind == "zero"
+                else "compensator pole at {z} cancels the plant zero at {z}")
+        text = what.format(z=format_complex(r))
+        if r.real >= -1e-9 * max(1.0, abs(r)):
+            internally_stable = False
+            violations.append(f"internally unstable: {text}; the unstable mode stays in the "
+                              "loop and no output shows it")
+            short["internal_stability"] = 2 * _UNSTABLE_SHORTFALL
+        else:
+            notes.append(f"{text} (a stable hidden mode decaying at rate {_fmt(-r.real)} 1/s)")
+
+    stable = bool(Region().contains(poles)) if poles.size else True
+    n_full = max(np.polymul(dc, plant.den).size, np.polymul(nc, plant.num).size)
+    if char.size < n_full or abs(char[0]) <= 1e-12 * float(np.max(np.abs(char))):
+        # 1 + C G vanishes at infinite frequency: the loop has no well-defined response
+        stable = False
+        violations.append("ill-posed loop: 1 + C(s) G(s) vanishes at infinite frequency "
+                          f"(compensator gain {_fmt(gain, 4)})")
+        short["stability"] = _UNSTABLE_SHORTFALL
+    if poles.size:
+        zeta = np.where(np.abs(poles) > 0, -poles.real / np.maximum(np.abs(poles), 1e-300), 0.0)
+        metrics["min_damping_ratio"] = float(np.min(zeta))
+        metrics["in_region"] = bool(region.contains(poles))
+    else:
+        metrics["min_damping_ratio"] = None
+        metrics["in_region"] = True
+    if not stable and poles.size and "stability" not in short:
+        worst = poles[int(np.argmax(poles.real))]
+        violations.append(f"closed loop unstable: pole at {format_complex(worst)} has a "
+                          "non-negative real part")
+        short["stability"] = _UNSTABLE_SHORTFALL + max(0.0, float(worst.real))
+
+    if req.gain_range is not None:
+        lo, hi = req.gain_range
+        if not (lo <= gain <= hi):
+            violations.append(f"gain {_fmt(gain, 4)} is outside the allowed gain range "
+                              f"[{_fmt(lo)}, {_fmt(hi)}]")
+            span = max(abs(lo), abs(hi), 1e-12)
+            short["gain_range"] = (lo - gain if gain < lo else gain - hi) / span
+
+    exact = True
+    if stable:
+        iv = interval_containing(stable_gain_intervals(num_l, den_l), 1.0)
+        if iv is not None:
+            metrics["stable_plant_gain_range"] = [iv[0], iv[1]]
+            pgr = req.plant_gain_range
+            if pgr is not None:
+                lo_ok = iv[0] is None or iv[0] < pgr[0]
+                hi_ok = iv[1] is None or iv[1] > pgr[1]
+                if not (lo_ok and hi_ok):
+                    violations.append(
+                        f"stable only for plant-gain factors in {_range_text(*iv)}; required "
+                        f"[{_fmt(pgr[0])}, {_fmt(pgr[1])}]")
+                    s = 0.0
+                    if not lo_ok:
+                        s += math.log(iv[0] / pgr[0]) if iv[0] > 0 else 1.0
+                    if not hi_ok:
+                        s += math.log(pgr[1] / iv[1]) if iv[1] > 0 else 1.0
+                    short["plant_gain_range"] = max(s, 1e-6)
+
+        resp = step_response(problem, nc, dc, exact_delay=exact_delay)
+        exact = resp.exact_delay
+        metrics.update(step_metrics(resp, req.settling_band_percent))
+        metrics.update(frequency_metrics(problem, nc, dc))
+        _check_limits(req, metrics, poles, violations, short)
+    if stable:
+        notes.extend(_slow_hidden_poles(poles, num_l, region))
+    if plant.dead_time > 0 and not exact and exact_delay:
+        notes.append("dead time too short to resolve against the horizon: time-domain "
+                     "metrics from the Pade form")
+    return Verdict(metrics=metrics, violations=tuple(violations), feasible=not violations,
+                   closed_loop_poles=tuple(complex(p) for p in poles), stable=stable,
+                   internally_stable=internally_stable, shortfall=float(sum(short.values())),
+                   notes=tuple(notes), exact_delay=exact or plant.dead_time == 0,
+                   shortfalls=short)
+
+
+def _slow_hidden_poles(poles, num_l, region) -> list[str]:
+    """Notes on slow closed-loop poles that a nearby loop zero hides from the step response.
+
+    Such a pole barely shows in the reference step (its residue is small) but
+    it is still a mode of the loop: a disturbance entering at the plant input
+    decays at its rate. Slow means slower than the required decay rate, or
+    slower than a tenth of the fastest pole when no rate is required.
+    """
+    zeros = np.roots(trim(num_l)) if trim(num_l).size > 1 else np.zeros(0, complex)
+    if not poles.size or not zeros.size:
+        return []
+    rates = -poles.real
+    slow_limit = region.sigma if region.sigma > 0 else 0.1 * float(np.max(np.abs(poles)))
+    out = []
+    for p, rate in zip(poles, rates, strict=True):
+        if rate >= slow_limit or p.imag < 0:
+            continue
+        d = np.abs(zeros - p)
+        j = int(np.argmin(d))
+        if d[j] <= 0.2 * abs(p):
+            out.append(f"slow closed-loop pole at {format_complex(p)} is nearly cancelled by the "
+                       f"loop zero at {format_complex(zeros[j])}: the reference step hides it, "
+                       f"but a disturbance at the plant input decays only at {_fmt(rate)} 1/s")
+    return out
+
+
+def _check_limits(req, m, poles, violations, short) -> None:
+    """Compare the metrics of a stable loop with the requirement limits."""
+    def over(key, limit, value, text, floor=1e-12):
+        short[key] = (value - limit) / max(abs(limit), floor)
+        violations.append(text)
+
+    if req.max_overshoot_percent is not None:
+        v = m["overshoot_percent"]
+        if v is None:
+            over("overshoot", 1.0, 2.0, "overshoot undefined: the final value is zero")
+        elif v > req.max_overshoot_percent:
+            over("overshoot", req.max_overshoot_percent, v,
+                 f"overshoot {v:.3g} % exceeds {req.max_overshoot_percent:g} %", 1.0)
+    if req.max_settling_time is not None:
+        v = m["settling_time"]
+        band = req.settling_band_percent
+        if v is None:
+            over("settling", 1.0, 2.0, f"does not settle within the {band:g} % band in the "
+                 "simulated horizon")
+        elif v > req.max_settling_time:
+            over("settling", req.max_settling_time, v,
+                 f"settling time {v:.3g} s exceeds {req.max_settling_time:g} s ({band:g} % band)")
+    if req.max_rise_time is not None:
+        v = m["rise_time"]
+        if v is None:
+            over("rise", 1.0, 2.0, "the response never reaches 90 % of its final value")
+        elif v > req.max_rise_time:
+            over("rise", req.max_rise_time, v,
+                 f"rise time {v:.3g} s exceeds {req.max_rise_time:g} s")
+    if req.max_steady_state_error is not None:
+        v = m["steady_state_error"]
+        lim = req.max_steady_state_error
+        if v > lim + 1e-9:
+            over("steady_state_error", lim, v,
+                 f"steady-state error {v:.3g} exceeds {lim:g}", 0.01)
+    if req.min_damping_ratio is not None:
+        v = m["min_damping_ratio"]
+        if v is not None and v < req.min_damping_ratio:
+            zeta = -poles.real / np.abs(poles)
+            p = poles[int(np.argmin(zeta))]
+            short["damping"] = (req.min_damping_ratio - v) / req.min_damping_ratio
+            violations.append(f"damping ratio {v:.3g} of the pole at {format_complex(p)} is "
+                              f"below {req.min_damping_ratio:g}")
+    if req.min_phase_margin_deg is not None:
+        v = m["phase_margin_deg"]
+        if v is not None and v < req.min_phase_margin_deg:
+            short["phase_margin"] = (req.min_phase_margin_deg - v) / req.min_phase_margin_deg
+            violations.append(f"phase margin {v:.3g} deg is below {req.min_phase_margin_deg:g} deg")
+    if req.min_gain_margin_db is not None:
+        v = m["gain_margin_db"]
+        if v is not None and v < req.min_gain_margin_db:
+            short["gain_margin"] = (req.min_gain_margin_db - v) / req.min_gain_margin_db
+            violations.append(f"gain margin {v:.3g} dB is below {req.min_gain_margin_db:g} dB")
+    if req.max_peak_sensitivity is not None:
+        v = m["peak_sensitivity"]
+        if v is not None and v > req.max_peak_sensitivity:
+            over("peak_sensitivity", req.max_peak_sensitivity, v,
+                 f"peak sensitivity {v:.3g} exceeds {req.max_peak_sensitivity:g}")
+    if req.max_control_effort is not None:
+        v = m["peak_control_effort"]
+        if v > req.max_control_effort:
+            over("control_effort", req.max_control_effort, v,
+                 f"peak control effort {v:.3g} exceeds {req.max_control_effort:g}")
