@@ -138,8 +138,9 @@ def check_output_file(path, option: str | None = None,
 def check_output_folder(path, option: str | None = None) -> Path | None:
     """Check, before any work, that an output folder can be written (created if missing).
 
-    The folder itself may be missing (it is created, at the end, by
-    :func:`atomic_folder`), but the folder it goes in must exist.
+    The folder and its missing parents are created only at the end, by
+    :func:`atomic_folder`; the nearest existing ancestor must be a folder
+    that takes new entries.
 
     Raises
     ------
@@ -154,11 +155,19 @@ def check_output_folder(path, option: str | None = None) -> Path | None:
     if p.is_dir():
         _probe_folder(p, option, path)
         return p
-    parent = p.parent if str(p.parent) else Path(".")
-    if not parent.is_dir():
-        raise OptionError(f"{_label(option, path)}: folder {parent} does not exist")
-    _probe_folder(parent, option, path)
+    base = _existing_ancestor(p)
+    if not base.is_dir():
+        raise OptionError(f"{_label(option, path)}: {base} is not a folder")
+    _probe_folder(base, option, path)
     return p
+
+
+def _existing_ancestor(p: Path) -> Path:
+    """The nearest ancestor of ``p`` that exists (``.`` for a relative name)."""
+    for parent in p.parents:
+        if os.path.lexists(parent):
+            return parent
+    return Path(".")
 
 
 def interrupt_point(name: str) -> None:
@@ -261,8 +270,9 @@ def write_json_atomic(path, doc, option: str | None = None) -> Path:
 def atomic_folder(path, option: str | None = None) -> Iterator[Path]:
     """Yield a hidden staging folder; its content becomes the folder ``path`` when the block succeeds.
 
-    A missing ``path`` is built as a sibling staging folder and renamed into
-    place in one step. An existing folder keeps its other files: the staging
+    A missing ``path`` is built as a staging folder in its nearest existing
+    ancestor and renamed into place in one step (missing parents are made
+    just before). An existing folder keeps its other files: the staging
     folder is made inside it and each entry is renamed into place, all with
     interrupts deferred. On failure or interrupt the staging folder is
     removed and ``path`` is left as it was (a folder is never created empty).
@@ -279,7 +289,7 @@ def atomic_folder(path, option: str | None = None) -> Iterator[Path]:
     """
     target = Path(path)
     into_existing = target.is_dir()
-    where = target if into_existing else (target.parent if str(target.parent) else Path("."))
+    where = target if into_existing else _existing_ancestor(target)
     try:
         staging = Path(tempfile.mkdtemp(prefix=TEMP_PREFIX, dir=where))
     except OSError as err:
@@ -297,6 +307,7 @@ def atomic_folder(path, option: str | None = None) -> Iterator[Path]:
                 staging.rmdir()
             else:
                 os.chmod(staging, 0o777 & ~_umask())
+                target.parent.mkdir(parents=True, exist_ok=True)
                 os.rename(staging, target)
                 committed.append(target)
     except OSError as err:
