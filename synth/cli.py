@@ -11,16 +11,15 @@ meets every requirement.
 
 from __future__ import annotations
 
-import json
 import os
+import signal
 import sys
-import tempfile
 from contextlib import contextmanager
-from pathlib import Path
 
 import typer
 
-from synth.errors import InputError, OptionError, SynthError
+from synth.errors import InputError, OptionError, SynthError, Terminated, one_line
+from synth.outputs.files import check_output_file, check_output_folder
 
 EXIT_BAD_INPUT = 2
 EXIT_NO_FEASIBLE = 3
@@ -43,32 +42,36 @@ def _echo_lines(lines) -> None:
         typer.echo(line)
 
 
-def _check_output_path(path: str | None, what: str, suffixes: tuple[str, ...] | None = None) -> None:
-    """Fail before any work if an output path cannot be written."""
-    if path is None:
-        return
-    p = Path(path)
-    if suffixes and p.suffix.lower() not in suffixes:
-        raise OptionError(f"{what} {path}: the file name must end in {' or '.join(suffixes)}")
-    parent = p.parent if str(p.parent) else Path(".")
-    if not parent.is_dir():
-        raise OptionError(f"{what} {path}: folder {parent} does not exist")
-    if p.is_dir():
-        raise OptionError(f"{what} {path}: is a folder, not a file")
+class _Interrupted(Exception):
+    """An interrupt after the command's own cleanup ran: the signal and what was written."""
+
+    def __init__(self, signum: int, written: tuple[str, ...]):
+        super().__init__(signum)
+        self.signum = signum
+        self.written = written
 
 
-def _write_json_atomic(path: str, doc: dict) -> None:
-    """Write JSON through a temporary file so a failure never leaves a partial file."""
-    text = json.dumps(doc, indent=2, allow_nan=False)
-    p = Path(path)
-    fd, tmp = tempfile.mkstemp(prefix=".synth-", suffix=".json", dir=str(p.parent or "."))
+@contextmanager
+def _interruptible(written: list[str]):
+    """Turn an interrupt inside a command into :class:`_Interrupted` with the files written.
+
+    Temporary files are gone by the time the interrupt reaches here (the
+    writers' ``finally`` blocks ran); converting it to an ordinary exception
+    keeps click from printing a blank line of its own.
+    """
     try:
-        with os.fdopen(fd, "w") as fh:
-            fh.write(text + "\n")
-        os.replace(tmp, p)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
+        yield
+    except KeyboardInterrupt as err:
+        signum = getattr(err, "signum", signal.SIGINT)
+        done = [*written, *(w for w in getattr(err, "written", ()) if w not in written)]
+        raise _Interrupted(signum, tuple(done)) from None
+
+
+def _write_json(path: str, doc: dict, written: list[str]) -> None:
+    from synth.outputs.files import write_json_atomic
+
+    write_json_atomic(path, doc, "--json")
+    written.append(path)
 
 
 @contextmanager
@@ -96,16 +99,18 @@ def explain(
     json_out: str | None = typer.Option(None, "--json", help="Write the synth.explain/1 JSON here."),
 ) -> None:
     """What proportional gain alone can and cannot do for the plant, and why."""
-    _check_output_path(json_out, "--json")
-    problem = _load(file)
-    from synth.explain import explain_problem
+    check_output_file(json_out, "--json")
+    written: list[str] = []
+    with _interruptible(written):
+        problem = _load(file)
+        from synth.explain import explain_problem
 
-    with _about(problem):
-        result = explain_problem(problem)
-    doc = result.to_json()
-    _echo_lines(result.text_lines())
-    if json_out:
-        _write_json_atomic(json_out, doc)
+        with _about(problem):
+            result = explain_problem(problem)
+        doc = result.to_json()
+        _echo_lines(result.text_lines())
+        if json_out:
+            _write_json(json_out, doc, written)
 
 
 def _split_design_ref(ref: str) -> tuple[str, int]:
@@ -127,35 +132,38 @@ def trace(
     json_out: str | None = typer.Option(None, "--json", help="Write the synth.trace/1 JSON here."),
 ) -> None:
     """The root locus of the plant, or of a chosen design's loop, with its special points."""
-    _check_output_path(plot, "--plot", (".png", ".svg"))
-    _check_output_path(json_out, "--json")
-    problem = _load(file)
-    from synth.locus import trace_design_loop, trace_problem
+    check_output_file(plot, "--plot", (".png", ".svg"))
+    check_output_file(json_out, "--json")
+    written: list[str] = []
+    with _interruptible(written):
+        problem = _load(file)
+        from synth.locus import trace_design_loop, trace_problem
 
-    if design:
-        path, rank = _split_design_ref(design)
-        from synth.outputs.compare import load_design_json
+        if design:
+            path, rank = _split_design_ref(design)
+            from synth.outputs.compare import load_design_json
 
-        result, operating_gain = trace_design_loop(problem, load_design_json(path), rank,
-                                                   source=path)
-    else:
-        with _about(problem):
-            result, operating_gain = trace_problem(problem), None
-    doc = result.to_json()
-    if operating_gain is not None:
-        doc["operating_gain"] = operating_gain
-    _echo_lines(result.summary_lines())
-    if operating_gain is not None:
-        typer.echo(f"design {rank} operates at gain {operating_gain:.6g}")
-    if plot:
-        from synth.outputs.report.locus_plot import plot_locus
+            result, operating_gain = trace_design_loop(problem, load_design_json(path), rank,
+                                                       source=path)
+        else:
+            with _about(problem):
+                result, operating_gain = trace_problem(problem), None
+        doc = result.to_json()
+        if operating_gain is not None:
+            doc["operating_gain"] = operating_gain
+        _echo_lines(result.summary_lines())
+        if operating_gain is not None:
+            typer.echo(f"design {rank} operates at gain {operating_gain:.6g}")
+        if plot:
+            from synth.outputs.report.locus_plot import plot_locus
 
-        plot_locus(result, plot, region=problem.region,
-                   operating_gain=operating_gain,
-                   title=problem.plant.label or None)
-        typer.echo(f"picture written to {plot}")
-    if json_out:
-        _write_json_atomic(json_out, doc)
+            plot_locus(result, plot, region=problem.region,
+                       operating_gain=operating_gain,
+                       title=problem.plant.label or None)
+            written.append(plot)
+            typer.echo(f"picture written to {plot}")
+        if json_out:
+            _write_json(json_out, doc, written)
 
 
 @app.command()
@@ -167,32 +175,33 @@ def design(
         None, "--sample-time", help="Also give each design in discrete time (Tustin, seconds)."),
 ) -> None:
     """Search compensator structures, verify every candidate, rank the feasible designs."""
-    _check_output_path(json_out, "--json")
+    check_output_file(json_out, "--json")
     if sample_time is not None and not (sample_time > 0 and sample_time < 1e6):
         raise OptionError(f"--sample-time {sample_time:g}: must be a positive number of seconds")
-    if report is not None and Path(report).exists() and not Path(report).is_dir():
-        raise OptionError(f"--report {report}: exists and is not a folder")
-    problem = _load(file)
-    from synth.design import run_design
-    from synth.outputs.progress import terminal_progress
+    check_output_folder(report, "--report")
+    written: list[str] = []
+    with _interruptible(written):
+        problem = _load(file)
+        from synth.design import run_design
+        from synth.outputs.progress import terminal_progress
 
-    with _about(problem), terminal_progress("searching") as progress:
-        run = run_design(problem, progress=progress)
-    doc = run.to_json()
-    _echo_lines(run.table_lines())
-    if sample_time is not None or doc.get("designs"):
-        from synth.outputs.implementation import add_implementation_forms, implementation_lines
+        with _about(problem), terminal_progress("searching") as progress:
+            run = run_design(problem, progress=progress)
+        doc = run.to_json()
+        _echo_lines(run.table_lines())
+        if sample_time is not None or doc.get("designs"):
+            from synth.outputs.implementation import add_implementation_forms, implementation_lines
 
-        doc = add_implementation_forms(doc, sample_time=sample_time)
-        _echo_lines(implementation_lines(doc, sample_time=sample_time))
-    if json_out:
-        _write_json_atomic(json_out, doc)
-    if report:
-        from synth.outputs.report.document import write_report
+            doc = add_implementation_forms(doc, sample_time=sample_time)
+            _echo_lines(implementation_lines(doc, sample_time=sample_time))
+        if json_out:
+            _write_json(json_out, doc, written)
+        if report:
+            from synth.outputs.report.document import write_report
 
-        written = write_report(problem, doc, report)
-        for path in written:
-            typer.echo(f"report written to {path}")
+            for path in write_report(problem, doc, report):
+                written.append(str(path))
+                typer.echo(f"report written to {path}")
     if not run.any_feasible:
         raise typer.Exit(EXIT_NO_FEASIBLE)
 
@@ -206,66 +215,151 @@ def compare(
     """Rankings and metrics of several design runs side by side."""
     if len(files) < 2:
         raise OptionError("compare needs at least two design JSON files")
-    from synth.outputs.compare import compare_runs, load_design_json
+    check_output_file(json_out, "--json")
+    check_output_file(plot, "--plot", (".png", ".svg"))
+    written: list[str] = []
+    with _interruptible(written):
+        from synth.outputs.compare import compare_runs, load_design_json
 
-    _check_output_path(json_out, "--json")
-    _check_output_path(plot, "--plot", (".png", ".svg"))
-    runs = [(f, load_design_json(f)) for f in files]
-    result = compare_runs(runs)
-    _echo_lines(result.table_lines())
-    if json_out:
-        _write_json_atomic(json_out, result.to_json())
-    if plot:
-        from synth.outputs.report.compare_plot import plot_step_overlay
+        runs = [(f, load_design_json(f)) for f in files]
+        result = compare_runs(runs)
+        _echo_lines(result.table_lines())
+        if json_out:
+            _write_json(json_out, result.to_json(), written)
+        if plot:
+            from synth.outputs.report.compare_plot import plot_step_overlay
 
-        plot_step_overlay(runs, plot)
-        typer.echo(f"picture written to {plot}")
+            plot_step_overlay(runs, plot)
+            written.append(plot)
+            typer.echo(f"picture written to {plot}")
 
 
 # -- entry point -------------------------------------------------------------------------------
 
+def _raise_on_signal(signum, _frame):
+    """SIGINT/SIGTERM handler: ignore further signals (cleanup runs undisturbed), then raise."""
+    for sig in (signal.SIGINT, signal.SIGTERM):
+        signal.signal(sig, signal.SIG_IGN)
+    if signum == signal.SIGTERM:
+        raise Terminated(signum)
+    raise KeyboardInterrupt
+
+
+def _unraisable(hook_args) -> None:
+    """Keep an interrupt that landed in a finaliser (``__del__``) from being swallowed.
+
+    Python prints "Exception ignored" for it and carries on as if nothing
+    happened; instead the signal is sent again, so it is raised where the
+    program can act on it. Anything else goes to the default hook.
+    """
+    exc = hook_args.exc_value
+    if isinstance(exc, KeyboardInterrupt):
+        for sig in (signal.SIGINT, signal.SIGTERM):
+            signal.signal(sig, _raise_on_signal)
+        signal.raise_signal(getattr(exc, "signum", signal.SIGINT))
+        return
+    sys.__unraisablehook__(hook_args)
+
+
+def _say(message: str) -> None:
+    """One line on standard error (escaped), even when standard error is gone."""
+    try:
+        typer.echo(one_line(message), err=True)
+    except (OSError, ValueError):
+        pass
+
+
+def _finish(code: int):
+    """Flush standard output safely and exit.
+
+    A reader that went away (``synth ... | head``) would make the flush at
+    interpreter exit print "Exception ignored ... BrokenPipeError"; pointing
+    the descriptor at /dev/null first keeps shutdown silent.
+    """
+    try:
+        sys.stdout.flush()
+    except (OSError, ValueError):
+        try:
+            devnull = os.open(os.devnull, os.O_WRONLY)
+            os.dup2(devnull, sys.stdout.fileno())
+        except (OSError, ValueError):
+            pass
+    sys.exit(code)
+
+
 def main(argv: list[str] | None = None) -> None:
-    """Run the app; user errors become one line on stderr and exit code 2."""
+    """Run the app; user errors become one line on stderr and exit code 2.
+
+    SIGINT and SIGTERM end the run after its cleanup with one line that says
+    what was written, and exit codes 130 and 143 (128 + signal number).
+    """
     try:
         from typer._click import exceptions as clickex  # typer >= 0.20 vendors click
     except ImportError:  # pragma: no cover - older typer uses click itself
         from click import exceptions as clickex
 
+    import threading
     import warnings
 
     if not os.environ.get("SYNTH_DEBUG"):
         # numerical warnings (a pole exactly on a frequency grid point, say) are handled
         # where they arise; they are noise to a user
         warnings.simplefilter("ignore", RuntimeWarning)
+    saved = None
+    if threading.current_thread() is threading.main_thread():
+        saved = ({sig: signal.getsignal(sig) for sig in (signal.SIGINT, signal.SIGTERM)},
+                 sys.unraisablehook)
+        for sig in (signal.SIGINT, signal.SIGTERM):
+            signal.signal(sig, _raise_on_signal)
+        sys.unraisablehook = _unraisable
+    try:
+        _run(clickex, argv)
+    finally:  # main() called from Python (a test, a notebook) leaves the process as it was
+        if saved is not None:
+            for sig, handler in saved[0].items():
+                signal.signal(sig, handler)
+            sys.unraisablehook = saved[1]
+
+
+def _run(clickex, argv) -> None:
+    """Run the app and turn every ending into one line and an exit code."""
     try:
         rv = app(args=argv, prog_name="synth", standalone_mode=False)
+    except _Interrupted as err:
+        what = ("nothing written" if not err.written
+                else "written before it: " + ", ".join(err.written))
+        _say(f"synth: interrupted; {what}")
+        _finish(128 + int(err.signum))
     except SynthError as err:
-        typer.echo(f"synth: error: {err}", err=True)
-        sys.exit(EXIT_BAD_INPUT)
+        _say(f"synth: error: {err}")
+        _finish(EXIT_BAD_INPUT)
     except clickex.UsageError as err:
         if type(err).__name__ == "NoArgsIsHelpError":
             typer.echo(err.format_message() if hasattr(err, "format_message") else str(err))
-            sys.exit(0)
+            _finish(0)
         msg = " ".join(err.format_message().split())
-        typer.echo(f"synth: error: {msg} (see synth --help)", err=True)
-        sys.exit(EXIT_BAD_INPUT)
+        _say(f"synth: error: {msg} (see synth --help)")
+        _finish(EXIT_BAD_INPUT)
     except clickex.ClickException as err:
-        typer.echo(f"synth: error: {' '.join(err.format_message().split())}", err=True)
-        sys.exit(EXIT_BAD_INPUT)
+        _say(f"synth: error: {' '.join(err.format_message().split())}")
+        _finish(EXIT_BAD_INPUT)
     except typer.Exit as err:
-        sys.exit(err.exit_code)
-    except (typer.Abort, KeyboardInterrupt):
-        typer.echo("synth: interrupted", err=True)
-        sys.exit(130)
+        _finish(err.exit_code)
+    except (typer.Abort, KeyboardInterrupt) as err:
+        # an interrupt outside a command body (while click parses, say)
+        cause = err.__cause__ if isinstance(err, typer.Abort) else err
+        signum = getattr(cause, "signum", signal.SIGINT)
+        _say("synth: interrupted; nothing written")
+        _finish(128 + int(signum))
     except BrokenPipeError:
-        sys.exit(0)
+        _finish(0)
     except Exception as err:  # a bug: say so in one line; SYNTH_DEBUG=1 shows the traceback
         if os.environ.get("SYNTH_DEBUG"):
             raise
-        typer.echo(f"synth: internal error ({type(err).__name__}: {err}); please report it "
-                   "with the input file (set SYNTH_DEBUG=1 for details)", err=True)
-        sys.exit(1)
-    sys.exit(rv if isinstance(rv, int) else 0)
+        _say(f"synth: internal error ({type(err).__name__}: {err}); please report it "
+             "with the input file (set SYNTH_DEBUG=1 for details)")
+        _finish(1)
+    _finish(rv if isinstance(rv, int) else 0)
 
 
 if __name__ == "__main__":  # pragma: no cover

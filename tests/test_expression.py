@@ -129,8 +129,11 @@ def test_random_products_match_numpy_polymul(nfacs, dfacs, gain):
     np.testing.assert_allclose(den, ref_den, rtol=1e-12)
 
 
-@given(st.lists(st.floats(-5, 5, allow_subnormal=False), min_size=1, max_size=5),
-       st.lists(st.floats(-5, 5, allow_subnormal=False), min_size=1, max_size=5))
+# numbers are 0 or of magnitude >= 1e-100 (docs/requirements-file.md, Limits)
+_COEF = st.floats(-5, 5, allow_subnormal=False).filter(lambda x: x == 0 or abs(x) >= 1e-100)
+
+
+@given(st.lists(_COEF, min_size=1, max_size=5), st.lists(_COEF, min_size=1, max_size=5))
 @settings(max_examples=60, deadline=None)
 def test_sum_of_terms_evaluates_like_numpy_polyval(a, b):
     # N(s)/D(s) written term by term: compare the value at a test point with numpy.polyval.
@@ -183,7 +186,7 @@ def test_sum_of_terms_evaluates_like_numpy_polyval(a, b):
         ("s = 1", "unexpected character '='"),
         ("٣s", "unexpected character"),
         ("2j", "unknown name 'j'"),
-        ("((s+1)^50)^50", "degree exceeds"),
+        ("((s+1)^20)^2", "degree exceeds"),
         ("(" * 100 + "s" + ")" * 100, "nested too deeply"),
         ("-" * 100 + "s", "nested too deeply"),
         ("s" + "+s" * 1500, "too long"),

@@ -100,7 +100,7 @@ def fact_sentences(facts: StructuralFacts) -> list[str]:
                        f"peak sensitivity at least {f.num(b.bound)}.")
     if facts.delay_peak_t is not None:
         out.append(f"Dead time {f.num(facts.dead_time)} s with the RHP pole at "
-                   f"{f.num(max(p.real for p in facts.unstable_poles))}: peak complementary "
+                   f"{f.num(_delay_pole(facts))}: peak complementary "
                    f"sensitivity at least exp(p theta) = {f.num(facts.delay_peak_t)}.")
     bw = facts.bandwidth
     if bw.upper_from_zero is not None:
@@ -319,3 +319,15 @@ def lag_ratio_needed(g0: float, gains, emax: float) -> float | None:
         need = max(1.0, need)
         best = need if best is None else min(best, need)
     return best
+
+
+def _delay_pole(facts) -> float:
+    """The RHP pole behind ``delay_peak_t = exp(p theta)``.
+
+    It comes from the delay-free poles; when the engine form's roots lose it
+    (a badly scaled plant), it is recovered from the bound itself.
+    """
+    engine = [p.real for p in facts.unstable_poles]
+    if engine:
+        return max(engine)
+    return math.log(facts.delay_peak_t) / facts.dead_time

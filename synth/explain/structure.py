@@ -21,6 +21,7 @@ References
 from __future__ import annotations
 
 import math
+import sys
 from dataclasses import dataclass
 
 import numpy as np
@@ -377,8 +378,11 @@ def structural_facts(plant: Plant) -> StructuralFacts:
         dc = 0.0
     pairs, combined = peak_sensitivity_bounds(rat_zeros, rat_poles)
     ru = rat_poles[in_open_rhp(rat_poles)]
-    delay_t = (float(math.exp(float(np.max(ru.real)) * plant.dead_time))
-               if plant.dead_time > 0 and ru.size else None)
+    delay_t = None
+    if plant.dead_time > 0 and ru.size:
+        # beyond binary64's range the bound exp(p T) is infinite, not an error
+        x = float(np.max(ru.real)) * plant.dead_time
+        delay_t = math.exp(x) if x < math.log(sys.float_info.max) else math.inf
     return StructuralFacts(
         poles=tuple(complex(x) for x in poles), zeros=tuple(complex(x) for x in zeros),
         unstable_poles=tuple(complex(x) for x in unstable),

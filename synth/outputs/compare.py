@@ -119,20 +119,20 @@ def load_design_json(path: str | Path) -> dict:
         JSON object, has a ``schema`` other than ``"synth.design/1"`` or a
         malformed ``designs`` list.
     """
+    from synth.problem.source import read_input_text
+
     source = str(path)
-    try:
-        text = Path(path).read_text(encoding="utf-8")
-    except FileNotFoundError:
-        raise InputError("no such file", source=source) from None
-    except IsADirectoryError:
-        raise InputError("is a folder, not a design JSON file", source=source) from None
-    except (OSError, UnicodeDecodeError) as err:
-        raise InputError(f"cannot read the file ({err.__class__.__name__})",
-                         source=source) from None
+    # regular files only, never blocking; a design run of 64 MiB is far beyond any real one
+    text = read_input_text(path, max_bytes=64 << 20, kind="design JSON file")
     try:
         doc = json.loads(text)
     except json.JSONDecodeError as err:
         raise InputError(f"not valid JSON: {err.msg} at line {err.lineno}, column {err.colno}",
+                         source=source) from None
+    except RecursionError:
+        raise InputError("not a design JSON file: nested too deeply", source=source) from None
+    except ValueError:  # an integer beyond Python's digit limit
+        raise InputError("not a design JSON file: a number has too many digits",
                          source=source) from None
     _check_document(doc, source)
     return doc

@@ -46,24 +46,30 @@ coefficients that vanish to rounding level when two terms cancel (for example
 
 from __future__ import annotations
 
-import math
 import re
 from dataclasses import dataclass
 
 import numpy as np
 
 from synth.errors import InputError
+from synth.problem.limits import MAX_ORDER, check_literal
 
-__all__ = ["parse_rational", "MAX_EXPONENT", "MAX_LENGTH", "MAX_DEGREE", "MAX_DEPTH"]
+__all__ = ["parse_rational", "MAX_EXPONENT", "MAX_LENGTH", "MAX_DEGREE", "MAX_DEPTH",
+           "MAX_TERMS"]
 
-#: Largest magnitude allowed for an integer exponent after ``^``.
-MAX_EXPONENT = 50
+#: Largest degree allowed for the numerator or denominator while building: the
+#: plant's order limit, since nothing is cancelled afterwards.
+MAX_DEGREE = MAX_ORDER
+#: Largest magnitude allowed for an integer exponent after ``^`` (a higher power
+#: of anything but a constant exceeds :data:`MAX_DEGREE`).
+MAX_EXPONENT = MAX_ORDER
 #: Longest expression accepted, in characters.
 MAX_LENGTH = 2000
-#: Largest degree allowed for the numerator or denominator while building.
-MAX_DEGREE = 200
 #: Deepest nesting of parentheses and unary signs accepted.
 MAX_DEPTH = 60
+#: Most terms joined by ``+`` or ``-`` in the whole expression; each sum of
+#: fractions multiplies denominators, so the work grows with the count.
+MAX_TERMS = 200
 
 # A coefficient produced by adding two terms is set to exactly zero when it is
 # this many units of rounding below the magnitude of the terms that produced it.
@@ -162,6 +168,7 @@ class _Parser:
         self.tokens = _tokenize(text)
         self.i = 0
         self.depth = 0
+        self.terms = 1
 
     # -- token helpers -------------------------------------------------------
     def peek(self) -> _Token:
@@ -261,6 +268,10 @@ class _Parser:
         value = self.term()
         while self.is_op(self.peek(), "+-"):
             op = self.take()
+            self.terms += 1
+            if self.terms > MAX_TERMS:
+                raise InputError(f"too many terms at position {op.pos} (at most {MAX_TERMS} "
+                                 "joined by '+' or '-')")
             rhs = self.term()
             if op.text == "-":
                 rhs = _Frac(-rhs.num, rhs.den)
@@ -338,10 +349,13 @@ class _Parser:
             raise InputError(
                 f"the exponent '{tok.text}' at position {tok.pos} must be an integer"
             )
-        k = int(tok.text)
+        # compare digits before int(): a 5000-digit exponent must not reach int()
+        k = int(tok.text) if len(tok.text.lstrip("0")) <= 6 else MAX_EXPONENT + 1
         if k > MAX_EXPONENT:
+            shown = tok.text if len(tok.text) <= 20 else tok.text[:17] + "..."
             raise InputError(
-                f"the exponent {sign * k} at position {tok.pos} is too large (at most {MAX_EXPONENT})"
+                f"the exponent {'-' if sign < 0 else ''}{shown} at position {tok.pos} is too "
+                f"large (at most {MAX_EXPONENT})"
             )
         if paren:
             close = self.peek()
@@ -353,9 +367,7 @@ class _Parser:
     def atom(self) -> _Frac:
         tok = self.take()
         if tok.kind == "num":
-            value = float(tok.text)
-            if not math.isfinite(value):
-                raise InputError(f"the number '{tok.text}' at position {tok.pos} is too large")
+            value = check_literal(tok.text, None, None, f"at position {tok.pos}: ")
             return _Frac(np.array([value]), np.ones(1))
         if tok.kind == "s":
             return _Frac(np.array([1.0, 0.0]), np.ones(1))

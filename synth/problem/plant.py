@@ -10,6 +10,7 @@ delay (see :meth:`Plant.evaluate`).
 
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass
 from functools import cached_property
 
@@ -17,6 +18,7 @@ import numpy as np
 
 from synth.errors import InputError
 from synth.numerics.poly import common_roots, poly_from_roots, trim
+from synth.problem.limits import MAX_COEFFICIENT, MAX_ORDER, check_literal, check_magnitude
 
 
 @dataclass(frozen=True)
@@ -55,6 +57,15 @@ class Plant:
                 raise InputError(f"the {name} has a non-finite coefficient", key=f"plant.{name}")
             if not np.any(p != 0.0):
                 raise InputError(f"the {name} is identically zero", key=f"plant.{name}")
+        for name, p in (("numerator", num), ("denominator", den)):
+            if p.size > MAX_ORDER + 1:
+                raise InputError(f"the {name} has {p.size} coefficients; synth accepts at most "
+                                 f"{MAX_ORDER + 1} (order {MAX_ORDER})", key=f"plant.{name}")
+            big = float(np.max(np.abs(p)))
+            if big > MAX_COEFFICIENT:
+                raise InputError(f"the {name} has a coefficient of magnitude {big:.3g}; synth "
+                                 f"accepts at most {MAX_COEFFICIENT:g}, to leave room for the "
+                                 "loop's arithmetic", key=f"plant.{name}")
         num, den = trim(num), trim(den)
         if num.size > den.size:
             raise InputError(
@@ -65,8 +76,10 @@ class Plant:
         if not (1 <= int(pade_order) <= 10):
             raise InputError("dead_time_order must be an integer from 1 to 10",
                              key="plant.dead_time_order")
-        return cls(tuple(float(x) for x in num), tuple(float(x) for x in den),
-                   float(dead_time), int(pade_order), str(label))
+        plant = cls(tuple(float(x) for x in num), tuple(float(x) for x in den),
+                    float(dead_time), int(pade_order), str(label))
+        plant._check_engine_range()
+        return plant
 
     @classmethod
     def from_roots(cls, zeros, poles, gain: float, **kw) -> Plant:
@@ -79,7 +92,14 @@ class Plant:
         p = _expand_conjugates(poles, "plant.poles")
         if not np.isfinite(gain) or gain == 0.0:
             raise InputError("gain must be a finite non-zero number", key="plant.gain")
-        return cls.from_coefficients(poly_from_roots(z, gain), poly_from_roots(p), **kw)
+        with np.errstate(over="ignore", invalid="ignore", under="ignore"):
+            num, den = poly_from_roots(z, gain), poly_from_roots(p)
+        for name, poly in (("zeros", num), ("poles", den)):
+            if not np.all(np.isfinite(poly)):
+                raise InputError("multiplied out, these give coefficients beyond double "
+                                 f"precision's range (above {MAX_COEFFICIENT:g})",
+                                 key=f"plant.{name}")
+        return cls.from_coefficients(num, den, **kw)
 
     @classmethod
     def from_expression(cls, text: str, **kw) -> Plant:
@@ -95,6 +115,9 @@ class Plant:
     # -- derived forms ------------------------------------------------------------
     @cached_property
     def _engine(self) -> tuple[np.ndarray, np.ndarray]:
+        return self._engine_unchecked()
+
+    def _engine_unchecked(self) -> tuple[np.ndarray, np.ndarray]:
         num, den = np.asarray(self.numerator), np.asarray(self.denominator)
         if self.dead_time > 0.0:
             from synth.problem.delay import pade
@@ -104,6 +127,28 @@ class Plant:
         # Normalise so the denominator is monic: keeps coefficient scales sane.
         lead = den[0]
         return trim(num / lead), trim(den / lead)
+
+    def _check_engine_range(self) -> None:
+        """Refuse a plant whose engine form double precision cannot hold.
+
+        The Pade form multiplies coefficients by powers of the dead time; a
+        coefficient that overflows, or that normalisation pushes below the
+        smallest magnitude kept with full precision, would change the plant
+        silently (a pole that moves to the origin, a term that vanishes).
+        """
+        with np.errstate(over="ignore", invalid="ignore", divide="ignore", under="ignore"):
+            parts = self._engine_unchecked()
+        for name, p in zip(("numerator", "denominator"), parts, strict=True):
+            mags = np.abs(p[p != 0.0])
+            if (not np.all(np.isfinite(p)) or mags.size == 0
+                    or mags.max() > MAX_COEFFICIENT or mags.min() < 1.0 / MAX_COEFFICIENT):
+                what = (f"with the dead time {self.dead_time:g} s at Pade order {self.pade_order}"
+                        if self.dead_time else "normalised to a monic denominator")
+                raise InputError(
+                    f"the plant's {name} {what} has coefficients beyond the range synth "
+                    f"accepts (magnitudes from {1.0 / MAX_COEFFICIENT:g} to "
+                    f"{MAX_COEFFICIENT:g}); rescale time or gain units",
+                    key="plant.dead_time" if self.dead_time else f"plant.{name}")
 
     @property
     def num(self) -> np.ndarray:
@@ -189,26 +234,43 @@ class Plant:
         return out
 
 
+_LITERAL = re.compile(r"(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?")
+
+
 def _expand_conjugates(values, key: str) -> np.ndarray:
     """Parse zeros/poles entries (numbers or ``"a+bj"`` strings) and add missing conjugates."""
     if not isinstance(values, (list, tuple)):
         raise InputError("must be a list of numbers or complex strings like \"-1+2j\"", key=key)
+    # each complex entry may stand for two roots; count before converting anything
+    if len(values) > MAX_ORDER:
+        raise InputError(f"has {len(values)} entries; synth accepts at most {MAX_ORDER} "
+                         f"(order {MAX_ORDER})", key=key)
     out: list[complex] = []
     for i, v in enumerate(values):
         if isinstance(v, bool):
             raise InputError(f"entry {i + 1} is a boolean, not a number", key=key)
         if isinstance(v, (int, float)):
+            if isinstance(v, float) and not np.isfinite(v):
+                raise InputError(f"entry {i + 1} is not finite", key=key)
+            check_magnitude(v, None, key, f"entry {i + 1}: ")
             z = complex(float(v))
         elif isinstance(v, str):
+            text = v.replace(" ", "").replace("i", "j")
             try:
-                z = complex(v.replace(" ", "").replace("i", "j"))
+                z = complex(text) if len(text) <= 64 else None
             except ValueError:
-                raise InputError(f"entry {i + 1} ({v!r}) is not a complex number like \"-1+2j\"",
-                                 key=key) from None
+                z = None
+            if z is None:
+                shown = v if len(v) <= 40 else v[:37] + "..."
+                raise InputError(f"entry {i + 1} ({shown!r}) is not a complex number like "
+                                 "\"-1+2j\"", key=key) from None
+            if not (np.isfinite(z.real) and np.isfinite(z.imag)):
+                raise InputError(f"entry {i + 1} is not finite", key=key)
+            # a part written as 1e-400 reads as 0: refuse it rather than move the root
+            for literal in _LITERAL.findall(text):
+                check_literal(literal, None, key, f"entry {i + 1}: ")
         else:
             raise InputError(f"entry {i + 1} is not a number", key=key)
-        if not (np.isfinite(z.real) and np.isfinite(z.imag)):
-            raise InputError(f"entry {i + 1} is not finite", key=key)
         out.append(z)
     result: list[complex] = []
     pending = list(out)
@@ -223,6 +285,9 @@ def _expand_conjugates(values, key: str) -> np.ndarray:
                     pending.pop(j)
                     break
             result.append(c)
+    if len(result) > MAX_ORDER:
+        raise InputError(f"give {len(result)} roots with their conjugates; synth accepts at most "
+                         f"{MAX_ORDER} (order {MAX_ORDER})", key=key)
     return np.asarray(result, dtype=complex)
 
 

@@ -27,14 +27,26 @@ from __future__ import annotations
 
 import difflib
 import math
+import sys
 import tomllib
 from dataclasses import dataclass, field
-from pathlib import Path
 from typing import Any
 
 from synth.errors import InputError
+from synth.problem.limits import (
+    MAX_MAGNITUDE,
+    MAX_NESTING,
+    MAX_ORDER,
+    MAX_TEXT,
+    check_magnitude,
+    check_nesting,
+    check_time_scales,
+    describe_number,
+    parse_toml_float,
+)
 from synth.problem.plant import Plant
 from synth.problem.region import Region, damping_from_overshoot, decay_rate_from_settling
+from synth.problem.source import read_input_text
 
 #: Structure families known to the search, in order of simplicity.
 STRUCTURES = ("P", "PI", "PD", "PID", "lead", "lag", "lead-lag", "general")
@@ -120,37 +132,52 @@ class Problem:
 
 def _num(v, src, key, *, lo=None, hi=None, lo_open=False, hi_open=False, integer=False):
     if isinstance(v, bool) or not isinstance(v, (int, float)):
-        raise InputError(f"must be a number, got {type(v).__name__} {v!r}", src, key)
+        raise InputError(f"must be a number, got {type(v).__name__} {_short(v)}", src, key)
     if integer and not isinstance(v, int):
         raise InputError(f"must be a whole number, got {v!r}", src, key)
-    if not math.isfinite(v):
+    if isinstance(v, float) and not math.isfinite(v):  # (an int is finite, and may be huge)
         raise InputError(f"must be finite, got {v!r}", src, key)
+    if not integer:  # whole-number keys have their own ranges ("must be <= 3")
+        check_magnitude(v, src, key)
     if lo is not None and (v < lo or (lo_open and v == lo)):
-        raise InputError(f"must be {'>' if lo_open else '>='} {lo:g}, got {v:g}", src, key)
+        raise InputError(f"must be {'>' if lo_open else '>='} {lo:g}, got {describe_number(v)}",
+                         src, key)
     if hi is not None and (v > hi or (hi_open and v == hi)):
-        raise InputError(f"must be {'<' if hi_open else '<='} {hi:g}, got {v:g}", src, key)
+        raise InputError(f"must be {'<' if hi_open else '<='} {hi:g}, got {describe_number(v)}",
+                         src, key)
     return int(v) if integer else float(v)
 
 
-def _numlist(v, src, key, *, nonempty=True):
+def _short(v, limit: int = 40) -> str:
+    """``repr`` of a value for a message, cut to ``limit`` characters (a 1 MB string stays short)."""
+    if isinstance(v, (list, dict)):
+        return f"with {len(v)} entries"
+    text = repr(v)
+    return text if len(text) <= limit else text[: limit - 3] + "..."
+
+
+def _numlist(v, src, key, *, nonempty=True, max_len=None):
     if not isinstance(v, list):
         raise InputError(f"must be a list of numbers, got {type(v).__name__}", src, key)
     if nonempty and not v:
         raise InputError("must not be empty", src, key)
+    if max_len is not None and len(v) > max_len:
+        raise InputError(f"has {len(v)} entries; synth accepts at most {max_len}", src, key)
     out = []
     for i, x in enumerate(v):
         if isinstance(x, bool) or not isinstance(x, (int, float)):
-            raise InputError(f"entry {i + 1} must be a number, got {x!r}", src, key)
-        if not math.isfinite(x):
+            raise InputError(f"entry {i + 1} must be a number, got {_short(x)}", src, key)
+        if isinstance(x, float) and not math.isfinite(x):
             raise InputError(f"entry {i + 1} must be finite, got {x!r}", src, key)
+        check_magnitude(x, src, key, f"entry {i + 1}: ")
         out.append(float(x))
     return out
 
 
 def _range(v, src, key, *, positive=False):
+    if isinstance(v, list) and len(v) != 2:
+        raise InputError(f"must be a list of two numbers [low, high], got {len(v)}", src, key)
     vals = _numlist(v, src, key)
-    if len(vals) != 2:
-        raise InputError(f"must be a list of two numbers [low, high], got {len(vals)}", src, key)
     lo, hi = vals
     if not lo < hi:
         raise InputError(f"is an empty range: low {lo:g} must be below high {hi:g}", src, key)
@@ -194,7 +221,8 @@ _SEARCH_SPEC = {
     "structures": _structures,
     "general_order": lambda v, s, k: _num(v, s, k, lo=1, hi=3, integer=True),
     "max_frequency": lambda v, s, k: _num(v, s, k, lo=0, lo_open=True),
-    "seed": lambda v, s, k: _num(v, s, k, lo=0, integer=True),
+    # a seed fits a signed 64-bit integer, so every consumer (numpy, JSON readers) takes it
+    "seed": lambda v, s, k: _num(v, s, k, lo=0, hi=2**63 - 1, integer=True),
     "keep": lambda v, s, k: _num(v, s, k, lo=1, hi=1000, integer=True),
     "time_budget": lambda v, s, k: _num(v, s, k, lo=0, lo_open=True, hi=3600),
 }
@@ -210,9 +238,11 @@ def _table(doc, name, src):
 def _unknown(table, allowed, src, prefix):
     for k in table:
         if k not in allowed:
-            close = difflib.get_close_matches(k, sorted(allowed), n=1, cutoff=0.6)
+            close = (difflib.get_close_matches(k, sorted(allowed), n=1, cutoff=0.6)
+                     if len(k) <= 100 else [])
             hint = f" (did you mean {close[0]!r}?)" if close else ""
-            raise InputError(f"unknown key{hint}", src, f"{prefix}{k}")
+            name = k if len(k) <= 60 else f"{k[:57]}..."  # a key of a megabyte stays short
+            raise InputError(f"unknown key{hint}", src, f"{prefix}{name}")
 
 
 def _parse_plant(t: dict, src: str) -> Plant:
@@ -232,6 +262,11 @@ def _parse_plant(t: dict, src: str) -> Plant:
     label = t.get("label", "")
     if not isinstance(label, str):
         raise InputError("must be text", src, "plant.label")
+    if len(label) > MAX_TEXT:
+        raise InputError(f"is {len(label)} characters long; at most {MAX_TEXT}", src, "plant.label")
+    if not label.isprintable():
+        raise InputError("must be one line of printable text (no control characters)", src,
+                         "plant.label")
     dead = _num(t.get("dead_time", 0.0), src, "plant.dead_time", lo=0)
     order = _num(t.get("dead_time_order", 3), src, "plant.dead_time_order", lo=1, hi=10,
                  integer=True)
@@ -242,8 +277,10 @@ def _parse_plant(t: dict, src: str) -> Plant:
                 if k not in t:
                     raise InputError("missing; the coefficient form needs both numerator and "
                                      "denominator", src, f"plant.{k}")
-            num = _numlist(t["numerator"], src, "plant.numerator")
-            den = _numlist(t["denominator"], src, "plant.denominator")
+            # leading zeros count: a list longer than any plant the engine takes is refused
+            # before a single entry is converted
+            num = _numlist(t["numerator"], src, "plant.numerator", max_len=MAX_ORDER + 1)
+            den = _numlist(t["denominator"], src, "plant.denominator", max_len=MAX_ORDER + 1)
             return Plant.from_coefficients(num, den, **kw)
         if forms[0] == "zeros/poles/gain":
             if "poles" not in t:
@@ -259,6 +296,42 @@ def _parse_plant(t: dict, src: str) -> Plant:
         if err.source is None:
             raise InputError(err.message, src, err.key or "plant") from None
         raise
+
+
+def _rates(plant: Plant, req: Requirements) -> dict[str, float]:
+    """The problem's characteristic rates (1/s), named by the key that sets each.
+
+    The plant's non-zero pole and zero magnitudes, the fastest Pade pole of
+    its dead time, the decay rate the settling limit asks for and the
+    bandwidth the rise-time limit implies; :func:`check_time_scales` bounds
+    their spread.
+    """
+    import numpy as np
+
+    rates: dict[str, float] = {}
+
+    def put(name, values):
+        values = [float(v) for v in values if v > 0 and np.isfinite(v)]
+        if values:
+            rates[f"{name} (slowest)"] = min(values)
+            rates[f"{name} (fastest)"] = max(values)
+
+    for which, poly in (("zeros", plant.rational_num), ("poles", plant.rational_den)):
+        if poly.size > 1:
+            put(f"plant {which}", np.abs(np.roots(poly)))
+    if plant.dead_time > 0:
+        from synth.problem.delay import pade
+
+        # the Pade poles of exp(-sT) are those of exp(-s) divided by T (no powers of T formed)
+        unit = np.abs(np.roots(pade(1.0, plant.pade_order)[1]))
+        put("plant.dead_time", unit / plant.dead_time)
+    if req.max_settling_time is not None:
+        put("requirements.max_settling_time",
+            [math.log(100.0 / req.settling_band_percent) / req.max_settling_time])
+    if req.max_rise_time is not None:
+        # 10-90 % rise time of a first-order lag is ln(9) times its time constant
+        put("requirements.max_rise_time", [math.log(9.0) / req.max_rise_time])
+    return rates
 
 
 def parse_problem(doc: dict, source: str = "<string>") -> Problem:
@@ -288,15 +361,32 @@ def parse_problem(doc: dict, source: str = "<string>") -> Problem:
     st = _table(doc, "search", src)
     _unknown(st, set(_SEARCH_SPEC), src, "search.")
     search = SearchSettings(**{k: _SEARCH_SPEC[k](v, src, f"search.{k}") for k, v in st.items()})
+    check_time_scales(_rates(plant, req), src)
     return Problem(plant=plant, requirements=req, search=search, source=src)
 
 
 def problem_from_text(text: str, source: str = "<string>") -> Problem:
-    """Parse TOML text into a :class:`Problem`."""
+    """Parse TOML text into a :class:`Problem`.
+
+    Raises
+    ------
+    InputError
+        When the text is not TOML, nests deeper than the limits, or is not a
+        valid requirements document.
+    """
     try:
-        doc = tomllib.loads(text)
+        doc = tomllib.loads(text, parse_float=parse_toml_float)
+    except RecursionError:
+        # tomllib parses nested arrays recursively; depth far beyond any schema
+        raise InputError(f"not valid TOML for synth: arrays or tables nested too deeply (at "
+                         f"most {MAX_NESTING} levels)", source) from None
     except tomllib.TOMLDecodeError as err:
         raise InputError(f"not valid TOML: {err}", source) from None
+    except ValueError:
+        # int() refuses integers of more than sys.get_int_max_str_digits() digits
+        raise InputError(f"an integer has more than {sys.get_int_max_str_digits()} digits "
+                         f"(synth accepts magnitudes up to {MAX_MAGNITUDE:g})", source) from None
+    check_nesting(doc, source)
     return parse_problem(doc, source)
 
 
@@ -306,20 +396,8 @@ def load_problem(path) -> Problem:
     Raises
     ------
     InputError
-        When the file cannot be read, is not TOML or is invalid.
+        When the file cannot be read, is not a regular file, is larger than
+        :data:`synth.problem.limits.MAX_FILE_BYTES`, is not UTF-8 TOML or is
+        invalid.
     """
-    p = Path(path)
-    src = str(path)
-    try:
-        raw = p.read_bytes()
-    except FileNotFoundError:
-        raise InputError("no such file", src) from None
-    except IsADirectoryError:
-        raise InputError("is a directory, not a requirements file", src) from None
-    except OSError as err:
-        raise InputError(f"cannot be read: {err.strerror or err}", src) from None
-    try:
-        text = raw.decode("utf-8")
-    except UnicodeDecodeError:
-        raise InputError("is not UTF-8 text", src) from None
-    return problem_from_text(text, src)
+    return problem_from_text(read_input_text(path), str(path))

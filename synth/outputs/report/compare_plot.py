@@ -231,15 +231,10 @@ def plot_step_overlay(runs: list[tuple[str, dict]], path: str | Path, top: int =
             ax.text(0.5, 0.5, "no designs to draw", transform=ax.transAxes, ha="center",
                     color=_MUTED)
         fig.tight_layout()
-        # write whole or not at all
-        tmp = path.with_name(path.name + ".part")
-        try:
+        from synth.outputs.files import atomic_file
+
+        with atomic_file(path) as tmp:  # whole or not at all
             fig.savefig(tmp, format=suffix[1:])
-            tmp.replace(path)
-        except OSError as err:
-            tmp.unlink(missing_ok=True)
-            raise InputError(f"cannot write the picture ({err.strerror or err})",
-                             source=str(path)) from None
     finally:
         plt.close(fig)
     return path

@@ -19,7 +19,6 @@ from __future__ import annotations
 
 import html
 import math
-import os
 import re
 import tempfile
 import textwrap
@@ -29,7 +28,7 @@ from pathlib import Path
 
 import numpy as np
 
-from synth.errors import InputError, OptionError
+from synth.errors import InputError
 
 __all__ = ["CAUTIONS", "SECTION_TITLES", "FIGURE_KINDS", "build_sections", "write_report"]
 
@@ -1045,41 +1044,20 @@ def write_report(problem, doc: dict, outdir) -> list[Path]:
 
     Notes
     -----
-    Both files are first written under temporary names in ``outdir`` and
-    renamed into place only when both are complete; on any failure the
-    temporary files (and a folder this call created) are removed.
+    Both files are written into a hidden staging folder
+    (:func:`synth.outputs.files.atomic_folder`) and renamed into place only
+    when both are complete; on any failure or interrupt the staging folder is
+    removed, and a folder that did not exist is not created.
     """
+    from synth.outputs.files import atomic_folder, check_output_folder, interrupt_point
+
     out = Path(outdir)
-    if out.exists() and not out.is_dir():
-        raise OptionError(f"--report {outdir}: exists and is not a folder")
-    created = not out.exists()
-    try:
-        out.mkdir(parents=True, exist_ok=True)
-    except OSError as err:
-        raise OptionError(f"--report {outdir}: cannot create the folder ({err.strerror})") from None
-    temps: list[Path] = []
-    try:
-        sections = build_sections(problem, doc)
-        title, subtitle = _title(problem)
-        page = render_html(sections, title, subtitle)
-        fd, tmp_html = tempfile.mkstemp(prefix=".report-", suffix=".html", dir=out)
-        temps.append(Path(tmp_html))
-        with os.fdopen(fd, "w", encoding="utf-8") as fh:
-            fh.write(page)
-        fd, tmp_pdf = tempfile.mkstemp(prefix=".report-", suffix=".pdf", dir=out)
-        os.close(fd)
-        temps.append(Path(tmp_pdf))
-        render_pdf(sections, title, subtitle, Path(tmp_pdf))
-        final = [out / "report.html", out / "report.pdf"]
-        for tmp, dest in zip(temps, final, strict=True):
-            os.chmod(tmp, 0o644)
-            os.replace(tmp, dest)
-        temps.clear()
-        return final
-    except OSError as err:
-        raise OptionError(f"--report {outdir}: cannot write the report ({err})") from None
-    finally:
-        for tmp in temps:
-            tmp.unlink(missing_ok=True)
-        if created and out.is_dir() and not any(out.iterdir()):
-            out.rmdir()
+    check_output_folder(out, "--report")
+    sections = build_sections(problem, doc)
+    title, subtitle = _title(problem)
+    page = render_html(sections, title, subtitle)
+    with atomic_folder(out, "--report") as stage:
+        (stage / "report.html").write_text(page, encoding="utf-8")
+        interrupt_point("report")
+        render_pdf(sections, title, subtitle, stage / "report.pdf")
+    return [out / "report.html", out / "report.pdf"]

@@ -13,8 +13,6 @@ and drifts.
 from __future__ import annotations
 
 import math
-import os
-import tempfile
 from pathlib import Path
 
 import numpy as np
@@ -291,14 +289,8 @@ def plot_locus(trace, path, region=None, operating_gain: float | None = None,
     folder = target.parent
     if not folder.is_dir():
         raise InputError(f"cannot write {out}: the folder {folder} does not exist")
-    fd, tmp = tempfile.mkstemp(prefix=".synth-plot-", suffix=suffix, dir=folder)
-    os.close(fd)
-    try:
+    from synth.outputs.files import atomic_file
+
+    with atomic_file(target) as tmp:
         fig.savefig(tmp, format=suffix[1:], facecolor="white")
-        os.replace(tmp, target)
-    except OSError as err:
-        raise InputError(f"cannot write {out}: {err.strerror or err}") from None
-    finally:
-        if os.path.exists(tmp):
-            os.remove(tmp)
     return out
