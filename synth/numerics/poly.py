@@ -10,19 +10,19 @@ import numpy as np
 
 from synth.errors import InputError
 
-#: Relative size below which a leading coefficient counts as zero when trimming.
-_TRIM_RTOL = 1e-14
-
-
 def trim(poly) -> np.ndarray:
-    """Return ``poly`` as a float array without leading zeros (at least one entry)."""
+    """Return ``poly`` as a float array without its leading EXACT zeros (at least one entry).
+
+    A coefficient is never dropped for being small next to another: a plant
+    whose coefficients span thirty decades is an ordinary plant in other units
+    (see :mod:`synth.numerics.scaling`).  Code that produces a polynomial by
+    arithmetic and knows a leading coefficient is rounding noise removes it
+    itself, against that computation's own error bound.
+    """
     p = np.atleast_1d(np.asarray(poly, dtype=float))
-    if p.size == 0:
+    nz = np.flatnonzero(p)
+    if nz.size == 0:
         return np.zeros(1)
-    scale = np.max(np.abs(p)) if p.size else 0.0
-    if scale == 0.0:
-        return np.zeros(1)
-    nz = np.flatnonzero(np.abs(p) > _TRIM_RTOL * scale)
     return p[nz[0]:].copy()
 
 
@@ -47,7 +47,7 @@ def coefficients(poly, what: str, *, allow_zero: bool = True, key: str | None = 
     Returns
     -------
     ndarray
-        A fresh float array; only exact zeros are trimmed (unlike :func:`trim`).
+        A fresh float array; only exact zeros are trimmed (as :func:`trim`).
 
     Raises
     ------
