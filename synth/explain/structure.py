@@ -26,6 +26,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from synth.numerics.poly import trim
+from synth.numerics.scaling import LoopScaling, root_uncertainty
 from synth.outputs.jsonout import root_pairs
 from synth.problem.plant import Plant
 
@@ -34,10 +35,14 @@ AXIS_RTOL = 1e-9
 #: a root whose imaginary part is within this fraction of its size counts as real
 #: (loose on purpose: repeated real roots come back from numpy.roots split by ~sqrt(eps))
 REAL_RTOL = 1e-6
+#: parts of a root below this many rounding uncertainties are exactly zero
+_SNAP = 10.0
 
 
 def _scale(z) -> np.ndarray:
-    return np.maximum(1.0, np.abs(z))
+    # relative to each root's own size: roots come from :func:`roots_of`, which
+    # already put a part that double precision cannot tell from zero at exactly 0
+    return np.abs(z)
 
 
 def is_real(z) -> np.ndarray:
@@ -59,9 +64,24 @@ def in_open_rhp(z) -> np.ndarray:
 
 
 def roots_of(poly) -> np.ndarray:
-    """Roots of a polynomial (empty for a constant); exact zeros for trailing zero coefficients."""
+    """Roots of a polynomial (empty for a constant); exact zeros for trailing zero coefficients.
+
+    Computed on the power-of-two scaled polynomial (:mod:`synth.numerics.scaling`)
+    and mapped back exactly.  A real or imaginary part smaller than the
+    root's rounding uncertainty (:func:`synth.numerics.scaling.root_uncertainty`,
+    times :data:`_SNAP`) is set to exactly zero: double precision cannot tell
+    it from zero, so no verdict may hang on its sign.
+    """
     p = trim(poly)
-    return np.roots(p) if p.size > 1 else np.zeros(0, complex)
+    if p.size < 2:
+        return np.zeros(0, complex)
+    sc = LoopScaling.for_poly(p)
+    ps = sc.den(p)
+    z = np.roots(ps).astype(complex)
+    err = _SNAP * root_uncertainty(ps, z)
+    z = np.where(np.abs(z.real) <= err, 1j * z.imag, z)
+    z = np.where(np.abs(z.imag) <= err, z.real + 0j, z)
+    return sc.point_out(z)
 
 
 def _tidy(z: np.ndarray) -> np.ndarray:
@@ -354,8 +374,8 @@ def _trailing_zeros(p: np.ndarray) -> int:
 
 def structural_facts(plant: Plant) -> StructuralFacts:
     """Collect the :class:`StructuralFacts` of ``plant``."""
-    poles = _tidy(plant.poles())
-    zeros = _tidy(plant.zeros())
+    poles = _tidy(roots_of(plant.den))
+    zeros = _tidy(roots_of(plant.num))
     rat_zeros = _tidy(roots_of(plant.rational_num))
     rat_poles = _tidy(roots_of(plant.rational_den))
     unstable = poles[in_open_rhp(poles)]
@@ -403,7 +423,7 @@ def _minus(a: np.ndarray, b: np.ndarray) -> np.ndarray:
         if rest:
             d = np.abs(np.asarray(rest) - x)
             j = int(np.argmin(d))
-            if d[j] <= 1e-6 * max(1.0, abs(x)):
+            if d[j] <= 1e-6 * abs(x):
                 rest.pop(j)
                 continue
         out.append(x)

@@ -10,6 +10,7 @@ import numpy as np
 
 from synth.errors import InputError
 
+
 def trim(poly) -> np.ndarray:
     """Return ``poly`` as a float array without its leading EXACT zeros (at least one entry).
 
