@@ -60,7 +60,7 @@ from synth.explain.gain import (
     zero_reason,
 )
 from synth.explain.structure import StructuralFacts, structural_facts
-from synth.locus.core import region_gain_intervals, stable_gain_intervals
+from synth.locus.core import marginal_intervals, region_gain_intervals, stable_gain_intervals
 from synth.numerics.scaling import LoopScaling
 from synth.outputs.jsonout import clean, finite_or_none, interval_lists
 from synth.problem.plant import Plant
@@ -302,6 +302,10 @@ class Explanation:
                 "best": None if self.best is None else self.best.to_json(),
             },
             "strongly_stabilizable": bool(self.strongly_stabilizable),
+            "strongly_stabilizable_uncertain": bool(self.facts.strong_stabilizability_uncertain),
+            "numerically_marginal_gain_intervals": interval_lists(
+                marginal_intervals(self.stabilizing_gain_intervals)
+                + marginal_intervals(self.requirement_gain_intervals)),
             "reasons": self.reasons,
             "reason_details": [r.to_json() for r in self.reason_details],
             "region": {"decay_rate": self.region.sigma, "damping": self.region.zeta,
@@ -341,6 +345,11 @@ class Explanation:
                          f"{f.intervals(self.robust_stabilizing, none='none')}")
         lines.append(f"  passes every check here: "
                      f"{f.intervals(self.candidate_gain_intervals, none='none')}")
+        thin = (marginal_intervals(self.stabilizing_gain_intervals)
+                + marginal_intervals(self.requirement_gain_intervals))
+        if thin:
+            lines.append(f"  numerically marginal (narrower than double precision can resolve): "
+                         f"{f.intervals(thin)}")
         lines.append("")
         lines.append("Why")
         lines.extend(f"  - {r}" for r in self.reasons)

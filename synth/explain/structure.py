@@ -37,6 +37,9 @@ AXIS_RTOL = 1e-9
 REAL_RTOL = 1e-6
 #: parts of a root below this many rounding uncertainties are exactly zero
 _SNAP = 10.0
+#: a pole within this many (summed) rounding uncertainties of a real RHP zero may be on
+#: either side of it: the parity count is then numerically uncertain
+_NEAR = 100.0
 
 
 def _scale(z) -> np.ndarray:
@@ -72,16 +75,27 @@ def roots_of(poly) -> np.ndarray:
     times :data:`_SNAP`) is set to exactly zero: double precision cannot tell
     it from zero, so no verdict may hang on its sign.
     """
+    return roots_with_uncertainty(poly)[0]
+
+
+def roots_with_uncertainty(poly) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`roots_of` and each root's rounding uncertainty (same units).
+
+    References
+    ----------
+    J. H. Wilkinson, *Rounding Errors in Algebraic Processes*, 1963, ch. 2.
+    """
     p = trim(poly)
     if p.size < 2:
-        return np.zeros(0, complex)
+        return np.zeros(0, complex), np.zeros(0)
     sc = LoopScaling.for_poly(p)
     ps = sc.den(p)
     z = np.roots(ps).astype(complex)
-    err = _SNAP * root_uncertainty(ps, z)
+    unc = root_uncertainty(ps, z)
+    err = _SNAP * unc
     z = np.where(np.abs(z.real) <= err, 1j * z.imag, z)
     z = np.where(np.abs(z.imag) <= err, z.real + 0j, z)
-    return sc.point_out(z)
+    return sc.point_out(z), sc.w0 * unc
 
 
 def _tidy(z: np.ndarray) -> np.ndarray:
@@ -116,6 +130,16 @@ class ParityCheck:
     pole_counts: tuple[int, ...]
     holds: bool
     odd_intervals: tuple[tuple[float, float | None], ...]
+    near_pairs: tuple[tuple[float, complex], ...] = ()
+
+    @property
+    def uncertain(self) -> bool:
+        """A real RHP zero and a pole are closer than double precision can order them.
+
+        Then moving the pole across the zero by less than its rounding
+        uncertainty would flip :attr:`holds`: the verdict is numerically uncertain.
+        """
+        return bool(self.near_pairs)
 
     @property
     def min_unstable_compensator_poles(self) -> int:
@@ -125,7 +149,10 @@ class ParityCheck:
         return {"zeros": list(self.zeros), "pole_counts": list(self.pole_counts),
                 "holds": self.holds,
                 "odd_intervals": [list(iv) for iv in self.odd_intervals],
-                "min_unstable_compensator_poles": self.min_unstable_compensator_poles}
+                "min_unstable_compensator_poles": self.min_unstable_compensator_poles,
+                "numerically_uncertain": self.uncertain,
+                "near_pole_zero_pairs": [{"zero": z, "pole": [p.real, p.imag]}
+                                         for z, p in self.near_pairs]}
 
 
 def parity_interlacing(num, den) -> ParityCheck:
@@ -161,8 +188,8 @@ def parity_interlacing(num, den) -> ParityCheck:
        Theory*, 1992, ch. 5 (from memory).
     """
     n, d = trim(num), trim(den)
-    zr = roots_of(n)
-    pr = roots_of(d)
+    zr, zu = roots_with_uncertainty(n)
+    pr, pu = roots_with_uncertainty(d)
     mask = is_real(zr) & in_closed_rhp(zr)
     real_zeros = np.sort(np.maximum(zr[mask].real, 0.0))
     zeros: list[float | None] = [float(x) for x in real_zeros]
@@ -177,7 +204,15 @@ def parity_interlacing(num, den) -> ParityCheck:
         counts.append(c)
         if c % 2:
             odd.append((a, b))
-    return ParityCheck(tuple(zeros), tuple(counts), not odd, tuple(odd))
+    # a pole that rounding could move across a real RHP zero makes the count's parity unknowable
+    near: list[tuple[float, complex]] = []
+    for z, e in zip(zr[mask], zu[mask], strict=True):
+        if pr.size == 0:
+            break
+        gap = np.abs(pr - z)
+        for j in np.flatnonzero(gap <= _NEAR * (e + pu)):
+            near.append((float(max(z.real, 0.0)), complex(pr[j])))
+    return ParityCheck(tuple(zeros), tuple(counts), not odd, tuple(odd), tuple(near))
 
 
 @dataclass(frozen=True)
@@ -331,6 +366,11 @@ class StructuralFacts:
     @property
     def strongly_stabilizable(self) -> bool:
         return self.stabilizable and self.parity.holds
+
+    @property
+    def strong_stabilizability_uncertain(self) -> bool:
+        """The parity verdict rests on a pole-zero order that double precision cannot fix."""
+        return self.stabilizable and self.parity.uncertain
 
     @property
     def peak_sensitivity_lower_bound(self) -> float | None:
