@@ -79,22 +79,54 @@ def poly_from_roots(roots, gain: float = 1.0) -> np.ndarray:
     return gain * np.real(p)
 
 
+def scaled_roots(poly) -> np.ndarray:
+    """Roots of a real polynomial, computed on its power-of-two scaled form.
+
+    ``p(w0 z)`` with ``w0`` the geometric-mean root magnitude has balanced
+    coefficients; its roots times ``w0`` are the roots of ``p`` (the scaling
+    is exact). Roots at the origin (trailing zeros) are exact zeros.
+
+    References
+    ----------
+    J. H. Wilkinson, *Rounding Errors in Algebraic Processes*, 1963, ch. 2.
+    """
+    from synth.numerics.scaling import LoopScaling
+
+    p = trim(poly)
+    if p.size < 2:
+        return np.zeros(0, dtype=complex)
+    sc = LoopScaling.for_poly(p)
+    return sc.point_out(np.roots(sc.den(p)).astype(complex))
+
+
 def common_roots(a, b, rtol: float = 1e-6) -> list[complex]:
     """Roots shared by polynomials ``a`` and ``b`` (within a relative tolerance).
 
-    Used to *report* pole-zero cancellations; synth never cancels them.
+    Two roots are shared when they differ by at most ``rtol`` times the larger
+    of the two (so roots at the origin match only exactly: they are exact
+    zeros), or by less than their rounding uncertainty
+    (:func:`synth.numerics.scaling.root_uncertainty`), which a multiple root
+    needs. Used to *report* pole-zero cancellations; synth never cancels them.
     """
-    ra = np.roots(trim(a))
-    rb = list(np.roots(trim(b)))
+    from synth.numerics.scaling import root_uncertainty
+
+    ra = scaled_roots(a)
+    rb = scaled_roots(b)
+    if ra.size == 0 or rb.size == 0:
+        return []
+    ea = root_uncertainty(trim(a), ra)
+    eb = list(root_uncertainty(trim(b), rb))
+    rb = list(rb)
     shared = []
-    for r in ra:
+    for r, e in zip(ra, ea, strict=True):
         if not rb:
             break
         d = np.abs(np.asarray(rb) - r)
         j = int(np.argmin(d))
-        if d[j] <= rtol * max(1.0, abs(r)):
+        if d[j] <= max(rtol * max(abs(r), abs(rb[j])), 10.0 * (e + eb[j])):
             shared.append(complex(r))
             rb.pop(j)
+            eb.pop(j)
     return shared
 
 
@@ -102,7 +134,7 @@ def format_complex(z: complex, digits: int = 4) -> str:
     """Short readable form of a complex number, e.g. ``-1.5`` or ``-0.5+2j``."""
     z = complex(z)
     fmt = f"{{:.{digits}g}}"
-    if abs(z.imag) <= 1e-12 * max(1.0, abs(z)):
+    if abs(z.imag) <= 1e-12 * abs(z):
         return fmt.format(z.real)
     sign = "+" if z.imag >= 0 else "-"
     return f"{fmt.format(z.real)}{sign}{fmt.format(abs(z.imag))}j"

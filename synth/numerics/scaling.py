@@ -165,7 +165,7 @@ class LoopScaling:
 
     def point_in(self, s):
         """Original s-plane point(s) to scaled ones ``z = s / w0``."""
-        return np.asarray(s, dtype=complex) / self.w0
+        return _times(np.asarray(s, dtype=complex), 1.0 / self.w0)
 
     def region_in(self, region):
         """The region in the scaled plane: decay rate ``sigma / w0``, the same damping."""
@@ -179,12 +179,22 @@ class LoopScaling:
         return np.asarray(k, dtype=float) * self.g0
 
     def point_out(self, z):
-        """Scaled root(s) back to ``s = w0 z``."""
-        return np.asarray(z) * self.w0
+        """Scaled root(s) back to ``s = w0 z`` (a root at complex infinity stays ``inf+0j``)."""
+        return _times(np.asarray(z), self.w0)
 
     def frequency_out(self, w):
         """Scaled frequency (or decay rate) back to rad/s: ``w0 w``."""
         return np.asarray(w, dtype=float) * self.w0
+
+
+def _times(z: np.ndarray, f: float) -> np.ndarray:
+    """``z * f`` for real ``f``, part by part (complex times real must not make ``inf * 0j`` a nan)."""
+    if not np.iscomplexobj(z):
+        return z * f
+    out = np.empty(z.shape, dtype=complex)
+    out.real = z.real * f
+    out.imag = z.imag * f
+    return out if out.ndim else out[()]
 
 
 def horner_error(p, z) -> np.ndarray:
