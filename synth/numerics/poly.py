@@ -103,30 +103,23 @@ def common_roots(a, b, rtol: float = 1e-6) -> list[complex]:
     """Roots shared by polynomials ``a`` and ``b`` (within a relative tolerance).
 
     Two roots are shared when they differ by at most ``rtol`` times the larger
-    of the two (so roots at the origin match only exactly: they are exact
-    zeros), or by less than their rounding uncertainty
-    (:func:`synth.numerics.scaling.root_uncertainty`), which a multiple root
-    needs. Used to *report* pole-zero cancellations; synth never cancels them.
+    of the two, so roots at the origin match only exactly (they are exact
+    zeros) and a slow cancellation at 1e-7 rad/s is found as readily as one at
+    1 rad/s. Roots come from the power-of-two scaled polynomials
+    (:func:`scaled_roots`). Used to *report* pole-zero cancellations; synth
+    never cancels them.
     """
-    from synth.numerics.scaling import root_uncertainty
-
     ra = scaled_roots(a)
-    rb = scaled_roots(b)
-    if ra.size == 0 or rb.size == 0:
-        return []
-    ea = root_uncertainty(trim(a), ra)
-    eb = list(root_uncertainty(trim(b), rb))
-    rb = list(rb)
+    rb = list(scaled_roots(b))
     shared = []
-    for r, e in zip(ra, ea, strict=True):
+    for r in ra:
         if not rb:
             break
         d = np.abs(np.asarray(rb) - r)
         j = int(np.argmin(d))
-        if d[j] <= max(rtol * max(abs(r), abs(rb[j])), 10.0 * (e + eb[j])):
+        if d[j] <= rtol * max(abs(r), abs(rb[j])):
             shared.append(complex(r))
             rb.pop(j)
-            eb.pop(j)
     return shared
 
 
