@@ -187,7 +187,7 @@ def asymptote_facts(num, den, sign: int) -> AsymptoteFacts:
     angles = np.asarray(asym.angles_deg)
     c = np.cos(np.radians(angles))
     vertical = np.abs(c) <= 1e-9
-    tol = 1e-9 * max(1.0, abs(centroid))
+    tol = 1e-9 * max(abs(centroid), LoopScaling.for_loop(n, d).w0)  # the loop's frequency scale
     into = int(np.count_nonzero(c > 1e-9)) + (int(np.count_nonzero(vertical)) if centroid > tol else 0)
     on_axis = bool(np.any(vertical) and abs(centroid) <= tol)
     return AsymptoteFacts(sign, excess, centroid, tuple(float(a) for a in angles), into, on_axis)

@@ -228,7 +228,7 @@ def _real_roots_or_none(poly, positive=True):
         return np.zeros(0)
     r = np.roots(p)
     # a double root comes back from numpy.roots split by about sqrt(eps)
-    if np.any(np.abs(r.imag) > 1e-6 * np.maximum(1.0, np.abs(r))):
+    if np.any(np.abs(r.imag) > 1e-6 * np.abs(r)):
         return None
     a = -r.real
     if positive and np.any(a <= 0):

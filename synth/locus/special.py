@@ -564,7 +564,7 @@ def _breakaways(n, d, ns, ds, rho, kscale):
             continue
         kr = float(kk.real)
         s = complex(z) * rho
-        if abs(z.imag) <= 1e-9 * max(abs(z), 1.0):
+        if abs(z.imag) <= 1e-9 * abs(z):
             s = complex(s.real, 0.0)
             if mu > 1:
                 kind = "multiple"
