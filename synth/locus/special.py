@@ -40,7 +40,7 @@ import numpy as np
 
 from synth.errors import InputError
 from synth.locus.axis import AxisCrossing, axis_crossings_all
-from synth.locus.core import gain_at as _core_gain_at
+from synth.locus.core import gain_at  # noqa: F401  (one gain_at: the engine's)
 from synth.numerics.poly import coefficients
 from synth.numerics.scaling import frequency_scale, horner_error, scale_variable
 
@@ -351,30 +351,6 @@ def _deg_angle(x: np.ndarray) -> np.ndarray:
 # ---------------------------------------------------------------------------
 # public functions
 # ---------------------------------------------------------------------------
-
-
-def gain_at(num, den, s):
-    """Gain ``K = -D(s) / N(s)`` that puts a closed-loop root at ``s``.
-
-    Parameters
-    ----------
-    num, den : array_like
-        Loop polynomials (descending powers).
-    s : complex or array_like of complex
-        Points of the s-plane.
-
-    Returns
-    -------
-    complex or ndarray of complex
-        The gain (complex in general). ``s`` lies on the locus exactly when it
-        is real; at a zero of ``N`` it is ``inf``.
-
-    References
-    ----------
-    W. R. Evans, Trans. AIEE 69, 1950 (the magnitude condition).
-    """
-    n, d = loop_pair(num, den)
-    return _core_gain_at(n, d, s)
 
 
 def asymptotes(num, den, negative: bool = False) -> Asymptotes:
