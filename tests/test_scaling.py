@@ -295,3 +295,15 @@ def test_design_of_a_fast_and_a_slow_plant(w):
         assert np.max(r.real) < 0
         # the settling time scales with the plant: of the order of 3 / w
         assert d["metrics"]["settling_time"] <= 3.0 / w
+
+
+@pytest.mark.parametrize("w", [1e5, 1.0, 1e-4])
+def test_batch_screen_of_a_scaled_plant(w):
+    # 10/((s+1)(s+2)(s+5)) under gain k: s^3 + 8 s^2 + 17 s + 10 (1 + k), stable for
+    # -1 < k < 12.6 (Routh by hand: 8 * 17 > 10 (1 + k)); the same at every time scale
+    from synth.verify.screening import screen_batch
+
+    prob = _scaled_problem(w)
+    ks = np.array([-1.5, -0.9, 0.5, 5.0, 12.5, 12.7, 40.0])
+    res = screen_batch(prob, ks[:, None], np.ones((ks.size, 1)))
+    assert res.stable.tolist() == [bool(-1 < k < 12.6) for k in ks]
