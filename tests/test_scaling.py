@@ -307,3 +307,14 @@ def test_batch_screen_of_a_scaled_plant(w):
     ks = np.array([-1.5, -0.9, 0.5, 5.0, 12.5, 12.7, 40.0])
     res = screen_batch(prob, ks[:, None], np.ones((ks.size, 1)))
     assert res.stable.tolist() == [bool(-1 < k < 12.6) for k in ks]
+
+
+def test_fifth_order_plant_keeps_its_high_gain_band():
+    # found by a random search against exact arithmetic: the engine before scaling
+    # reported only (-0.8726, 44.40) and missed the band K > 1155.85 entirely
+    num = [42212.93572648483, 425625912.3169803, 1583087545237.7056, 45843122838931.24]
+    den = [1.0, 13172.063486303005, 37456215.200767875, 7723046669.9187765,
+           1827511777537.6611, 125773969066360.05]
+    ref = exact_stable_intervals(num, den)
+    assert len(ref) == 2 and ref[1][1] is None
+    _same_intervals(stable_gain_intervals(num, den), ref, rtol=1e-9)
