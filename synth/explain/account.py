@@ -139,8 +139,11 @@ def best_account(num, den, region: Region, req, over,
     def at(opt: Optimum) -> str:
         # a supremum reached only in the limit at the edge of the stable range
         for lo, hi in over:
+            # "at the edge" to the resolution of the search: relative to the interval's
+            # own width (or the loop's gain scale when it is unbounded)
+            width = hi - lo if lo is not None and hi is not None else gscale
             for e in (lo, hi):
-                if e is not None and abs(opt.gain - e) <= 1e-6 * max(abs(e), gscale):
+                if e is not None and abs(opt.gain - e) <= 1e-5 * max(abs(e), width):
                     edge = "stable range" if e in stable_ends else "allowed gain_range"
                     return f"as K approaches {f.num(e)}, the edge of the {edge}"
         return f"at K = {f.num(opt.gain)}"
