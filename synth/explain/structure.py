@@ -25,8 +25,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from synth.numerics.poly import trim
-from synth.numerics.scaling import LoopScaling, root_uncertainty
+from synth.numerics.poly import scaled_roots_with_uncertainty, trim
 from synth.outputs.jsonout import root_pairs
 from synth.problem.plant import Plant
 
@@ -35,8 +34,6 @@ AXIS_RTOL = 1e-9
 #: a root whose imaginary part is within this fraction of its size counts as real
 #: (loose on purpose: repeated real roots come back from numpy.roots split by ~sqrt(eps))
 REAL_RTOL = 1e-6
-#: parts of a root below this many rounding uncertainties are exactly zero
-_SNAP = 10.0
 #: a pole within this many (summed) rounding uncertainties of a real RHP zero may be on
 #: either side of it: the parity count is then numerically uncertain
 _NEAR = 100.0
@@ -69,33 +66,17 @@ def in_open_rhp(z) -> np.ndarray:
 def roots_of(poly) -> np.ndarray:
     """Roots of a polynomial (empty for a constant); exact zeros for trailing zero coefficients.
 
-    Computed on the power-of-two scaled polynomial (:mod:`synth.numerics.scaling`)
-    and mapped back exactly.  A real or imaginary part smaller than the
-    root's rounding uncertainty (:func:`synth.numerics.scaling.root_uncertainty`,
-    times :data:`_SNAP`) is set to exactly zero: double precision cannot tell
-    it from zero, so no verdict may hang on its sign.
+    Computed on the power-of-two scaled polynomial and tidied
+    (:func:`synth.numerics.poly.scaled_roots_with_uncertainty`): a real or
+    imaginary part within rounding of zero is exactly zero, so no verdict may
+    hang on its sign.
     """
     return roots_with_uncertainty(poly)[0]
 
 
 def roots_with_uncertainty(poly) -> tuple[np.ndarray, np.ndarray]:
-    """:func:`roots_of` and each root's rounding uncertainty (same units).
-
-    References
-    ----------
-    J. H. Wilkinson, *Rounding Errors in Algebraic Processes*, 1963, ch. 2.
-    """
-    p = trim(poly)
-    if p.size < 2:
-        return np.zeros(0, complex), np.zeros(0)
-    sc = LoopScaling.for_poly(p)
-    ps = sc.den(p)
-    z = np.roots(ps).astype(complex)
-    unc = root_uncertainty(ps, z)
-    err = _SNAP * unc
-    z = np.where(np.abs(z.real) <= err, 1j * z.imag, z)
-    z = np.where(np.abs(z.imag) <= err, z.real + 0j, z)
-    return sc.point_out(z), sc.w0 * unc
+    """:func:`roots_of` and each root's rounding uncertainty (same units)."""
+    return scaled_roots_with_uncertainty(poly, tidy=True)
 
 
 def _tidy(z: np.ndarray) -> np.ndarray:

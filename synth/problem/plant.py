@@ -17,7 +17,7 @@ from functools import cached_property
 import numpy as np
 
 from synth.errors import InputError
-from synth.numerics.poly import common_roots, poly_from_roots, trim
+from synth.numerics.poly import common_roots, poly_from_roots, scaled_roots_with_uncertainty, trim
 
 
 @dataclass(frozen=True)
@@ -233,7 +233,7 @@ def factor_strings(poly) -> tuple[float, list[str]]:
     k = float(p[0])
     if p.size == 1:
         return k, []
-    roots = np.roots(p)
+    roots = scaled_roots_with_uncertainty(p, tidy=True)[0]  # a split multiple root shows as one
     factors: list[str] = []
     used = np.zeros(roots.size, bool)
     order = np.argsort(-roots.real, kind="stable")
