@@ -23,7 +23,7 @@ def num(x: float, digits: int = 4) -> str:
 def point(z: complex, digits: int = 4) -> str:
     """A pole or zero location: ``2``, ``-1+3j`` or ``±1.414j`` style."""
     z = complex(z)
-    if abs(z.imag) <= 1e-9 * max(1.0, abs(z)):
+    if abs(z.imag) <= 1e-9 * abs(z):
         return num(z.real, digits)
     re = num(z.real, digits)
     im = num(abs(z.imag), digits)
@@ -61,7 +61,7 @@ def points(values, empty: str = "none") -> str:
     shown = []
     for z in values:
         z = complex(z)
-        if z.imag < -1e-9 * max(1.0, abs(z)):
+        if z.imag < -1e-9 * abs(z):
             continue
         shown.append(point(z))
     return ", ".join(shown) if shown else empty

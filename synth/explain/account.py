@@ -60,7 +60,8 @@ from synth.explain.gain import (
     zero_reason,
 )
 from synth.explain.structure import StructuralFacts, structural_facts
-from synth.locus.core import region_gain_intervals, stable_gain_intervals
+from synth.locus.core import marginal_intervals, region_gain_intervals, stable_gain_intervals
+from synth.numerics.scaling import LoopScaling
 from synth.outputs.jsonout import clean, finite_or_none, interval_lists
 from synth.problem.plant import Plant
 from synth.problem.region import Region, overshoot_from_damping
@@ -129,6 +130,7 @@ def best_account(num, den, region: Region, req, over,
     reasons: list[Reason] = []
     short: list[str] = []
     stable = list(over) if stable is None else list(stable)
+    gscale = LoopScaling.for_loop(num, den).g0  # the loop's own gain scale
     limited = list(over) != stable
     scope = "stabilising" + (" and allowed" if limited else "")
     stable_ends = {e for iv in stable for e in iv if e is not None}
@@ -137,14 +139,17 @@ def best_account(num, den, region: Region, req, over,
     def at(opt: Optimum) -> str:
         # a supremum reached only in the limit at the edge of the stable range
         for lo, hi in over:
+            # "at the edge" to the resolution of the search: relative to the interval's
+            # own width (or the loop's gain scale when it is unbounded)
+            width = hi - lo if lo is not None and hi is not None else gscale
             for e in (lo, hi):
-                if e is not None and abs(opt.gain - e) <= 1e-6 * max(1.0, abs(e)):
+                if e is not None and abs(opt.gain - e) <= 1e-5 * max(abs(e), width):
                     edge = "stable range" if e in stable_ends else "allowed gain_range"
                     return f"as K approaches {f.num(e)}, the edge of the {edge}"
         return f"at K = {f.num(opt.gain)}"
 
     if sigma > 0 and not decay_ok:
-        dec = maximise_over(lambda g: decay_and_damping(num, den, g)[0], over)
+        dec = maximise_over(lambda g: decay_and_damping(num, den, g)[0], over, gscale)
         if dec is not None:
             band = req.settling_band_percent
             ts = math.log(100.0 / band) / dec.value if dec.value > 0 else math.inf
@@ -158,7 +163,7 @@ def best_account(num, den, region: Region, req, over,
                  "shortfall": sigma - dec.value, "settling_time": finite_or_none(ts)}))
             short.append(f"best decay rate {f.num(dec.value)} against {f.num(sigma)} needed")
     if zeta > 0 and not damp_ok:
-        dam = maximise_over(lambda g: decay_and_damping(num, den, g)[1], over)
+        dam = maximise_over(lambda g: decay_and_damping(num, den, g)[1], over, gscale)
         if dam is not None:
             src = _damping_source(req, zeta)
             os_ = overshoot_from_damping(max(dam.value, 0.0))
@@ -174,7 +179,7 @@ def best_account(num, den, region: Region, req, over,
         def score(g):
             dd, zz = decay_and_damping(num, den, g)
             return np.minimum(dd / sigma, zz / zeta)
-        comp = maximise_over(score, over)
+        comp = maximise_over(score, over, gscale)
         if comp is not None:
             dv, zv = decay_and_damping(num, den, np.array([comp.gain]))
             cd, cz = float(dv[0]), float(zv[0])
@@ -300,6 +305,10 @@ class Explanation:
                 "best": None if self.best is None else self.best.to_json(),
             },
             "strongly_stabilizable": bool(self.strongly_stabilizable),
+            "strongly_stabilizable_uncertain": bool(self.facts.strong_stabilizability_uncertain),
+            "numerically_marginal_gain_intervals": interval_lists(
+                marginal_intervals(self.stabilizing_gain_intervals)
+                + marginal_intervals(self.requirement_gain_intervals)),
             "reasons": self.reasons,
             "reason_details": [r.to_json() for r in self.reason_details],
             "region": {"decay_rate": self.region.sigma, "damping": self.region.zeta,
@@ -339,6 +348,11 @@ class Explanation:
                          f"{f.intervals(self.robust_stabilizing, none='none')}")
         lines.append(f"  passes every check here: "
                      f"{f.intervals(self.candidate_gain_intervals, none='none')}")
+        thin = (marginal_intervals(self.stabilizing_gain_intervals)
+                + marginal_intervals(self.requirement_gain_intervals))
+        if thin:
+            lines.append(f"  numerically marginal (narrower than double precision can resolve): "
+                         f"{f.intervals(thin)}")
         lines.append("")
         lines.append("Why")
         lines.extend(f"  - {r}" for r in self.reasons)
@@ -381,10 +395,12 @@ def explain_problem(problem) -> Explanation:
     n, d = plant.num, plant.den
     facts = structural_facts(plant)
 
-    kscale = float(np.max(np.abs(d)) / np.max(np.abs(n)))
+    kscale = LoopScaling.for_loop(n, d).g0  # the loop's own gain scale
     stab = _snap(stable_gain_intervals(n, d), kscale)
     reg = stab if region.is_stability_only else _snap(region_gain_intervals(n, d, region), kscale)
     crossings = axis_crossings(n, d)
+    # the same list plus the plant's own axis poles at K = 0, for the stable-range ends
+    edge_crossings = axis_crossings(n, d, open_loop=True)
     kdrop = degree_drop_gain(n, d)
     asym = {s: asymptote_facts(n, d, s) for s in (1, -1)}
     traps = {s: real_axis_traps(n, d, s) for s in (1, -1)}
@@ -451,7 +467,7 @@ def explain_problem(problem) -> Explanation:
         for k, lower in ((lo, True), (hi, False)):
             if k is None:
                 continue
-            r = edge_reason(k, crossings, kdrop, lower, (lo, hi))
+            r = edge_reason(k, edge_crossings, kdrop, lower, (lo, hi))
             if r is not None:
                 reasons.append(r)
 
@@ -584,5 +600,5 @@ def _last_crossing(crossings, sign: int) -> Crossing | None:
 
 
 def _crossing_at(crossings, k: float) -> Crossing | None:
-    cs = [c for c in crossings if abs(c.gain - k) <= 1e-6 * max(1.0, abs(k)) and c.frequency > 0]
+    cs = [c for c in crossings if abs(c.gain - k) <= 1e-6 * abs(k) and c.frequency > 0]
     return max(cs, key=lambda c: c.frequency) if cs else None

@@ -88,6 +88,12 @@ def fact_sentences(facts: StructuralFacts) -> list[str]:
                    f"the real closed-RHP zeros {odd} (parity interlacing fails), so every "
                    f"stabilising compensator must itself be unstable, with at least "
                    f"{f.plural(par.min_unstable_compensator_poles, 'real pole')} in that range.")
+    if facts.strong_stabilizability_uncertain:
+        pairs = "; ".join(f"zero {f.num(z)} and pole {f.point(p)}" for z, p in par.near_pairs)
+        out.append(f"Numerically uncertain: a right-half-plane zero and a pole are closer than "
+                   f"double precision can order them ({pairs}), so the strong-stabilisability "
+                   "verdict above could go either way; treat the pair as (nearly) cancelling and "
+                   "check the model.")
     for b in facts.peak_pairs:
         if not math.isfinite(b.bound):
             continue

@@ -23,8 +23,10 @@ import numpy as np
 
 from synth.explain import _fmt as f
 from synth.explain.structure import in_closed_rhp, in_open_rhp, is_real, roots_of
-from synth.locus.core import closed_loop_roots, line_crossing_gains, loop_polys
+from synth.locus.axis import AxisCrossing, axis_crossings_all
+from synth.locus.core import closed_loop_roots, loop_polys
 from synth.locus.special import asymptotes as locus_asymptotes
+from synth.numerics.scaling import LoopScaling
 
 Interval = tuple[float | None, float | None]
 
@@ -129,47 +131,20 @@ def contains(intervals, k: float) -> bool:
 
 # -- locus facts -----------------------------------------------------------------------------
 
-@dataclass(frozen=True)
-class Crossing:
-    """A closed-loop pole on the imaginary axis: ``s = ±j frequency`` at ``gain``."""
-
-    gain: float
-    frequency: float
-
-    def to_json(self) -> dict:
-        return {"gain": self.gain, "frequency": self.frequency}
+#: an imaginary-axis crossing (the locus engine's value: frequency, gain, direction)
+Crossing = AxisCrossing
 
 
-def axis_crossings(num, den) -> tuple[Crossing, ...]:
+def axis_crossings(num, den, open_loop: bool = False) -> tuple[Crossing, ...]:
     """Every real gain (any sign) that puts a closed-loop pole on the imaginary axis.
 
-    Solves ``Im[D(jw) conj N(jw)] = 0`` through :func:`synth.locus.core.line_crossing_gains`,
-    keeps ``w >= 0`` and drops duplicates. Includes ``K = 0`` when the plant
-    has poles on the axis.
+    The locus engine's one implementation (:func:`synth.locus.axis.axis_crossings_all`),
+    so explain and trace list the same crossings. ``open_loop`` adds the
+    plant's own poles on the axis at ``K = 0`` (used for the reasons at the
+    ends of a stable range; the JSON lists crossings at non-zero gains only,
+    as ``trace`` does).
     """
-    n, d = loop_polys(num, den)
-    if np.all(n == 0):
-        return ()
-    k, t = line_crossing_gains(n, d, 0j, 1j)
-    zr = roots_of(n)
-    axis_zeros = zr[np.abs(zr.real) <= 1e-9 * np.maximum(1.0, np.abs(zr))]
-    out: list[Crossing] = []
-    for kk, tt in sorted(zip(k, np.abs(t), strict=True)):
-        if not (np.isfinite(kk) and np.isfinite(tt)):
-            continue
-        if axis_zeros.size and np.min(np.abs(axis_zeros - 1j * tt)) <= 1e-6 * max(1.0, tt):
-            continue  # a zero on the axis: poles only tend to it as |K| grows without bound
-        # a genuine crossing: the closed loop has a root near j*tt
-        r = closed_loop_roots(n, d, [kk])[0]
-        r = r[np.isfinite(r)]
-        if r.size == 0 or np.min(np.abs(r - 1j * tt)) > 1e-5 * max(1.0, tt):
-            continue
-        kk = 0.0 if abs(kk) <= 1e-12 * max(1.0, float(np.max(np.abs(d)))) else float(kk)
-        if any(abs(c.gain - kk) <= 1e-9 * max(1.0, abs(kk))
-               and abs(c.frequency - tt) <= 1e-7 * max(1.0, tt) for c in out):
-            continue
-        out.append(Crossing(kk + 0.0, float(tt) + 0.0))
-    return tuple(out)
+    return axis_crossings_all(num, den, open_loop=open_loop)
 
 
 def degree_drop_gain(num, den) -> float | None:
@@ -212,7 +187,7 @@ def asymptote_facts(num, den, sign: int) -> AsymptoteFacts:
     angles = np.asarray(asym.angles_deg)
     c = np.cos(np.radians(angles))
     vertical = np.abs(c) <= 1e-9
-    tol = 1e-9 * max(1.0, abs(centroid))
+    tol = 1e-9 * max(abs(centroid), LoopScaling.for_loop(n, d).w0)  # the loop's frequency scale
     into = int(np.count_nonzero(c > 1e-9)) + (int(np.count_nonzero(vertical)) if centroid > tol else 0)
     on_axis = bool(np.any(vertical) and abs(centroid) <= tol)
     return AsymptoteFacts(sign, excess, centroid, tuple(float(a) for a in angles), into, on_axis)
@@ -249,6 +224,7 @@ def real_axis_traps(num, den, sign: int) -> tuple[Trap, ...]:
     zr = roots_of(n)
     pr = roots_of(d)
     zs, ps = _real_critical_points(zr[is_real(zr)].real, pr[is_real(pr)].real)
+    w0 = LoopScaling.for_loop(n, d).w0  # the loop's frequency scale
     if ps.size == 0:
         return ()
     pts = np.unique(np.concatenate([zs, ps]))
@@ -256,9 +232,9 @@ def real_axis_traps(num, den, sign: int) -> tuple[Trap, ...]:
     out: list[Trap] = []
     edges = list(pts) + [math.inf]
     for a, b in zip(edges[:-1], edges[1:], strict=True):
-        if a < -1e-12:
+        if a < 0.0:  # roots_of puts a root indistinguishable from 0 at exactly 0
             continue
-        x = a + 1.0 + abs(a) if math.isinf(b) else 0.5 * (a + b)
+        x = a + max(abs(a), w0) if math.isinf(b) else 0.5 * (a + b)
         nx = np.polyval(n, x)
         if nx == 0:
             continue
@@ -291,7 +267,7 @@ def _real_critical_points(zeros: np.ndarray, poles: np.ndarray) -> tuple[np.ndar
     of the real-axis rule (the mode itself is reported as a common factor).
     """
     def near(a, b):
-        return abs(a - b) <= 1e-5 * max(1.0, abs(a), abs(b))
+        return abs(a - b) <= 1e-5 * max(abs(a), abs(b))
 
     z = sorted(float(x) for x in zeros)
     p = sorted(float(x) for x in poles)
@@ -425,8 +401,9 @@ def rhp_count_profile(num, den, sign: int, crossings=None) -> tuple[CountStep, .
     if mags.size > 1:  # numerically coincident events are one event
         mags = mags[np.concatenate([[True], np.diff(mags) > 1e-9 * mags[1:]])]
     edges = np.concatenate([[0.0], mags, [np.inf]])
-    last = mags[-1] if mags.size else 1.0
-    mids = np.where(np.isinf(edges[1:]), 2.0 * last + 1.0, 0.5 * (edges[:-1] + edges[1:]))
+    # beyond the last event any gain will do; with none, the loop's own gain scale
+    last = mags[-1] if mags.size else LoopScaling.for_loop(n, d).g0
+    mids = np.where(np.isinf(edges[1:]), 2.0 * last, 0.5 * (edges[:-1] + edges[1:]))
     roots = closed_loop_roots(n, d, sign * mids)
     counts = np.sum(~np.isfinite(roots) | in_closed_rhp(np.where(np.isfinite(roots), roots, 0)),
                     axis=1)
@@ -453,8 +430,12 @@ def decay_and_damping(num, den, gains) -> tuple[np.ndarray, np.ndarray]:
     return decay.min(axis=1), zeta.min(axis=1)
 
 
-def _grid(lo: float | None, hi: float | None, size: int = 600) -> np.ndarray:
-    """Interior sample gains of an open interval; unbounded ends reach far out geometrically."""
+def _grid(lo: float | None, hi: float | None, size: int = 600, scale: float = 1.0) -> np.ndarray:
+    """Interior sample gains of an open interval; unbounded ends reach far out geometrically.
+
+    ``scale`` is the loop's own gain scale (:class:`synth.numerics.scaling.LoopScaling`),
+    which sets where "far out" starts when an end is at or near 0.
+    """
     if lo is not None and hi is not None:
         u = np.linspace(0.0, 1.0, size + 2)[1:-1]
         # cluster toward both ends, where the best value often sits (a kink at a boundary crossing)
@@ -462,10 +443,10 @@ def _grid(lo: float | None, hi: float | None, size: int = 600) -> np.ndarray:
         return lo + (hi - lo) * u
     w = np.geomspace(1e-6, 1e6, size)
     if lo is None and hi is None:
-        return np.concatenate([-w[::-1], [0.0], w])
+        return np.concatenate([-scale * w[::-1], [0.0], scale * w])
     if hi is None:
-        return lo + max(1.0, abs(lo)) * w
-    return hi - max(1.0, abs(hi)) * w
+        return lo + max(scale, abs(lo)) * w
+    return hi - max(scale, abs(hi)) * w
 
 
 @dataclass(frozen=True)
@@ -479,7 +460,7 @@ class Optimum:
         return {"gain": self.gain, "value": self.value}
 
 
-def maximise_over(score, intervals) -> Optimum | None:
+def maximise_over(score, intervals, scale: float = 1.0) -> Optimum | None:
     """Maximise ``score(gains) -> values`` (vectorised) over a union of open intervals.
 
     A dense grid per interval, then bounded Brent refinement between the
@@ -490,7 +471,7 @@ def maximise_over(score, intervals) -> Optimum | None:
 
     best: Optimum | None = None
     for lo, hi in intervals:
-        g = _grid(lo, hi)
+        g = _grid(lo, hi, scale=scale)
         v = score(g)
         v = np.where(np.isfinite(v), v, -np.inf)
         i = int(np.argmax(v))
@@ -501,7 +482,7 @@ def maximise_over(score, intervals) -> Optimum | None:
         cand = Optimum(float(g[i]), float(v[i]))
         if b > a:
             res = minimize_scalar(lambda x: -float(score(np.array([x]))[0]), bounds=(a, b),
-                                  method="bounded", options={"xatol": 1e-10 * max(1.0, abs(g[i]))})
+                                  method="bounded", options={"xatol": 1e-10 * max(scale, abs(g[i]))})
             if res.success and -res.fun > cand.value:
                 cand = Optimum(float(res.x), float(-res.fun))
         if best is None or cand.value > best.value:
@@ -614,7 +595,7 @@ def zero_reason(zeros_rhp, sign: int, beyond: float | None, pade_zeros=()) -> Re
     if not z:
         return None
     many = len(z) > 1
-    pade = any(np.min(np.abs(np.asarray(pade_zeros, complex) - x)) <= 1e-6 * max(1.0, abs(x))
+    pade = any(np.min(np.abs(np.asarray(pade_zeros, complex) - x)) <= 1e-6 * abs(x)
                for x in z) if len(pade_zeros) else False
     what = f"zero{'s' if many else ''}" + (" (the dead time's Pade form included)" if pade else "")
     text = (f"As |K| grows, closed-loop poles approach the plant zeros, and the right-half-plane "
@@ -643,19 +624,19 @@ def count_reason(steps: tuple[CountStep, ...], sign: int, crossings,
 
 
 def _axis_point(w: float) -> str:
-    return "s = 0" if w <= 1e-12 else f"s = ±{f.num(w)}j"
+    return "s = 0" if w == 0.0 else f"s = ±{f.num(w)}j"
 
 
 def edge_reason(k: float, crossings, kdrop: float | None, lower: bool, iv: Interval) -> Reason | None:
     """What happens at a finite end of a stabilising interval."""
-    near = [c for c in crossings if abs(c.gain - k) <= 1e-6 * max(1.0, abs(k))]
+    near = [c for c in crossings if abs(c.gain - k) <= 1e-6 * abs(k)]
     which = "begins" if lower else "ends"
     span = f.interval(*iv)
     if near:
         freqs = sorted({c.frequency for c in near})
         bits = []
         for w in freqs:
-            bits.append("s = 0" if w <= 1e-12 else f"s = ±{f.num(w)}j")
+            bits.append("s = 0" if w == 0.0 else f"s = ±{f.num(w)}j")
         onaxis = " and ".join(bits)
         if k == 0.0:
             many = len(freqs) > 1 or freqs[0] > 0
@@ -667,7 +648,7 @@ def edge_reason(k: float, crossings, kdrop: float | None, lower: bool, iv: Inter
             text = f"At K = {f.num(k)} {moving} {onaxis}, which {which} the stable range {span}."
         return Reason("crossing", 1 if k > 0 else (-1 if k < 0 else 0), text,
                       {"gain": k, "frequencies": freqs, "interval": list(iv)})
-    if kdrop is not None and abs(kdrop - k) <= 1e-9 * max(1.0, abs(k)):
+    if kdrop is not None and abs(kdrop - k) <= 1e-9 * abs(k):
         text = (f"At K = {f.num(k)} the closed-loop degree drops and a pole passes through infinity, "
                 f"which {which} the stable range {span}.")
         return Reason("crossing", 1 if k > 0 else -1, text,

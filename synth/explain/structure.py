@@ -26,7 +26,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from synth.numerics.poly import trim
+from synth.numerics.poly import scaled_roots_with_uncertainty, trim
 from synth.outputs.jsonout import root_pairs
 from synth.problem.plant import Plant
 
@@ -35,10 +35,15 @@ AXIS_RTOL = 1e-9
 #: a root whose imaginary part is within this fraction of its size counts as real
 #: (loose on purpose: repeated real roots come back from numpy.roots split by ~sqrt(eps))
 REAL_RTOL = 1e-6
+#: a pole within this many (summed) rounding uncertainties of a real RHP zero may be on
+#: either side of it: the parity count is then numerically uncertain
+_NEAR = 100.0
 
 
 def _scale(z) -> np.ndarray:
-    return np.maximum(1.0, np.abs(z))
+    # relative to each root's own size: roots come from :func:`roots_of`, which
+    # already put a part that double precision cannot tell from zero at exactly 0
+    return np.abs(z)
 
 
 def is_real(z) -> np.ndarray:
@@ -60,9 +65,19 @@ def in_open_rhp(z) -> np.ndarray:
 
 
 def roots_of(poly) -> np.ndarray:
-    """Roots of a polynomial (empty for a constant); exact zeros for trailing zero coefficients."""
-    p = trim(poly)
-    return np.roots(p) if p.size > 1 else np.zeros(0, complex)
+    """Roots of a polynomial (empty for a constant); exact zeros for trailing zero coefficients.
+
+    Computed on the power-of-two scaled polynomial and tidied
+    (:func:`synth.numerics.poly.scaled_roots_with_uncertainty`): a real or
+    imaginary part within rounding of zero is exactly zero, so no verdict may
+    hang on its sign.
+    """
+    return roots_with_uncertainty(poly)[0]
+
+
+def roots_with_uncertainty(poly) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`roots_of` and each root's rounding uncertainty (same units)."""
+    return scaled_roots_with_uncertainty(poly, tidy=True)
 
 
 def _tidy(z: np.ndarray) -> np.ndarray:
@@ -97,6 +112,16 @@ class ParityCheck:
     pole_counts: tuple[int, ...]
     holds: bool
     odd_intervals: tuple[tuple[float, float | None], ...]
+    near_pairs: tuple[tuple[float, complex], ...] = ()
+
+    @property
+    def uncertain(self) -> bool:
+        """A real RHP zero and a pole are closer than double precision can order them.
+
+        Then moving the pole across the zero by less than its rounding
+        uncertainty would flip :attr:`holds`: the verdict is numerically uncertain.
+        """
+        return bool(self.near_pairs)
 
     @property
     def min_unstable_compensator_poles(self) -> int:
@@ -106,7 +131,10 @@ class ParityCheck:
         return {"zeros": list(self.zeros), "pole_counts": list(self.pole_counts),
                 "holds": self.holds,
                 "odd_intervals": [list(iv) for iv in self.odd_intervals],
-                "min_unstable_compensator_poles": self.min_unstable_compensator_poles}
+                "min_unstable_compensator_poles": self.min_unstable_compensator_poles,
+                "numerically_uncertain": self.uncertain,
+                "near_pole_zero_pairs": [{"zero": z, "pole": [p.real, p.imag]}
+                                         for z, p in self.near_pairs]}
 
 
 def parity_interlacing(num, den) -> ParityCheck:
@@ -142,8 +170,8 @@ def parity_interlacing(num, den) -> ParityCheck:
        Theory*, 1992, ch. 5 (from memory).
     """
     n, d = trim(num), trim(den)
-    zr = roots_of(n)
-    pr = roots_of(d)
+    zr, zu = roots_with_uncertainty(n)
+    pr, pu = roots_with_uncertainty(d)
     mask = is_real(zr) & in_closed_rhp(zr)
     real_zeros = np.sort(np.maximum(zr[mask].real, 0.0))
     zeros: list[float | None] = [float(x) for x in real_zeros]
@@ -158,7 +186,15 @@ def parity_interlacing(num, den) -> ParityCheck:
         counts.append(c)
         if c % 2:
             odd.append((a, b))
-    return ParityCheck(tuple(zeros), tuple(counts), not odd, tuple(odd))
+    # a pole that rounding could move across a real RHP zero makes the count's parity unknowable
+    near: list[tuple[float, complex]] = []
+    for z, e in zip(zr[mask], zu[mask], strict=True):
+        if pr.size == 0:
+            break
+        gap = np.abs(pr - z)
+        for j in np.flatnonzero(gap <= _NEAR * (e + pu)):
+            near.append((float(max(z.real, 0.0)), complex(pr[j])))
+    return ParityCheck(tuple(zeros), tuple(counts), not odd, tuple(odd), tuple(near))
 
 
 @dataclass(frozen=True)
@@ -314,6 +350,11 @@ class StructuralFacts:
         return self.stabilizable and self.parity.holds
 
     @property
+    def strong_stabilizability_uncertain(self) -> bool:
+        """The parity verdict rests on a pole-zero order that double precision cannot fix."""
+        return self.stabilizable and self.parity.uncertain
+
+    @property
     def peak_sensitivity_lower_bound(self) -> float | None:
         """Largest hard lower bound on ``max |S|`` (from RHP zeros and poles, and delay)."""
         cands = [b.bound for b in self.peak_combined]
@@ -355,8 +396,8 @@ def _trailing_zeros(p: np.ndarray) -> int:
 
 def structural_facts(plant: Plant) -> StructuralFacts:
     """Collect the :class:`StructuralFacts` of ``plant``."""
-    poles = _tidy(plant.poles())
-    zeros = _tidy(plant.zeros())
+    poles = _tidy(roots_of(plant.den))
+    zeros = _tidy(roots_of(plant.num))
     rat_zeros = _tidy(roots_of(plant.rational_num))
     rat_poles = _tidy(roots_of(plant.rational_den))
     unstable = poles[in_open_rhp(poles)]
@@ -407,7 +448,7 @@ def _minus(a: np.ndarray, b: np.ndarray) -> np.ndarray:
         if rest:
             d = np.abs(np.asarray(rest) - x)
             j = int(np.argmin(d))
-            if d[j] <= 1e-6 * max(1.0, abs(x)):
+            if d[j] <= 1e-6 * abs(x):
                 rest.pop(j)
                 continue
         out.append(x)

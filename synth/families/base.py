@@ -52,7 +52,7 @@ from typing import ClassVar
 import numpy as np
 
 from synth.errors import InputError
-from synth.numerics.poly import trim
+from synth.numerics.poly import scaled_roots, trim
 from synth.problem.plant import describe_factored
 
 #: Derivative-filter ratio range of the PD family: pole / zero = 1 + N_f with
@@ -100,8 +100,8 @@ class SearchSpace:
         for poly in (plant.rational_num, plant.rational_den):
             p = trim(poly)
             if p.size > 1:
-                r = np.abs(np.roots(p))
-                mags.extend(float(v) for v in r if v > 1e-9)
+                r = np.abs(scaled_roots(p))
+                mags.extend(float(v) for v in r if v > 0.0)  # roots at the origin are exact zeros
         if plant.dead_time > 0:
             mags.append(1.0 / plant.dead_time)
         region = problem.region
@@ -228,7 +228,7 @@ def _real_roots_or_none(poly, positive=True):
         return np.zeros(0)
     r = np.roots(p)
     # a double root comes back from numpy.roots split by about sqrt(eps)
-    if np.any(np.abs(r.imag) > 1e-6 * np.maximum(1.0, np.abs(r))):
+    if np.any(np.abs(r.imag) > 1e-6 * np.abs(r)):
         return None
     a = -r.real
     if positive and np.any(a <= 0):

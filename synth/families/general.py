@@ -114,7 +114,7 @@ class GeneralFamily(Family):
             return None
         if self.order == 3:
             r = np.roots(p)
-            real = r[np.abs(r.imag) <= 1e-9 * np.maximum(1.0, np.abs(r))]
+            real = r[np.abs(r.imag) <= 1e-9 * np.abs(r)]
             if real.size == 0:
                 real = r[[int(np.argmin(np.abs(r.imag)))]]
             root = float(real[0].real)
@@ -147,16 +147,16 @@ class GeneralFamily(Family):
         for label, p in (("zero", num), ("pole", den)):
             if p.size > 1:
                 roots = sorted(np.roots(p), key=lambda c: (c.real, c.imag))
-                for i, r in enumerate(r for r in roots if r.imag >= -1e-12):
+                for i, r in enumerate(r for r in roots if r.imag >= -1e-12 * abs(r)):
                     out[f"{label}{i + 1}_re"] = float(r.real)
-                    if abs(r.imag) > 1e-12:
+                    if abs(r.imag) > 1e-12 * abs(r):
                         out[f"{label}{i + 1}_im"] = float(r.imag)
         return out
 
     def describe(self, x):
         num, den = self.poly(x)
         poles = np.roots(den) if den.size > 1 else np.zeros(0)
-        rhp = int(np.sum(poles.real > 1e-9 * max(1.0, float(np.max(np.abs(poles), initial=1.0)))))
+        rhp = int(np.sum(poles.real > 1e-9 * float(np.max(np.abs(poles), initial=0.0))))
         text = f"general (order {self.order}): C(s) = {describe_factored(num, den)}"
         return text + (f" ({rhp} right-half-plane pole{'s' if rhp > 1 else ''})" if rhp else "")
 

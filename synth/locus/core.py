@@ -24,10 +24,19 @@ from __future__ import annotations
 
 import numpy as np
 
+from synth.locus.axis import crossings_scaled
 from synth.numerics.poly import trim
+from synth.numerics.scaling import EPS, LoopScaling, horner_error
+from synth.numerics.screening import hurwitz_exact
 
-#: relative size under which a characteristic polynomial's leading coefficient counts as zero
-_LEAD_RTOL = 1e-12
+#: the leading coefficient ``d0 + K n0`` is zero (the degree drops) when it is
+#: below this many rounding errors of its own computation
+_LEAD_ROUNDING = 4.0
+#: a root whose distance to the region boundary is below this fraction of its
+#: own size is "on the boundary" as far as double precision can tell
+_MARGIN_RTOL = 1e-7
+#: relative width under which a gain interval is narrower than the precision of its ends
+MARGINAL_RTOL = 1e-9
 
 
 def _pad(p: np.ndarray, n: int) -> np.ndarray:
@@ -35,7 +44,7 @@ def _pad(p: np.ndarray, n: int) -> np.ndarray:
 
 
 def loop_polys(num, den) -> tuple[np.ndarray, np.ndarray]:
-    """Trim and pad ``num`` and ``den`` to a common length (``den`` degree rules)."""
+    """Trim (exact zeros only) and pad ``num`` and ``den`` to a common length."""
     n = trim(num)
     d = trim(den)
     size = max(n.size, d.size)
@@ -55,7 +64,8 @@ def roots_batch(polys: np.ndarray, degenerate: np.ndarray | None = None) -> np.n
     Rows whose leading coefficient vanishes (``degenerate``; by default an exact
     zero) lose degree; the missing roots are returned as complex infinity so
     every row has the same number of entries. Uses batched companion-matrix
-    eigenvalues (LAPACK balances each matrix).
+    eigenvalues (LAPACK balances each matrix). The rows should be scaled
+    (see :mod:`synth.numerics.scaling`); :func:`closed_loop_roots` does that.
     """
     P = np.atleast_2d(np.asarray(polys, dtype=float))
     B, m = P.shape
@@ -64,6 +74,7 @@ def roots_batch(polys: np.ndarray, degenerate: np.ndarray | None = None) -> np.n
     if n == 0:
         return out
     full = P[:, 0] != 0.0 if degenerate is None else ~np.asarray(degenerate, dtype=bool)
+    full &= np.all(np.isfinite(P), axis=1)
     if np.any(full):
         Q = P[full]
         C = np.zeros((Q.shape[0], n, n))
@@ -73,9 +84,29 @@ def roots_batch(polys: np.ndarray, degenerate: np.ndarray | None = None) -> np.n
             C[:, idx + 1, idx] = 1.0
         out[full] = np.linalg.eigvals(C)
     for i in np.flatnonzero(~full):  # rare: only at the degree-drop gain
-        r = np.roots(trim(P[i])) if np.any(P[i] != 0) else np.zeros(0)
+        row = P[i].copy()
+        row[0] = 0.0
+        if not np.all(np.isfinite(row)):
+            continue
+        r = np.roots(trim(row)) if np.any(row != 0) else np.zeros(0)
         out[i, : r.size] = r
     return out
+
+
+def _scaled_loop(num, den):
+    """``(scaling, ns, ds)``: the padded loop in balanced power-of-two scaled form."""
+    n, d = loop_polys(num, den)
+    sc = LoopScaling.for_loop(n, d)
+    return sc, sc.num(n), sc.den(d)
+
+
+def _roots_scaled(ns: np.ndarray, ds: np.ndarray, k: np.ndarray) -> np.ndarray:
+    """Closed-loop roots of the scaled loop at scaled gains ``k``."""
+    lead = ds[0] + k * ns[0]
+    # the leading coefficient vanishes only by cancellation (equal degrees); it is
+    # zero when below the rounding error of its own computation
+    degenerate = np.abs(lead) <= _LEAD_ROUNDING * EPS * (abs(ds[0]) + np.abs(k * ns[0]))
+    return roots_batch(ds + k[:, None] * ns, degenerate)
 
 
 def closed_loop_roots(num, den, gains) -> np.ndarray:
@@ -93,23 +124,48 @@ def closed_loop_roots(num, den, gains) -> np.ndarray:
     ndarray, complex, shape (len(gains), deg den)
         Roots per gain, in no particular order (see :mod:`synth.locus.branches`
         for branch tracking).  Where the degree drops, the lost root is ``inf``.
+
+    Notes
+    -----
+    The roots are computed on the power-of-two scaled loop
+    (:class:`synth.numerics.scaling.LoopScaling`) and mapped back exactly.
     """
     g = np.atleast_1d(np.asarray(gains, dtype=float))
-    n, d = loop_polys(num, den)
-    # the leading coefficient d0 + K n0 vanishes only by cancellation (equal degrees)
-    lead = d[0] + g * n[0]
-    degenerate = np.abs(lead) <= _LEAD_RTOL * (abs(d[0]) + np.abs(g * n[0]))
-    return roots_batch(d + g[:, None] * n, degenerate)
+    sc, ns, ds = _scaled_loop(num, den)
+    return sc.point_out(_roots_scaled(ns, ds, sc.gain_in(g)))
 
 
-def gain_at(num, den, s) -> np.ndarray:
+def gain_at(num, den, s):
     """The gain ``K = -D(s)/N(s)`` that puts a closed-loop root at ``s``.
 
-    The value is complex in general; ``s`` is on the locus exactly when it is real.
+    Parameters
+    ----------
+    num, den : array_like
+        Loop polynomials (descending powers).
+    s : complex or array_like of complex
+        Points of the s-plane.
+
+    Returns
+    -------
+    complex or ndarray of complex
+        The gain (complex in general). ``s`` lies on the locus exactly when it
+        is real. At a zero of ``N`` that is not a root of ``D`` it is complex
+        infinity (no finite gain puts a root there); at a root common to both
+        it is ``nan`` (every gain does).  Evaluated on the scaled loop, so
+        large or small ``s`` neither overflow nor underflow needlessly.
+
+    References
+    ----------
+    W. R. Evans, Trans. AIEE 69, 1950 (the magnitude condition).
     """
-    s = np.asarray(s, dtype=complex)
+    sc, ns, ds = _scaled_loop(num, den)
+    z = sc.point_in(s)
     with np.errstate(divide="ignore", invalid="ignore"):
-        return -np.polyval(trim(den), s) / np.polyval(trim(num), s)
+        nv = np.polyval(ns, z)
+        dv = np.polyval(ds, z)
+        k = np.where(nv != 0, -(dv * sc.g0) / np.where(nv != 0, nv, 1.0),
+                     np.where(dv != 0, complex(np.inf), complex(np.nan)))
+    return complex(k) if np.ndim(k) == 0 else k
 
 
 def compose_line(p, a: complex, b: complex) -> np.ndarray:
@@ -123,36 +179,31 @@ def compose_line(p, a: complex, b: complex) -> np.ndarray:
 
 
 def _real_roots(p: np.ndarray, tol: float = 1e-6) -> np.ndarray:
-    """Real roots of a real polynomial, polished by Newton steps."""
+    """Real roots of a real polynomial (relative tolerance on Im), polished by Newton steps."""
     p = trim(p)
     if p.size < 2:
         return np.zeros(0)
     r = np.roots(p)
-    scale = np.maximum(1.0, np.abs(r))
-    t = r[np.abs(r.imag) <= tol * scale].real
+    t = r[np.abs(r.imag) <= tol * np.abs(r)].real
     dp = np.polyder(p)
     for _ in range(3):
         with np.errstate(divide="ignore", invalid="ignore"):
             step = np.polyval(p, t) / np.polyval(dp, t)
-        t = np.where(np.isfinite(step) & (np.abs(step) < 1e-3 * np.maximum(1, np.abs(t))), t - step, t)
+        t = np.where(np.isfinite(step) & (np.abs(step) < 1e-3 * np.abs(t)), t - step, t)
     return np.unique(t)
 
 
-def line_crossing_gains(num, den, a: complex, b: complex) -> tuple[np.ndarray, np.ndarray]:
-    """Real gains at which a root of ``den + K num`` lies on the line ``s = a + b t``.
-
-    Returns
-    -------
-    gains, t : ndarray
-        Finite real gains and the line parameters of the crossing points.
-    """
-    n, d = trim(num), trim(den)
+def _line_crossings_scaled(ns, ds, a: complex, b: complex) -> tuple[np.ndarray, np.ndarray]:
+    """Line crossings of a balanced loop: scaled gains and line parameters."""
+    n, d = trim(ns), trim(ds)
     Nt = compose_line(n, a, b)
     Dt = compose_line(d, a, b)
     F = np.polymul(Dt, np.conj(Nt))
     f = F.imag
-    scale = np.max(np.abs(F)) if F.size else 1.0
-    if np.max(np.abs(f), initial=0.0) <= 1e-12 * scale:
+    # a coefficient of f below the rounding bound of its computation is zero
+    bound = np.polymul(np.abs(Dt), np.abs(Nt)).real * (8.0 * F.size * EPS)
+    f = np.where(np.abs(f) > bound, f, 0.0)
+    if not np.any(f):
         # the whole line maps to real gains (symmetric case): the interval ends are
         # where K(t) is stationary along the line, plus t = 0
         g = np.polysub(np.polymul(Nt, np.polyder(Dt)), np.polymul(np.polyder(Nt), Dt)).real
@@ -162,51 +213,127 @@ def line_crossing_gains(num, den, a: complex, b: complex) -> tuple[np.ndarray, n
     s = a + b * t
     Ns = np.polyval(n, s)
     Ds = np.polyval(d, s)
-    ok = np.abs(Ns) > 1e-12 * np.maximum(1.0, np.abs(Ds))
+    ok = np.abs(Ns) > 8.0 * horner_error(n, s)
     k = -(Ds[ok] / Ns[ok]).real
     return k, t[ok]
 
 
-def _boundary_lines(region) -> list[tuple[complex, complex]]:
-    """Lines whose union contains the region boundary."""
+def line_crossing_gains(num, den, a: complex, b: complex) -> tuple[np.ndarray, np.ndarray]:
+    """Real gains at which a root of ``den + K num`` lies on the line ``s = a + b t``.
+
+    Computed on the scaled loop (``s = w0 z``, ``K = g0 k``); ``t`` is the
+    parameter of the original line.
+
+    Returns
+    -------
+    gains, t : ndarray
+        Finite real gains and the line parameters of the crossing points.
+    """
+    sc, ns, ds = _scaled_loop(num, den)
+    k, t = _line_crossings_scaled(ns, ds, complex(sc.point_in(a)), complex(sc.point_in(b)))
+    return sc.gain_out(k), t
+
+
+def _shift(p: np.ndarray, a: float) -> np.ndarray:
+    """Coefficients of ``p(z - a)`` (Taylor shift by Horner's scheme)."""
+    out = np.zeros(1)
+    for c in p:
+        out = np.polymul(out, [1.0, -a])
+        out[-1] += c
+    return _pad(out, p.size)
+
+
+def _boundary_gains_scaled(ns, ds, region) -> np.ndarray:
+    """Sorted scaled candidate gains at which membership of the (scaled) region may change."""
     sigma = 0.0 if region is None else float(region.sigma)
     zeta = 0.0 if region is None else float(region.zeta)
-    lines = [(complex(-sigma, 0.0), 1j)]
+    if sigma > 0.0:
+        # the line Re z = -sigma is the imaginary axis of the shifted loop
+        cands = [np.array([k for _, k in crossings_scaled(_shift(ns, sigma), _shift(ds, sigma),
+                                                          open_loop=True)])]
+    else:
+        cands = [np.array([k for _, k in crossings_scaled(ns, ds, open_loop=True)])]
     if zeta > 0.0:
         phi = np.arccos(zeta)
         # the line through the origin along the upper ray; the lower ray is its
         # mirror image, crossed at the same gains because the polynomial is real
-        lines.append((0j, complex(np.cos(np.pi - phi), np.sin(np.pi - phi))))
-    return lines
-
-
-def _inside(num, den, gains, region) -> np.ndarray:
-    from synth.problem.region import Region
-
-    reg = region if region is not None else Region()
-    return reg.contains(closed_loop_roots(num, den, gains))
+        k, _ = _line_crossings_scaled(ns, ds, 0j, complex(np.cos(np.pi - phi), np.sin(np.pi - phi)))
+        cands.append(k)
+    if ns[0] != 0.0:  # equal degrees: a root passes through infinity here
+        cands.append(np.array([-ds[0] / ns[0]]))
+    k = np.concatenate(cands)
+    k = k[np.isfinite(k)]
+    if k.size == 0:
+        return k
+    k = np.sort(k)
+    # merge candidates equal to working precision
+    keep = np.concatenate([[True], np.diff(k) > 16.0 * EPS * np.abs(k[1:])])
+    return k[keep]
 
 
 def boundary_gains(num, den, region=None) -> np.ndarray:
     """Sorted candidate gains at which closed-loop membership of ``region`` may change."""
-    n, d = loop_polys(num, den)
-    cands = []
-    for a, b in _boundary_lines(region):
-        k, _ = line_crossing_gains(n, d, a, b)
-        cands.append(k)
-    if n[0] != 0.0:  # equal degrees: a root passes through infinity here
-        cands.append(np.array([-d[0] / n[0]]))
-    k = np.concatenate(cands) if cands else np.zeros(0)
-    k = k[np.isfinite(k)]
+    sc, ns, ds = _scaled_loop(num, den)
+    return sc.gain_out(_boundary_gains_scaled(ns, ds, sc.region_in(region)))
+
+
+def _inside_scaled(ns, ds, k, region, strict: bool = False) -> np.ndarray:
+    """Whether every closed-loop root is in the (scaled) region, per scaled gain.
+
+    A root within ``_MARGIN_RTOL`` of its own size from the boundary cannot be
+    placed by double precision.  For stability such rows are decided by an
+    exact rational Routh test of the (rounded) characteristic polynomial; with
+    ``strict`` (used at candidate gains, where a root sits on the boundary by
+    construction) they are outside.
+    """
+    from synth.problem.region import Region
+
+    reg = region if region is not None else Region()
+    k = np.atleast_1d(np.asarray(k, dtype=float))
+    r = _roots_scaled(ns, ds, k)
+    if r.shape[1] == 0:
+        return np.ones(k.size, dtype=bool)
+    finite = np.isfinite(r)
+    rr = np.where(finite, r, 0.0)
+    margin = reg.margin(rr)
+    size = np.maximum(np.abs(rr), float(reg.sigma))
+    clear_in = np.all((margin > _MARGIN_RTOL * size) & finite, axis=1)
+    clear_out = np.any((margin < -_MARGIN_RTOL * size) | ~finite, axis=1)
+    out = clear_in.copy()
+    if strict:
+        return out
+    unsure = ~clear_in & ~clear_out
+    for i in np.flatnonzero(unsure):
+        if reg.is_stability_only:
+            out[i] = hurwitz_exact(ds + k[i] * ns)
+        else:
+            out[i] = bool(np.all(margin[i] > 0.0))
+    return out
+
+
+def _intervals_scaled(ns, ds, region) -> list[tuple[float | None, float | None]]:
+    k = _boundary_gains_scaled(ns, ds, region)
     if k.size == 0:
-        return k
-    # a crossing at a pole on the boundary has K = 0 up to rounding: make it exact
-    k_scale = np.max(np.abs(d)) / max(np.max(np.abs(n)), 1e-300)
-    k = np.where(np.abs(k) <= 1e-12 * k_scale, 0.0, k)
-    k = np.sort(k)
-    # merge numerically coincident candidates
-    keep = np.concatenate([[True], np.diff(k) > 1e-12 * np.maximum(1.0, np.abs(k[1:]))])
-    return k[keep]
+        inside = bool(_inside_scaled(ns, ds, [0.0], region)[0])
+        return [(None, None)] if inside else []
+    width = np.maximum(1.0, np.abs(k))  # 1 is the loop's own gain scale here
+    mids = np.concatenate([[k[0] - width[0]], 0.5 * (k[:-1] + k[1:]), [k[-1] + width[-1]]])
+    seg_in = _inside_scaled(ns, ds, mids, region)
+    at_k = _inside_scaled(ns, ds, k, region, strict=True)
+    edges: list[float | None] = [None, *(float(x) + 0.0 for x in k), None]
+    out: list[tuple[float | None, float | None]] = []
+    i = 0
+    while i < seg_in.size:
+        if not seg_in[i]:
+            i += 1
+            continue
+        j = i
+        # a candidate that is itself clearly inside was spurious: join across it
+        while j + 1 < seg_in.size and seg_in[j + 1] and at_k[j]:
+            j += 1
+        out.append((edges[i], edges[j + 1]))
+        i = j + 1
+    return out
 
 
 def gain_intervals(num, den, region=None) -> list[tuple[float | None, float | None]]:
@@ -223,31 +350,39 @@ def gain_intervals(num, den, region=None) -> list[tuple[float | None, float | No
     -------
     list of (lo, hi)
         Sorted, disjoint open intervals; ``None`` marks an unbounded end.
+
+    Notes
+    -----
+    Computed on the power-of-two scaled loop (exact scaling, so the ends are
+    the original gains to rounding), from the boundary crossings; a gain
+    between two candidates whose roots double precision cannot place is
+    decided by an exact rational Routh test (stability).
+
+    References
+    ----------
+    E. J. Routh, 1877; A. Hurwitz, 1895; J. H. Wilkinson, *Rounding Errors in
+    Algebraic Processes*, 1963 (scaling by powers of the radix).
     """
-    n, d = loop_polys(num, den)
-    k = boundary_gains(n, d, region)
-    if k.size == 0:
-        inside = bool(_inside(n, d, [0.0], region)[0])
-        return [(None, None)] if inside else []
-    width = np.maximum(1.0, np.abs(k))
-    mids = np.concatenate([[k[0] - width[0]], 0.5 * (k[:-1] + k[1:]), [k[-1] + width[-1]]])
-    tests = np.concatenate([mids, k])
-    flags = _inside(n, d, tests, region)
-    seg_in = flags[: mids.size]
-    at_k = flags[mids.size:]
-    edges: list[float | None] = [None, *(float(x) + 0.0 for x in k), None]
-    out: list[tuple[float | None, float | None]] = []
-    i = 0
-    while i < seg_in.size:
-        if not seg_in[i]:
-            i += 1
-            continue
-        j = i
-        # a candidate that is itself inside was spurious: join across it
-        while j + 1 < seg_in.size and seg_in[j + 1] and at_k[j]:
-            j += 1
-        out.append((edges[i], edges[j + 1]))
-        i = j + 1
+    sc, ns, ds = _scaled_loop(num, den)
+    ivs = _intervals_scaled(ns, ds, sc.region_in(region))
+
+    def back(x):
+        return None if x is None else float(sc.gain_out(x)) + 0.0
+
+    return [(back(a), back(b)) for a, b in ivs]
+
+
+def marginal_intervals(intervals, rtol: float = MARGINAL_RTOL) -> list[tuple[float | None, float | None]]:
+    """The intervals of ``intervals`` narrower than the precision of their ends.
+
+    An interval ``(lo, hi)`` with ``hi - lo <= rtol * max(|lo|, |hi|)`` may be
+    an artefact of rounding (or hide one that rounding closed): a result a
+    user should not rely on without exact arithmetic.
+    """
+    out = []
+    for lo, hi in intervals:
+        if lo is not None and hi is not None and hi - lo <= rtol * max(abs(lo), abs(hi)):
+            out.append((lo, hi))
     return out
 
 

@@ -149,26 +149,10 @@ def batch_roots(num, den, gains) -> np.ndarray:
     root is then ``inf``.  For ``deg num < deg den`` the leading coefficient is
     ``d0`` whatever the gain, so large gains keep every root.
     """
-    n = np.asarray(num, dtype=float)
-    d = np.asarray(den, dtype=float)
-    k = np.atleast_1d(np.asarray(gains, dtype=float))
-    npad = np.concatenate([np.zeros(d.size - n.size), n])
-    polys = d[None, :] + k[:, None] * npad[None, :]
-    deg = d.size - 1
-    out = np.full((k.size, deg), complex(np.inf))
-    full = np.abs(polys[:, 0]) > 1e-13 * (abs(d[0]) + np.abs(k * npad[0]))
-    if np.any(full):
-        q = polys[full]
-        comp = np.zeros((q.shape[0], deg, deg))
-        comp[:, 0, :] = -q[:, 1:] / q[:, :1]
-        idx = np.arange(deg - 1)
-        comp[:, idx + 1, idx] = 1.0
-        out[full] = np.linalg.eigvals(comp)
-    for i in np.flatnonzero(~full):  # only at the degree-drop gain itself
-        p = np.trim_zeros(np.where(np.abs(polys[i]) > 1e-13 * np.max(np.abs(polys[i])), polys[i], 0.0), "f")
-        r = np.roots(p) if p.size > 1 else np.zeros(0)
-        out[i, : r.size] = r
-    return out
+    # the engine's one implementation, on the power-of-two scaled loop
+    from synth.locus.core import closed_loop_roots
+
+    return closed_loop_roots(num, den, gains)
 
 
 def _hausdorff(roots: np.ndarray, center: complex, scale: float) -> np.ndarray:

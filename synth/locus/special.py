@@ -39,7 +39,10 @@ from dataclasses import dataclass
 import numpy as np
 
 from synth.errors import InputError
+from synth.locus.axis import AxisCrossing, axis_crossings_all
+from synth.locus.core import gain_at  # noqa: F401  (one gain_at: the engine's)
 from synth.numerics.poly import coefficients
+from synth.numerics.scaling import frequency_scale, horner_error, scale_variable
 
 _EPS = float(np.finfo(float).eps)
 #: relative size of Im K under which a candidate special point counts as on the locus
@@ -109,27 +112,6 @@ class BreakPoint:
     gain: float
     kind: str
     roots_meeting: int = 2
-
-
-@dataclass(frozen=True)
-class AxisCrossing:
-    """A closed-loop root on the imaginary axis at ``s = j * frequency``.
-
-    Attributes
-    ----------
-    frequency : float
-        ``w >= 0`` in rad/s (the conjugate crossing at ``-j w`` is implied).
-    gain : float
-        The gain at which it happens.
-    toward_right : bool or None
-        True when the root moves into the right half-plane as ``|K|`` grows
-        past ``gain``, False when it moves back into the left half-plane,
-        None when the motion is tangent to the axis.
-    """
-
-    frequency: float
-    gain: float
-    toward_right: bool | None = None
 
 
 @dataclass(frozen=True)
@@ -235,26 +217,6 @@ def loop_pair(num, den) -> tuple[np.ndarray, np.ndarray]:
     if d.size < 2:
         raise InputError("the loop has no poles, so there is no locus to trace")
     return n, d
-
-
-def _scale_of(n: np.ndarray, d: np.ndarray) -> float:
-    """Power of two near the geometric mean magnitude of the nonzero roots."""
-    total, count = 0.0, 0
-    for p in (n, d):
-        q = np.trim_zeros(p, "b")
-        deg = q.size - 1
-        if deg > 0:
-            total += math.log(abs(q[-1] / q[0]))
-            count += deg
-    if count == 0:
-        return 1.0
-    return 2.0 ** round(total / count / math.log(2.0))
-
-
-def _scaled(p: np.ndarray, rho: float) -> np.ndarray:
-    """Coefficients of ``p(rho z)`` (exact for a power-of-two ``rho``)."""
-    deg = p.size - 1
-    return p * rho ** np.arange(deg, -1, -1, dtype=float)
 
 
 def _cluster_tol(size: int) -> float:
@@ -372,24 +334,10 @@ def _roots_distinct(p: np.ndarray, ref: float = 1.0) -> tuple[np.ndarray, np.nda
     return vals, mult
 
 
-def _jw_parts(p: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Ascending coefficients (in w) of Re p(jw) and Im p(jw)."""
-    asc = p[::-1].astype(float)
-    k = np.arange(asc.size)
-    re = np.where(k % 4 == 0, asc, np.where(k % 4 == 2, -asc, 0.0))
-    im = np.where(k % 4 == 1, asc, np.where(k % 4 == 3, -asc, 0.0))
-    return re, im
-
-
-def _trim_rel(p: np.ndarray, rtol: float = 1e-13) -> np.ndarray:
-    """Drop leading coefficients that are rounding noise (``p`` balanced)."""
-    if p.size == 0:
-        return p
-    scale = np.max(np.abs(p))
-    if scale == 0.0:
-        return np.zeros(0)
-    nz = np.flatnonzero(np.abs(p) > rtol * scale)
-    return p[nz[0]:]
+def _trim_noise(p: np.ndarray, bound: np.ndarray) -> np.ndarray:
+    """Drop leading coefficients of a computed polynomial that are below their rounding bound."""
+    keep = np.flatnonzero(np.abs(p) > bound)
+    return p[keep[0]:] if keep.size else np.zeros(0)
 
 
 def _deg_angle(x: np.ndarray) -> np.ndarray:
@@ -403,34 +351,6 @@ def _deg_angle(x: np.ndarray) -> np.ndarray:
 # ---------------------------------------------------------------------------
 # public functions
 # ---------------------------------------------------------------------------
-
-
-def gain_at(num, den, s):
-    """Gain ``K = -D(s) / N(s)`` that puts a closed-loop root at ``s``.
-
-    Parameters
-    ----------
-    num, den : array_like
-        Loop polynomials (descending powers).
-    s : complex or array_like of complex
-        Points of the s-plane.
-
-    Returns
-    -------
-    complex or ndarray of complex
-        The gain (complex in general). ``s`` lies on the locus exactly when it
-        is real; at a zero of ``N`` it is ``inf``.
-
-    References
-    ----------
-    W. R. Evans, Trans. AIEE 69, 1950 (the magnitude condition).
-    """
-    n, d = loop_pair(num, den)
-    z = np.asarray(s, dtype=complex)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        ns = np.polyval(n, z)
-        k = np.where(ns != 0, -np.polyval(d, z) / np.where(ns != 0, ns, 1.0), complex(np.inf))
-    return complex(k) if np.ndim(k) == 0 else k
 
 
 def asymptotes(num, den, negative: bool = False) -> Asymptotes:
@@ -555,7 +475,7 @@ def arrival_angles(num, den, negative: bool = False) -> tuple[PointAngles, ...]:
     return locus_facts(num, den).for_sign(negative).arrivals
 
 
-def _point_angles(points, mult, others, others_mult, lead_ratio):
+def _point_angles(points, mult, others, others_mult, lead_ratio, rho):
     """Departure angles (points = poles, others = zeros, ``lead_ratio = n0/d0``) or
     arrival angles (points = zeros, others = poles, ``lead_ratio = d0/n0``).
 
@@ -572,7 +492,7 @@ def _point_angles(points, mult, others, others_mult, lead_ratio):
         return (), ()
     dz = points[:, None] - np.asarray(others, dtype=complex)[None, :]
     ds = points[:, None] - points[None, :]
-    cancelled = np.any(np.abs(dz) <= 1e-9 * np.maximum(np.abs(points), 1.0)[:, None], axis=1)
+    cancelled = np.any(np.abs(dz) <= 1e-9 * np.maximum(np.abs(points), rho)[:, None], axis=1)
     ang_other = np.sum(np.asarray(others_mult)[None, :] * np.angle(dz), axis=1) if dz.size else 0.0
     offdiag = ~np.eye(points.size, dtype=bool)
     ang_same = np.sum(np.where(offdiag, mult[None, :] * np.angle(ds), 0.0), axis=1)
@@ -593,9 +513,12 @@ def _point_angles(points, mult, others, others_mult, lead_ratio):
 def _breakaways(n, d, ns, ds, rho, kscale):
     """Both signs' break points: (positive, negative) tuples."""
     b = np.polysub(np.polymul(ns, np.polyder(ds)), np.polymul(np.polyder(ns), ds))
+    # rounding bound of each computed coefficient (sum of the magnitudes of its terms)
+    bb = np.polyadd(np.polymul(np.abs(ns), np.abs(np.polyder(ds))),
+                    np.polymul(np.abs(np.polyder(ns)), np.abs(ds))) * (8.0 * ds.size * _EPS)
     if ns.size == ds.size and b.size:
-        b = b[1:]  # its leading coefficient (n - m) n0 d0 is exactly zero here
-    b = _trim_rel(np.atleast_1d(b))
+        b, bb = b[1:], bb[1:]  # its leading coefficient (n - m) n0 d0 is exactly zero here
+    b = _trim_noise(np.atleast_1d(b), np.atleast_1d(bb)[-np.atleast_1d(b).size:])
     pos: list[BreakPoint] = []
     neg: list[BreakPoint] = []
     if b.size < 2:
@@ -607,7 +530,7 @@ def _breakaways(n, d, ns, ds, rho, kscale):
     dz = np.polyval(ds, vals)
     slope = np.polyval(np.polyder(b), vals.real)
     # a candidate at a multiple zero meets at K = inf: skip it
-    finite = np.abs(nz) > 1e-12 * np.max(np.abs(ns)) * np.maximum(1.0, np.abs(vals)) ** (ns.size - 1)
+    finite = np.abs(nz) > 1e3 * horner_error(ns, vals)
     with np.errstate(all="ignore"):
         k = np.where(finite, -dz / np.where(finite, nz, 1.0), np.inf)
     for z, mu, kk, sl in zip(vals, mult, k, slope, strict=True):
@@ -617,7 +540,7 @@ def _breakaways(n, d, ns, ds, rho, kscale):
             continue
         kr = float(kk.real)
         s = complex(z) * rho
-        if abs(z.imag) <= 1e-9 * max(abs(z), 1.0):
+        if abs(z.imag) <= 1e-9 * abs(z):
             s = complex(s.real, 0.0)
             if mu > 1:
                 kind = "multiple"
@@ -631,53 +554,12 @@ def _breakaways(n, d, ns, ds, rho, kscale):
     return tuple(sorted(pos, key=key)), tuple(sorted(neg, key=key))
 
 
-def _crossings(n, d, ns, ds, rho, kscale):
-    """Both signs' imaginary-axis crossings: (positive, negative) tuples."""
-    pos: list[AxisCrossing] = []
-    neg: list[AxisCrossing] = []
-
-    def direction(s: complex, k: float) -> bool | None:
-        # ds/dK = -N / (D' + K N'); moving with |K| growing flips with sign(K)
-        with np.errstate(all="ignore"):
-            v = -np.polyval(n, s) / (np.polyval(np.polyder(d), s) + k * np.polyval(np.polyder(n), s))
-        if not np.isfinite(v):
-            return None
-        re = float(v.real) * np.sign(k)
-        if abs(re) <= 1e-9 * abs(v):
-            return None
-        return bool(re > 0)
-
-    d0, n0 = float(d[-1]), float(n[-1])
-    if d0 != 0.0 and n0 != 0.0:
-        k = -d0 / n0
-        if abs(k) > _ZERO_K_RTOL * kscale:
-            (pos if k > 0 else neg).append(AxisCrossing(0.0, k, direction(0j, k)))
-    dr, di = _jw_parts(ds)
-    nr, ni = _jw_parts(ns)
-    size = max(dr.size + nr.size - 1, 1)
-    p_asc = np.zeros(size)
-    a = np.convolve(di, nr)
-    c = np.convolve(dr, ni)
-    p_asc[: a.size] += a
-    p_asc[: c.size] -= c
-    q = _trim_rel(p_asc[1::2][::-1])  # P(w) = w Q(w^2), Q descending in u = w^2
-    if q.size >= 2:
-        vals, _ = _roots_distinct(q, 1.0)
-        good = (vals.real > 0) & (np.abs(vals.imag) <= 1e-6 * np.abs(vals)) & (np.abs(vals) < _FAR)
-        for u in vals[good].real:
-            w = math.sqrt(u)
-            jw = 1j * w
-            nz = np.polyval(ns, jw)
-            if abs(nz) <= 1e-12 * np.max(np.abs(ns)) * max(1.0, w) ** (ns.size - 1):
-                continue  # a zero on the axis
-            k = -np.polyval(ds, jw) / nz
-            if abs(k) <= _ZERO_K_RTOL * kscale or abs(k.imag) > _IMAG_K_RTOL * abs(k):
-                continue  # a pole on the axis, or rounding
-            kr = float(k.real)
-            cr = AxisCrossing(w * rho, kr, direction(1j * w * rho, kr))
-            (pos if kr > 0 else neg).append(cr)
-    key = lambda c: (abs(c.gain), c.frequency)  # noqa: E731
-    return tuple(sorted(pos, key=key)), tuple(sorted(neg, key=key))
+def _crossings(n, d):
+    """Both signs' imaginary-axis crossings (the shared implementation): (positive, negative)."""
+    every = axis_crossings_all(n, d)
+    pos = sorted((c for c in every if c.gain > 0), key=lambda c: (c.gain, c.frequency))
+    neg = sorted((c for c in every if c.gain < 0), key=lambda c: (-c.gain, c.frequency))
+    return tuple(pos), tuple(neg)
 
 
 def locus_facts(num, den) -> LocusFacts:
@@ -703,18 +585,18 @@ def locus_facts(num, den) -> LocusFacts:
     (the construction rules); J. H. Wilkinson, 1963 (multiple roots).
     """
     n, d = loop_pair(num, den)
-    rho = _scale_of(n, d)
-    ns, ds = _scaled(n, rho), _scaled(d, rho)
+    rho = frequency_scale(n, d)
+    ns, ds = scale_variable(n, rho), scale_variable(d, rho)
     kscale = float(np.max(np.abs(ds)) / np.max(np.abs(ns)))
     pz, pm = _roots_distinct(ds, 1.0)
     zz, zm = _roots_distinct(ns, 1.0)
     poles, zeros = pz * rho, zz * rho
     lead = float(n[0] / d[0])
     bpos, bneg = _breakaways(n, d, ns, ds, rho, kscale)
-    cpos, cneg = _crossings(n, d, ns, ds, rho, kscale)
+    cpos, cneg = _crossings(n, d)
 
-    dep = _point_angles(poles, pm, zeros, zm, lead)
-    arr = _point_angles(zeros, zm, poles, pm, 1.0 / lead)
+    dep = _point_angles(poles, pm, zeros, zm, lead, rho)
+    arr = _point_angles(zeros, zm, poles, pm, 1.0 / lead, rho)
 
     def side(negative: bool, brk, crs) -> SpecialPoints:
         return SpecialPoints(

@@ -61,14 +61,12 @@ def _num(x: float, digits: int = 4) -> str:
     x = float(x)
     if not np.isfinite(x):
         return "inf" if x > 0 else "-inf"
-    if abs(x) < 1e-12:
-        return "0"
-    return f"{x:.{digits}g}"
+    return f"{x + 0.0:.{digits}g}"
 
 
 def _cnum(z: complex, digits: int = 4) -> str:
     z = complex(z)
-    if abs(z.imag) <= 1e-12 * max(1.0, abs(z)):
+    if abs(z.imag) <= 1e-12 * abs(z):
         return _num(z.real, digits)
     sign = "+" if z.imag > 0 else "-"
     return f"{_num(z.real, digits)}{sign}{_num(abs(z.imag), digits)}j"

@@ -438,3 +438,41 @@ def in_region_batch(polys, region, rtol: float = DEFAULT_RTOL) -> np.ndarray:
     batch, shape = _as_batch(polys)
     beta = 0.5 * math.pi - math.acos(zeta) if zeta > 0.0 else None
     return _screen(batch, sigma, beta, float(rtol)).reshape(shape)
+
+
+def hurwitz_exact(poly) -> bool:
+    """Whether a real polynomial is Hurwitz, decided in exact rational arithmetic.
+
+    The coefficients (binary floats) are converted to :class:`fractions.Fraction`
+    exactly and the Routh scheme runs without rounding, so the answer is the
+    truth for the polynomial as stored: every root strictly in the open left
+    half-plane exactly when every first-column entry is positive (a zero entry
+    means a root on the axis or in the right half-plane, so "not Hurwitz").
+    Slow next to :func:`hurwitz_batch`; meant for the few gains where double
+    precision cannot place a root (see :func:`synth.locus.core.gain_intervals`).
+
+    References
+    ----------
+    E. J. Routh, 1877; F. R. Gantmacher, *The Theory of Matrices*, Vol. II,
+    1959, ch. XV (the Routh scheme and the Routh-Hurwitz theorem).
+    """
+    from fractions import Fraction
+
+    c = [Fraction(float(x)) for x in np.atleast_1d(np.asarray(poly, dtype=float))]
+    while c and c[0] == 0:
+        c.pop(0)
+    if not c:
+        return False
+    if c[0] < 0:
+        c = [-x for x in c]
+    n = len(c) - 1
+    if any(x <= 0 for x in c):  # the necessary condition, and it keeps the scheme regular
+        return False
+    a, b = c[0::2], c[1::2]
+    for _ in range(n):
+        if not b or b[0] <= 0:
+            return False
+        nxt = [(b[0] * a[i + 1] - a[0] * (b[i + 1] if i + 1 < len(b) else 0)) / b[0]
+               for i in range(len(a) - 1)]
+        a, b = b, nxt
+    return True

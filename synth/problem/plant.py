@@ -10,6 +10,7 @@ delay (see :meth:`Plant.evaluate`).
 
 from __future__ import annotations
 
+import math
 import re
 from dataclasses import dataclass
 from functools import cached_property
@@ -17,7 +18,7 @@ from functools import cached_property
 import numpy as np
 
 from synth.errors import InputError
-from synth.numerics.poly import common_roots, poly_from_roots, trim
+from synth.numerics.poly import common_roots, poly_from_roots, scaled_roots_with_uncertainty, trim
 from synth.problem.limits import MAX_COEFFICIENT, MAX_ORDER, check_literal, check_magnitude
 
 
@@ -281,7 +282,7 @@ def _expand_conjugates(values, key: str) -> np.ndarray:
             c = z.conjugate()
             # a conjugate given explicitly is not duplicated
             for j, w in enumerate(pending):
-                if abs(w - c) <= 1e-12 * max(1.0, abs(c)):
+                if abs(w - c) <= 1e-12 * abs(c):
                     pending.pop(j)
                     break
             result.append(c)
@@ -297,7 +298,7 @@ def factor_strings(poly) -> tuple[float, list[str]]:
     k = float(p[0])
     if p.size == 1:
         return k, []
-    roots = np.roots(p)
+    roots = scaled_roots_with_uncertainty(p, tidy=True)[0]  # a split multiple root shows as one
     factors: list[str] = []
     used = np.zeros(roots.size, bool)
     order = np.argsort(-roots.real, kind="stable")
@@ -306,16 +307,16 @@ def factor_strings(poly) -> tuple[float, list[str]]:
             continue
         r = roots[i]
         used[i] = True
-        if abs(r.imag) > 1e-9 * max(1.0, abs(r)):
+        if abs(r.imag) > 1e-9 * abs(r):
             # pair with its conjugate: s^2 + a s + b
             cand = np.flatnonzero(~used)
             if cand.size:
                 j = cand[np.argmin(np.abs(roots[cand] - np.conj(r)))]
                 used[j] = True
             a, b = -2 * r.real, abs(r) ** 2
-            mid = f"{a:+.4g}s" if abs(a) > 1e-12 * max(1.0, b) else ""
+            mid = f"{a:+.4g}s" if abs(a) > 1e-12 * math.sqrt(b) else ""
             factors.append(f"(s^2{mid}{b:+.4g})")
-        elif abs(r) < 1e-12:
+        elif r == 0:  # a trailing zero coefficient gives an exact zero root
             factors.append("s")
         else:
             factors.append(f"(s{-r.real:+.4g})")

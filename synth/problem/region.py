@@ -74,15 +74,17 @@ class Region:
     def contains(self, roots, rtol: float = 1e-9) -> np.ndarray:
         """Whether every root along the last axis lies strictly inside the region.
 
-        A root counts as inside when its margin exceeds ``rtol`` times the root
-        scale (so a root numerically on the boundary is outside).
+        A root counts as inside when its margin exceeds ``rtol`` times the
+        largest root magnitude of its row (relative, so a plant at 1e-6 rad/s
+        is judged as one at 1 rad/s; a root numerically on the boundary is
+        outside).
         """
         r = np.asarray(roots, dtype=complex)
         if r.shape[-1] == 0:
             return np.ones(r.shape[:-1], dtype=bool)
         finite = np.isfinite(r)
         rr = np.where(finite, r, 0.0)
-        scale = np.maximum(1.0, np.max(np.abs(rr), axis=-1, keepdims=True))
+        scale = np.max(np.abs(rr), axis=-1, keepdims=True)
         inside = (self.margin(rr) > rtol * scale) & finite
         return np.all(inside, axis=-1)
 

@@ -17,7 +17,7 @@ from typing import Any
 
 import numpy as np
 
-from synth.numerics.poly import trim
+from synth.numerics.poly import scaled_roots, trim
 
 
 def _frequency_grid(plant, num_c, den_c) -> np.ndarray:
@@ -32,11 +32,11 @@ def _frequency_grid(plant, num_c, den_c) -> np.ndarray:
     for p in (trim(num_c), trim(den_c), plant.rational_num, plant.rational_den):
         p = trim(p)
         if p.size > 1:
-            roots = np.roots(p)
+            roots = scaled_roots(p)
             r = np.abs(roots)
-            mags.extend(r[r > 1e-12].tolist())
+            mags.extend(r[r > 0].tolist())  # roots at the origin are exact zeros
             for root, m in zip(roots, r, strict=True):
-                if m > 1e-12 and root.imag > 0:
+                if m > 0 and root.imag > 0:
                     zeta = abs(root.real) / m
                     if zeta < 0.2:
                         width = 20.0 * max(zeta, 1e-5)

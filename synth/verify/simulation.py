@@ -101,7 +101,13 @@ def _horizon(poles, problem) -> float:
     decay = -np.real(np.asarray(poles))
     decay = decay[np.isfinite(decay) & (decay > 0)]
     band = req.settling_band_percent
-    t_end = (math.log(100.0 / band) + 8.0) / float(np.min(decay)) if decay.size else 10.0
+    if decay.size:
+        t_end = (math.log(100.0 / band) + 8.0) / float(np.min(decay))
+    else:
+        # nothing decays: ten time constants of the plant's own frequency scale
+        from synth.numerics.scaling import frequency_scale
+
+        t_end = 10.0 / frequency_scale(problem.plant.num, problem.plant.den)
     if req.max_settling_time is not None:
         t_end = max(t_end, 1.5 * req.max_settling_time)
     if req.max_rise_time is not None:
@@ -146,7 +152,7 @@ def _simulate_rational(gnum, gden, num_c, den_c, poles, problem):
         return t, np.full(2, Dy), np.full(2, Du)
     x_ss = -np.linalg.solve(A, B[:, 0])
     fast = float(np.max(np.abs(poles))) if len(poles) else 1.0
-    h = min(t_end / _SEG_STEPS, 0.2 / max(fast, 1e-12))
+    h = min(t_end / _SEG_STEPS, 0.2 / fast if fast > 0 else math.inf)
     h = max(h, t_end / (_SEG_STEPS * 2.0 ** 24))
     Phi = expm(A * h)
     z = -x_ss
@@ -202,7 +208,7 @@ def _simulate_delay(plant, num_c, den_c, poles, problem):
     T = plant.dead_time
     t_end = _horizon(poles, problem)
     fast = float(np.max(np.abs(poles))) if len(poles) else 1.0
-    h_target = min(t_end / _DELAY_STEPS, 0.2 / max(fast, 1e-12))
+    h_target = min(t_end / _DELAY_STEPS, 0.2 / fast if fast > 0 else math.inf)
     m = max(1, int(math.ceil(T / h_target)))
     h = T / m
     steps = int(math.ceil(t_end / h))

@@ -57,7 +57,8 @@ from typing import Any
 
 import numpy as np
 
-from synth.numerics.poly import common_roots, format_complex, trim
+from synth.numerics.poly import common_roots, format_complex, scaled_roots, trim
+from synth.numerics.scaling import EPS
 from synth.verify.frequency import frequency_metrics
 from synth.verify.loop import loop_polynomials
 from synth.verify.simulation import step_metrics, step_response
@@ -163,7 +164,7 @@ def verify(problem, num_c, den_c, exact_delay: bool = True) -> Verdict:
     region = problem.region
     nc, dc = trim(num_c), trim(den_c)
     num_l, den_l, char = loop_polynomials(plant, nc, dc)
-    poles = np.roots(char) if char.size > 1 else np.zeros(0, complex)
+    poles = scaled_roots(char)
     poles = poles[np.lexsort((poles.imag, poles.real))] if poles.size else poles
     gain = float(nc[0] / dc[0])
     violations: list[str] = []
@@ -179,7 +180,7 @@ def verify(problem, num_c, den_c, exact_delay: bool = True) -> Verdict:
         what = ("compensator zero at {z} cancels the plant pole at {z}" if kind == "zero"
                 else "compensator pole at {z} cancels the plant zero at {z}")
         text = what.format(z=format_complex(r))
-        if r.real >= -1e-9 * max(1.0, abs(r)):
+        if r.real >= -1e-9 * abs(r):  # relative: a cancellation at the origin is unstable
             internally_stable = False
             violations.append(f"internally unstable: {text}; the unstable mode stays in the "
                               "loop and no output shows it")
@@ -189,7 +190,10 @@ def verify(problem, num_c, den_c, exact_delay: bool = True) -> Verdict:
 
     stable = bool(Region().contains(poles)) if poles.size else True
     n_full = max(np.polymul(dc, plant.den).size, np.polymul(nc, plant.num).size)
-    if char.size < n_full or abs(char[0]) <= 1e-12 * float(np.max(np.abs(char))):
+    # the leading coefficient is a sum of two products: zero when below its rounding error
+    lead_terms = abs(dc[0] * plant.den[0]) + (abs(nc[0] * plant.num[0])
+                                              if nc.size + plant.num.size == n_full + 1 else 0.0)
+    if char.size < n_full or abs(char[0]) <= 4.0 * EPS * lead_terms:
         # 1 + C G vanishes at infinite frequency: the loop has no well-defined response
         stable = False
         violations.append("ill-posed loop: 1 + C(s) G(s) vanishes at infinite frequency "
