@@ -122,7 +122,7 @@ _GL_W.setflags(write=False)
 # reading the data
 # ---------------------------------------------------------------------------
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class StepData:
     """Recorded step-test samples, validated: strictly increasing finite time."""
 
@@ -988,7 +988,8 @@ def _to_result(model, n_lags, p, cov, sse, method, evaluations, s: _Scaled,
     se_taus = se[1:1 + n_lags] * s.t_span
     order = np.argsort(-taus, kind="stable")
     taus, se_taus = taus[order], se_taus[order]
-    theta = float(p[1 + n_lags] * s.t_span)
+    # a dead time on its lower bound is zero (the bounded solver stops a rounding error above it)
+    theta = float(p[1 + n_lags] * s.t_span) if p[1 + n_lags] > 1e-9 else 0.0
     se_theta = float(se[1 + n_lags] * s.t_span)
     offset = float(d.output[0] + p[2 + n_lags] * s.y_scale)
     drift = None
