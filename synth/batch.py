@@ -94,6 +94,10 @@ def write_atomic(path: str | Path, data: bytes | str) -> None:
     try:
         with os.fdopen(fd, "wb") as fh:
             fh.write(raw)
+        # mkstemp makes the file private; give it the mode an ordinary new file gets
+        mask = os.umask(0o022)
+        os.umask(mask)
+        os.chmod(tmp, 0o666 & ~mask)
         os.replace(tmp, p)
     except BaseException:
         Path(tmp).unlink(missing_ok=True)
@@ -372,11 +376,12 @@ class RunRecord:
     fit_json: str | None
     report: str | None
     top: dict | None
+    time_capped: tuple[str, ...] = ()
 
     def to_json(self) -> dict:
         return {"file": self.file, "exit": self.exit, "error": self.error,
                 "design_json": self.design_json, "top": self.top, "fit_json": self.fit_json,
-                "report": self.report}
+                "report": self.report, "time_capped": list(self.time_capped)}
 
 
 @dataclass(frozen=True)
@@ -480,10 +485,15 @@ class BatchResult:
             lines.append(f"{tag[r.exit]} {r.file}: {what}")
         c = self.counts()
         lines.append("")
-        lines.append(f"{len(self.runs)} loops: {c['feasible']} feasible, "
+        n = len(self.runs)
+        lines.append(f"{n} loop{'' if n == 1 else 's'}: {c['feasible']} feasible, "
                      f"{c['no_feasible_design']} without a feasible design, {c['bad_input']} "
                      f"bad input, {c['internal_error']} internal errors"
                      + (f" ({self.workers})" if self.workers else ""))
+        capped = [r.file for r in self.runs if r.time_capped]
+        if capped:
+            lines.append(f"time cap reached in {len(capped)} loops (their rankings may differ "
+                         "between runs; raise search.time_budget): " + ", ".join(capped))
         lines.append(f"summary written to {Path(self.out_dir) / 'summary.json'}, summary.csv "
                      "and index.html")
         lines.append("")
@@ -528,9 +538,10 @@ def _record(item: BatchItem, res: dict, out: Path) -> RunRecord:
         report_rel = f"{item.stem}-report/{main}"
     if res.get("traceback"):
         write_atomic(out / f"{item.stem}.error.txt", res["traceback"])
+    capped = ((res.get("design") or {}).get("search") or {}).get("time_capped") or ()
     return RunRecord(file=item.file, exit=int(res["exit"]), error=res.get("error"),
                      design_json=design_rel, fit_json=fit_rel, report=report_rel,
-                     top=_top(res.get("design")))
+                     top=_top(res.get("design")), time_capped=tuple(capped))
 
 
 # ---------------------------------------------------------------------------
@@ -611,8 +622,9 @@ def run_batch(paths: Iterable[str | Path], out_dir: str | Path, *, workers: int 
         from distributed import as_completed
 
         n_workers = len(client.scheduler_info().get("workers", {}))
-        where = (f"{n_workers} workers at {scheduler}" if scheduler
-                 else f"{n_workers} local worker processes")
+        one = n_workers == 1
+        where = (f"{n_workers} worker{'' if one else 's'} at {scheduler}" if scheduler
+                 else f"{n_workers} local worker process{'' if one else 'es'}")
         futures = [client.submit(run_item, item, report, pure=False) for item in items]
         index = {f.key: i for i, f in enumerate(futures)}
         done = 0

@@ -21,6 +21,7 @@ Wall-clock figures only; no assertion.
 from __future__ import annotations
 
 import json
+import os
 import statistics
 import sys
 import tempfile
@@ -41,7 +42,8 @@ def _noop(i):
 def main() -> None:
     folder = Path(sys.argv[1]) if len(sys.argv) > 1 else ROOT / "cases" / "campaign"
     items = collect([folder])
-    print(f"campaign: {len(items)} loops in {folder}")
+    print(f"campaign: {len(items)} loops in {folder}; load average {os.getloadavg()[0]:.1f} "
+          f"on {os.cpu_count()} cores (other work on the machine slows every figure)")
 
     fit_times = []
     for csv in sorted(folder.rglob("*.csv")):
@@ -85,6 +87,7 @@ def main() -> None:
         client.gather(client.map(_noop, range(1000, 1000 + n)))
         per_task = (time.perf_counter() - t0) / n
     print(f"scheduler overhead: {1e3 * per_task:.2f} ms per no-op task (2 local workers)")
+    print(f"load average at the end {os.getloadavg()[0]:.1f}")
     print(f"loops_per_minute_2={60.0 * len(items) / wall[2]:.1f} "
           f"ratio_2_vs_1_workers={wall[1] / wall[2]:.2f} ratio_2_vs_serial={serial / wall[2]:.2f}")
 
