@@ -1116,6 +1116,13 @@ def _num(v: float) -> str:
     return f"{v:.6g}"
 
 
+def _toml_str(text: str) -> str:
+    """A TOML basic string (JSON's escapes are TOML's)."""
+    import json
+
+    return json.dumps(text, ensure_ascii=False)
+
+
 def requirements_skeleton(fit: FitResult, data_ref: str | None = None) -> str:
     """A requirements file (TOML text) with the fitted plant and commented suggestions.
 
@@ -1146,7 +1153,7 @@ def requirements_skeleton(fit: FitResult, data_ref: str | None = None) -> str:
     if den:
         expr += "/" + (den[0] if len(den) == 1 else "(" + "*".join(den) + ")")
     lines = [
-        f"# Requirements file started by `synth fit` from {fit.source} ({fit.model} model).",
+        f"# Requirements file started by `synth fit` from {fit.source!r} ({fit.model} model).",
         "#",
         "# CAUTION: " + FIT_CAUTION,
         "#",
@@ -1159,7 +1166,7 @@ def requirements_skeleton(fit: FitResult, data_ref: str | None = None) -> str:
         "format = 1",
         "",
         "[plant]",
-        f'label = "{fit.default_label()}"',
+        f"label = {_toml_str(fit.default_label())}",
         f'expression = "{expr}"',
         f"dead_time = {_num(fit.dead_time)}",
         "dead_time_order = 3",
@@ -1169,8 +1176,8 @@ def requirements_skeleton(fit: FitResult, data_ref: str | None = None) -> str:
         lines += [
             "# Alternatively, refit from the data every time this file is read:",
             "# [plant.step_test]",
-            f'# data = "{data_ref}"',
-            f'# model = "{fit.model}"',
+            f"# data = {_toml_str(data_ref)}",
+            f"# model = {_toml_str(fit.model)}",
             "",
         ]
     lines += [
