@@ -203,14 +203,15 @@ def test_one_worker_and_a_separate_scheduler_give_identical_results(loops, batch
             [sys.executable, "-m", "distributed.cli.dask_scheduler", "--host", "127.0.0.1",
              "--port", "0", "--no-dashboard", "--scheduler-file", str(sched_file)],
             cwd=ROOT, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL))
+        # everything listens on the loopback address only
         for _ in range(600):  # wait for the scheduler file (bounded, no timing assertion)
             if sched_file.is_file() and sched_file.stat().st_size:
                 break
             time.sleep(0.1)
         address = json.loads(sched_file.read_text())["address"]
         procs.append(subprocess.Popen(
-            [sys.executable, "-m", "distributed.cli.dask_worker", address, "--nthreads", "1",
-             "--nworkers", "1", "--no-dashboard", "--no-nanny"],
+            [sys.executable, "-m", "distributed.cli.dask_worker", address, "--host", "127.0.0.1",
+             "--nthreads", "1", "--nworkers", "1", "--no-dashboard", "--no-nanny"],
             cwd=ROOT, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL))
         out3 = loops / "out-sched"
         res = run_synth("batch", str(loops / "loops"), "--out", str(out3), "--scheduler",
