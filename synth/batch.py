@@ -479,10 +479,12 @@ class BatchResult:
         lines = []
         for r in self.runs:
             if r.top:
-                what = r.top.get("description", r.top.get("structure", ""))
+                what = f"{r.file}: {r.top.get('description', r.top.get('structure', ''))}"
+            elif r.error and r.error.startswith(r.file):
+                what = r.error  # the error line names the file already
             else:
-                what = r.error or ""
-            lines.append(f"{tag[r.exit]} {r.file}: {what}")
+                what = f"{r.file}: {r.error or ''}"
+            lines.append(f"{tag[r.exit]} {what}")
         c = self.counts()
         lines.append("")
         n = len(self.runs)
