@@ -268,3 +268,22 @@ def test_bad_options_one_line_exit_2(tmp_path):
     res = run_synth("batch", str(tmp_path), "--out", str(tmp_path / "o"), "--workers", "1",
                     "--scheduler", "tcp://127.0.0.1:1")
     assert res.returncode == 2 and "not both" in res.stderr
+
+
+def test_a_bug_in_a_task_propagates(monkeypatch, tmp_path):
+    # bad input is an answer (exit 2); anything else is a bug and must not be swallowed by the
+    # task: it reaches the client, which records it (exit 1, traceback file) and goes on
+    import synth.batch as batch
+
+    f = tmp_path / "lag.toml"
+    f.write_text(QUICK["lag.toml"])
+    (item,) = collect([f])
+
+    def broken(problem, progress=None):
+        raise ZeroDivisionError("injected")
+
+    monkeypatch.setattr(batch, "design_document", broken)
+    with pytest.raises(ZeroDivisionError):
+        batch.run_item(item)
+    bad = batch.BatchItem(file="x.toml", stem="x", source="x.toml", text="[plant]\n")
+    assert batch.run_item(bad)["exit"] == 2
