@@ -234,6 +234,82 @@ def compare(
             typer.echo(f"picture written to {plot}")
 
 
+@app.command()
+def fit(
+    data: str = typer.Argument(..., metavar="DATA.csv", help="Step-test data: CSV with columns time,input,output."),
+    model: str = typer.Option(..., "--model", help="first-order, second-order or integrating (each with dead time)."),
+    json_out: str | None = typer.Option(None, "--json", help="Write the synth.fit/1 JSON here."),
+    plot: str | None = typer.Option(None, "--plot", help="Draw data, fit and residual (.png or .svg)."),
+    write_requirements: str | None = typer.Option(
+        None, "--write-requirements", help="Write a requirements file (.toml) to start from."),
+) -> None:
+    """Fit a plant model with dead time to recorded step-test data."""
+    from synth.problem.fit import MODELS
+
+    if model not in MODELS:
+        raise OptionError(f"--model {model}: choose from {', '.join(MODELS)}")
+    _check_output_path(json_out, "--json")
+    _check_output_path(plot, "--plot", (".png", ".svg"))
+    _check_output_path(write_requirements, "--write-requirements", (".toml",))
+    from synth.problem.fit import fit_step_test, requirements_skeleton
+
+    result = fit_step_test(data, model)
+    _echo_lines(result.text_lines())
+    if json_out:
+        _write_json_atomic(json_out, result.to_json())
+    if plot:
+        from synth.outputs.report.fit_plot import plot_fit
+
+        plot_fit(result, plot)
+        typer.echo(f"picture written to {plot}")
+    if write_requirements:
+        from synth.batch import write_atomic
+
+        folder = Path(write_requirements).parent
+        ref = Path(os.path.relpath(Path(data).resolve(), folder.resolve())).as_posix()
+        write_atomic(write_requirements, requirements_skeleton(result, data_ref=ref))
+        typer.echo(f"requirements file written to {write_requirements}")
+
+
+@contextmanager
+def _batch_progress(title: str):
+    """A rich progress bar counting finished files on standard error; None when piped."""
+    if not sys.stderr.isatty():
+        yield None
+        return
+    from rich.console import Console
+    from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
+
+    with Progress(TextColumn(title), BarColumn(), MofNCompleteColumn(), TimeElapsedColumn(),
+                  TextColumn("{task.description}"), console=Console(stderr=True),
+                  transient=True) as bar:
+        task = bar.add_task("", total=None)
+
+        def update(done: float, total: float, label: str = "") -> None:
+            bar.update(task, completed=done, total=total, description=label[-48:])
+
+        yield update
+
+
+@app.command()
+def batch(
+    paths: list[str] = typer.Argument(..., metavar="PATH...", help="Requirements files and folders of them (searched recursively)."),
+    out: str = typer.Option(..., "--out", help="Folder for the per-file outputs and the summary."),
+    workers: int | None = typer.Option(None, "--workers", help="Worker processes of the local Dask cluster (default: one per core)."),
+    scheduler: str | None = typer.Option(None, "--scheduler", help="Address of a running Dask scheduler to use instead."),
+    report: bool = typer.Option(False, "--report", help="Also write each file's HTML and PDF report."),
+) -> None:
+    """Design many requirements files in parallel on Dask; per-file outputs and a summary."""
+    from synth.batch import run_batch
+
+    with _batch_progress("designing") as progress:
+        result = run_batch(paths, out, workers=workers, scheduler=scheduler, report=report,
+                           progress=progress)
+    _echo_lines(result.text_lines())
+    if result.exit_code:
+        raise typer.Exit(result.exit_code)
+
+
 # -- entry point -------------------------------------------------------------------------------
 
 def _raise_on_signal(signum, _frame):

@@ -55,7 +55,7 @@ _TOP_KEYS = {"format", "plant", "requirements", "search"}
 
 
 _PLANT_KEYS = {"label", "numerator", "denominator", "zeros", "poles", "gain", "expression",
-               "dead_time", "dead_time_order"}
+               "dead_time", "dead_time_order", "step_test"}
 
 
 @dataclass(frozen=True)
@@ -245,7 +245,7 @@ def _unknown(table, allowed, src, prefix):
             raise InputError(f"unknown key{hint}", src, f"{prefix}{name}")
 
 
-def _parse_plant(t: dict, src: str) -> Plant:
+def _parse_plant(t: dict, src: str, read_data=None) -> Plant:
     _unknown(t, _PLANT_KEYS, src, "plant.")
     forms = []
     if "numerator" in t or "denominator" in t:
@@ -254,9 +254,11 @@ def _parse_plant(t: dict, src: str) -> Plant:
         forms.append("zeros/poles/gain")
     if "expression" in t:
         forms.append("expression")
+    if "step_test" in t:
+        forms.append("step_test")
     if not forms:
         raise InputError("no plant given: set numerator and denominator, or zeros/poles/gain, "
-                         "or expression", src, "plant")
+                         "or expression, or [plant.step_test]", src, "plant")
     if len(forms) > 1:
         raise InputError(f"give exactly one plant form, found {' and '.join(forms)}", src, "plant")
     label = t.get("label", "")
@@ -271,6 +273,8 @@ def _parse_plant(t: dict, src: str) -> Plant:
     order = _num(t.get("dead_time_order", 3), src, "plant.dead_time_order", lo=1, hi=10,
                  integer=True)
     kw = {"dead_time": dead, "pade_order": order, "label": label}
+    if forms[0] == "step_test":
+        return _step_test_plant(t, src, order, label, read_data)
     try:
         if forms[0] == "numerator/denominator":
             for k in ("numerator", "denominator"):
@@ -334,8 +338,30 @@ def _rates(plant: Plant, req: Requirements) -> dict[str, float]:
     return rates
 
 
-def parse_problem(doc: dict, source: str = "<string>") -> Problem:
+def _step_test_plant(t: dict, src: str, order: int, label: str, read_data) -> Plant:
+    """The ``[plant.step_test]`` form: the nominal model fitted to recorded data."""
+    from synth.problem.fit import step_test_fit_from_table
+
+    if "dead_time" in t:
+        raise InputError("comes from the fit when the plant is a [plant.step_test]; remove it",
+                         src, "plant.dead_time")
+    fit = step_test_fit_from_table(t["step_test"], src, read_data)
+    if "ranges_from_fit" in t["step_test"]:
+        # HOOK(parametric plants): when [plant.parameters]/[plant.ranges] land, build the
+        # parametric plant from fit.plant_table(n_sigma=t["step_test"]["ranges_from_fit"])
+        # here instead of refusing.
+        raise InputError("plant ranges need parametric plant support, which this synth does "
+                         "not have yet; remove the key to design for the fitted nominal model",
+                         src, "plant.step_test.ranges_from_fit")
+    return fit.plant(pade_order=order, label=label or None)
+
+
+def parse_problem(doc: dict, source: str = "<string>", *, read_data=None) -> Problem:
     """Validate a parsed TOML document and build the :class:`Problem`.
+
+    ``read_data(path) -> bytes``, when given, supplies the content of a
+    ``[plant.step_test]`` data file (batch runs ship it to their workers);
+    by default the file is read from disk, relative to ``source``.
 
     Raises
     ------
@@ -352,7 +378,7 @@ def parse_problem(doc: dict, source: str = "<string>") -> Problem:
             raise InputError(f"unsupported format {fmt!r}; this synth reads format 1", src, "format")
     if "plant" not in doc:
         raise InputError("missing [plant] table", src, "plant")
-    plant = _parse_plant(_table(doc, "plant", src), src)
+    plant = _parse_plant(_table(doc, "plant", src), src, read_data)
 
     rt = _table(doc, "requirements", src)
     _unknown(rt, set(_REQ_SPEC), src, "requirements.")
@@ -365,8 +391,8 @@ def parse_problem(doc: dict, source: str = "<string>") -> Problem:
     return Problem(plant=plant, requirements=req, search=search, source=src)
 
 
-def problem_from_text(text: str, source: str = "<string>") -> Problem:
-    """Parse TOML text into a :class:`Problem`.
+def problem_from_text(text: str, source: str = "<string>", *, read_data=None) -> Problem:
+    """Parse TOML text into a :class:`Problem` (``read_data`` as in :func:`parse_problem`).
 
     Raises
     ------
@@ -387,7 +413,7 @@ def problem_from_text(text: str, source: str = "<string>") -> Problem:
         raise InputError(f"an integer has more than {sys.get_int_max_str_digits()} digits "
                          f"(synth accepts magnitudes up to {MAX_MAGNITUDE:g})", source) from None
     check_nesting(doc, source)
-    return parse_problem(doc, source)
+    return parse_problem(doc, source, read_data=read_data)
 
 
 def load_problem(path) -> Problem:
