@@ -60,10 +60,10 @@ from pathlib import Path
 from typing import Any
 
 from synth.errors import InputError, OptionError, SynthError
+from synth.outputs.files import check_output_folder, write_json_atomic, write_text_atomic
 
 __all__ = ["BATCH_SCHEMA", "TEMPLATE_NAME", "BatchItem", "BatchResult", "RunRecord",
-           "collect", "design_document", "run_batch", "run_item", "without_timing",
-           "write_atomic"]
+           "collect", "design_document", "run_batch", "run_item", "without_timing"]
 
 BATCH_SCHEMA = "synth.batch/1"
 
@@ -77,32 +77,10 @@ TIMING_FIELDS = (("search", "search_seconds"), ("search", "family_seconds"))
 ProgressFn = Callable[[float, float, str], None]
 
 
+
 # ---------------------------------------------------------------------------
 # files
 # ---------------------------------------------------------------------------
-
-def write_atomic(path: str | Path, data: bytes | str) -> None:
-    """Write ``data`` to ``path`` through a temporary file in the same folder.
-
-    A failure or an interrupt leaves either the old file or none, never a
-    partial one.  (A stand-in until the shared atomic-write helper of
-    ``synth.outputs.files`` is merged; the lead moves callers onto it.)
-    """
-    p = Path(path)
-    raw = data.encode("utf-8") if isinstance(data, str) else data
-    fd, tmp = tempfile.mkstemp(prefix=".synth-", suffix=p.suffix, dir=str(p.parent))
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(raw)
-        # mkstemp makes the file private; give it the mode an ordinary new file gets
-        mask = os.umask(0o022)
-        os.umask(mask)
-        os.chmod(tmp, 0o666 & ~mask)
-        os.replace(tmp, p)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
-
 
 def without_timing(doc: dict) -> dict:
     """A copy of a design document without its wall-clock fields (:data:`TIMING_FIELDS`)."""
@@ -523,23 +501,22 @@ def _record(item: BatchItem, res: dict, out: Path) -> RunRecord:
     design_rel = fit_rel = report_rel = None
     base = out / item.stem
     base.parent.mkdir(parents=True, exist_ok=True)
-    import json
 
     if res.get("design") is not None:
         design_rel = f"{item.stem}.json"
-        write_atomic(out / design_rel, json.dumps(res["design"], indent=2, allow_nan=False) + "\n")
+        write_json_atomic(out / design_rel, res["design"])
     if res.get("fit") is not None:
         fit_rel = f"{item.stem}.fit.json"
-        write_atomic(out / fit_rel, json.dumps(res["fit"], indent=2, allow_nan=False) + "\n")
+        write_json_atomic(out / fit_rel, res["fit"])
     if res.get("report"):
         folder = out / f"{item.stem}-report"
         folder.mkdir(parents=True, exist_ok=True)
         for name, data in sorted(res["report"].items()):
-            write_atomic(folder / name, data)
+            write_json_atomic(folder / name, data)
         main = "report.html" if "report.html" in res["report"] else sorted(res["report"])[0]
         report_rel = f"{item.stem}-report/{main}"
     if res.get("traceback"):
-        write_atomic(out / f"{item.stem}.error.txt", res["traceback"])
+        write_text_atomic(out / f"{item.stem}.error.txt", res["traceback"])
     capped = ((res.get("design") or {}).get("search") or {}).get("time_capped") or ()
     return RunRecord(file=item.file, exit=int(res["exit"]), error=res.get("error"),
                      design_json=design_rel, fit_json=fit_rel, report=report_rel,
@@ -614,8 +591,7 @@ def run_batch(paths: Iterable[str | Path], out_dir: str | Path, *, workers: int 
     if workers is not None and workers < 1:
         raise OptionError(f"--workers {workers}: must be 1 or more")
     out = Path(out_dir)
-    if out.exists() and not out.is_dir():
-        raise OptionError(f"--out {out_dir}: exists and is not a folder")
+    check_output_folder(out, "--out")
     items = collect(paths, exclude=out)
     out.mkdir(parents=True, exist_ok=True)
     records: list[RunRecord | None] = [None] * len(items)
@@ -653,10 +629,8 @@ def run_batch(paths: Iterable[str | Path], out_dir: str | Path, *, workers: int 
             cluster.close()
     result = BatchResult(runs=tuple(r for r in records if r is not None), out_dir=str(out),
                          workers=where)
-    import json
 
-    write_atomic(out / "summary.json", json.dumps(result.to_json(), indent=2,
-                                                  allow_nan=False) + "\n")
-    write_atomic(out / "summary.csv", result.csv_text())
-    write_atomic(out / "index.html", result.index_html())
+    write_text_atomic(out / "summary.json", result.to_json())
+    write_text_atomic(out / "summary.csv", result.csv_text())
+    write_text_atomic(out / "index.html", result.index_html())
     return result

@@ -248,27 +248,34 @@ def fit(
 
     if model not in MODELS:
         raise OptionError(f"--model {model}: choose from {', '.join(MODELS)}")
-    _check_output_path(json_out, "--json")
-    _check_output_path(plot, "--plot", (".png", ".svg"))
-    _check_output_path(write_requirements, "--write-requirements", (".toml",))
-    from synth.problem.fit import fit_step_test, requirements_skeleton
+    check_output_file(json_out, "--json")
+    check_output_file(plot, "--plot", (".png", ".svg"))
+    check_output_file(write_requirements, "--write-requirements", (".toml",))
+    written: list[str] = []
+    with _interruptible(written):
+        from synth.problem.fit import fit_step_test, requirements_skeleton
 
-    result = fit_step_test(data, model)
-    _echo_lines(result.text_lines())
-    if json_out:
-        _write_json_atomic(json_out, result.to_json())
-    if plot:
-        from synth.outputs.report.fit_plot import plot_fit
+        result = fit_step_test(data, model)
+        _echo_lines(result.text_lines())
+        if json_out:
+            _write_json(json_out, result.to_json(), written)
+        if plot:
+            from synth.outputs.report.fit_plot import plot_fit
 
-        plot_fit(result, plot)
-        typer.echo(f"picture written to {plot}")
-    if write_requirements:
-        from synth.batch import write_atomic
+            plot_fit(result, plot)
+            written.append(plot)
+            typer.echo(f"picture written to {plot}")
+        if write_requirements:
+            from pathlib import Path
 
-        folder = Path(write_requirements).parent
-        ref = Path(os.path.relpath(Path(data).resolve(), folder.resolve())).as_posix()
-        write_atomic(write_requirements, requirements_skeleton(result, data_ref=ref))
-        typer.echo(f"requirements file written to {write_requirements}")
+            from synth.outputs.files import write_text_atomic
+
+            folder = Path(write_requirements).parent
+            ref = Path(os.path.relpath(Path(data).resolve(), folder.resolve())).as_posix()
+            write_text_atomic(write_requirements, requirements_skeleton(result, data_ref=ref),
+                              "--write-requirements")
+            written.append(write_requirements)
+            typer.echo(f"requirements file written to {write_requirements}")
 
 
 @contextmanager
@@ -300,12 +307,15 @@ def batch(
     report: bool = typer.Option(False, "--report", help="Also write each file's HTML and PDF report."),
 ) -> None:
     """Design many requirements files in parallel on Dask; per-file outputs and a summary."""
-    from synth.batch import run_batch
+    check_output_folder(out, "--out")
+    written: list[str] = []
+    with _interruptible(written):
+        from synth.batch import run_batch
 
-    with _batch_progress("designing") as progress:
-        result = run_batch(paths, out, workers=workers, scheduler=scheduler, report=report,
-                           progress=progress)
-    _echo_lines(result.text_lines())
+        with _batch_progress("designing") as progress:
+            result = run_batch(paths, out, workers=workers, scheduler=scheduler, report=report,
+                               progress=progress)
+        _echo_lines(result.text_lines())
     if result.exit_code:
         raise typer.Exit(result.exit_code)
 

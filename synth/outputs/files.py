@@ -253,10 +253,13 @@ def atomic_file(path, option: str | None = None) -> Iterator[Path]:
         tmp_path.unlink(missing_ok=True)
 
 
-def write_text_atomic(path, text: str, option: str | None = None) -> Path:
-    """Write ``text`` (UTF-8) to ``path`` whole or not at all; return the path."""
+def write_text_atomic(path, text: str | bytes, option: str | None = None) -> Path:
+    """Write ``text`` (UTF-8; bytes as they are) to ``path`` whole or not at all; return the path."""
     with atomic_file(path, option) as tmp:
-        tmp.write_text(text, encoding="utf-8")
+        if isinstance(text, bytes):
+            tmp.write_bytes(text)
+        else:
+            tmp.write_text(text, encoding="utf-8")
     return Path(path)
 
 

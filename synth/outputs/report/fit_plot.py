@@ -37,7 +37,7 @@ def plot_fit(fit, path: str | Path) -> Path:
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
 
-    from synth.batch import write_atomic
+    from synth.outputs.files import write_text_atomic
 
     out = Path(path)
     suffix = out.suffix.lower()
@@ -79,5 +79,5 @@ def plot_fit(fit, path: str | Path) -> Path:
         fig.savefig(buf, format=suffix[1:], facecolor="white", dpi=120)
     finally:
         plt.close(fig)
-    write_atomic(out, buf.getvalue())
+    write_text_atomic(out, buf.getvalue())
     return out
