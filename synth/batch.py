@@ -512,7 +512,7 @@ def _record(item: BatchItem, res: dict, out: Path) -> RunRecord:
         folder = out / f"{item.stem}-report"
         folder.mkdir(parents=True, exist_ok=True)
         for name, data in sorted(res["report"].items()):
-            write_json_atomic(folder / name, data)
+            write_text_atomic(folder / name, data)
         main = "report.html" if "report.html" in res["report"] else sorted(res["report"])[0]
         report_rel = f"{item.stem}-report/{main}"
     if res.get("traceback"):
@@ -630,7 +630,7 @@ def run_batch(paths: Iterable[str | Path], out_dir: str | Path, *, workers: int 
     result = BatchResult(runs=tuple(r for r in records if r is not None), out_dir=str(out),
                          workers=where)
 
-    write_text_atomic(out / "summary.json", result.to_json())
+    write_json_atomic(out / "summary.json", result.to_json())
     write_text_atomic(out / "summary.csv", result.csv_text())
     write_text_atomic(out / "index.html", result.index_html())
     return result
