@@ -81,8 +81,12 @@ class ProcessModel:
 
     @property
     def order(self) -> int:
-        """Number of lags (the integrator not counted)."""
-        return len(self.time_constants)
+        """Model order as the half rule counts it: the lags, plus one for an integrator.
+
+        (An integrator is the limit of an infinitely slow lag, so ``k'/s`` is a
+        first-order model and ``k'/(s (tau s + 1))`` a second-order one.)
+        """
+        return len(self.time_constants) + (1 if self.integrating else 0)
 
     @property
     def normalised_dead_time(self) -> float:
@@ -266,7 +270,7 @@ def half_rule_factors(gain: float, lags, leads=(), dead_time: float = 0.0, order
         Numerator time constants ``T0`` (negative: right-half-plane zero).
     dead_time : float
     order : {1, 2}
-        Number of lags kept (besides an integrator).
+        Number of lags kept, an integrator counting as the slowest one.
     integrating : bool
 
     Returns
@@ -285,9 +289,9 @@ def half_rule_factors(gain: float, lags, leads=(), dead_time: float = 0.0, order
     if any(not t > 0 for t in lags):
         raise ValueError(f"lags must be positive time constants, got {lags}")
     theta0 = float(dead_time) + sum(-t for t in leads if t < 0)
-    # the integrator is an infinitely slow lag that is always kept
+    # the integrator is an infinitely slow lag that is always kept (it takes one slot)
     inf = [math.inf] if integrating else []
-    slots = order + len(inf)
+    slots = order
     k = float(gain)
     for T0 in sorted((t for t in leads if t > 0), reverse=True):
         _, theta = _split(inf + lags, theta0, slots)

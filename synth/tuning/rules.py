@@ -137,9 +137,9 @@ def _pid(rule, model, kp, ti, td, n_filter, notes) -> Tuning:
 
 def _first_order(model: ProcessModel, rule: str) -> tuple[float, float, float]:
     """``(K, L, T)`` of a FOPDT model, ``(Kv, L, inf)`` of an integrating one."""
-    if model.order > 1 or (model.integrating and model.order):
+    if model.order > 1:
         raise ValueError(f"{rule} needs a first-order (or pure integrating) model, "
-                         f"got {model.order} lags")
+                         f"got order {model.order}")
     if model.integrating:
         return model.gain, model.dead_time, math.inf
     T = model.time_constants[0] if model.time_constants else 0.0
