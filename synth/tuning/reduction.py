@@ -133,6 +133,23 @@ def _strip_origin(poly: np.ndarray) -> tuple[np.ndarray, int]:
     return p, m
 
 
+def _origin_split(num, den) -> tuple[np.ndarray, np.ndarray, int]:
+    """Numerator and denominator without their roots at the origin, and the poles there.
+
+    Raises
+    ------
+    RuleNotApplicable
+        For a zero at the origin or more than one pole there.
+    """
+    n, zn = _strip_origin(num)
+    d, zd = _strip_origin(den)
+    if zn:
+        raise RuleNotApplicable("the plant has a zero at the origin (no static gain to control)")
+    if zd > 1:
+        raise RuleNotApplicable(f"the plant has {zd} poles at the origin; the rules allow one")
+    return n, d, zd
+
+
 def _root_clusters(poly: np.ndarray) -> list[tuple[complex, int]]:
     """Roots of ``poly`` with near-coincident ones merged: ``(mean root, multiplicity)``.
 
@@ -197,12 +214,7 @@ def half_rule(num, den, dead_time: float = 0.0, order: int = 1) -> ProcessModel:
     .. [1] S. Skogestad, "Simple analytic rules for model reduction and PID
        controller tuning", J. Process Control 13 (2003) 291-309, section 3.
     """
-    n, zn = _strip_origin(num)
-    d, zd = _strip_origin(den)
-    if zn:
-        raise RuleNotApplicable("the plant has a zero at the origin (no static gain to control)")
-    if zd > 1:
-        raise RuleNotApplicable(f"the plant has {zd} poles at the origin; the rules allow one")
+    n, d, zd = _origin_split(num, den)
     lags = _real_time_constants(d, "poles")
     if any(t < 0 for t in lags):
         raise RuleNotApplicable("the plant is unstable; the half rule needs stable lags")
@@ -388,12 +400,7 @@ def step_response_model(num, den, dead_time: float = 0.0, method: str = "tangent
     """
     if method not in ("tangent", "tangent-63", "two-point"):
         raise ValueError(f"unknown method {method!r}")
-    n, zn = _strip_origin(num)
-    d, zd = _strip_origin(den)
-    if zn:
-        raise RuleNotApplicable("the plant has a zero at the origin (no static gain to control)")
-    if zd > 1:
-        raise RuleNotApplicable(f"the plant has {zd} poles at the origin; the rules allow one")
+    n, d, zd = _origin_split(num, den)
     if n.size > d.size + zd - 1:
         raise RuleNotApplicable("the step-response methods need a strictly proper plant")
     poles = np.roots(d) if d.size > 1 else np.zeros(0)
