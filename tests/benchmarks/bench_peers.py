@@ -303,8 +303,18 @@ def main(argv=None) -> int:
               file=sys.stderr)
         return 2
     plants = [known[n] for n in names] if names else list(peers.BATCH)
-    levels = [float(x) for x in args.ms.split(",") if x]
+    try:
+        levels = [float(x) for x in args.ms.split(",") if x]
+    except ValueError:
+        levels = []
+    if not levels or not all(1.0 < x < math.inf for x in levels):
+        print(f"bench_peers: --ms must be numbers above 1, got {args.ms!r}", file=sys.stderr)
+        return 2
     structures = [s for s in args.structures.split(",") if s]
+    if not structures or not set(structures) <= {"PI", "PID"}:
+        print(f"bench_peers: --structures must be PI and/or PID, got {args.structures!r}",
+              file=sys.stderr)
+        return 2
     with tempfile.TemporaryDirectory() as d:
         tmp = Path(d)
         objective = "disturbance" if objective_accepted(tmp) else None
