@@ -63,7 +63,10 @@ def test_case_file_is_well_formed(path):
     assert "requirements" in data
     search = data["search"]
     assert isinstance(search["seed"], int)
-    assert 0 < search["time_budget"] <= 8
+    # the amount of search is counted in work (search.effort), so a bundled case gives the
+    # same answer on any machine; time_budget, a safety limit only, must not decide it
+    assert search.get("effort", 1.0) <= 1.0
+    assert "time_budget" not in search or search["time_budget"] >= 60
     # comment header: scenario, units and where the numbers come from, before any key
     header = []
     for line in text.splitlines():
@@ -84,7 +87,7 @@ def test_case_loads_through_load_problem(path):
 
     problem = load_problem(path)
     assert problem.plant.den.size >= 2
-    assert problem.search.time_budget <= 8
+    assert problem.search.effort <= 1.0
 
 
 def test_the_cases_use_all_three_plant_forms():

@@ -10,10 +10,13 @@ import numpy as np
 
 from synth.families.base import (
     Family,
+    _conic,
     _mul_rows,
     _ones,
+    _power_generators,
     _stack,
 )
+from synth.locus.conditions import lead_bisector, section_angle
 from synth.numerics.poly import trim
 from synth.problem.plant import describe_factored
 
@@ -48,6 +51,7 @@ class GeneralFamily(Family):
     """
 
     name: ClassVar[str] = "general"
+    position: ClassVar[int] = 80
 
     @property
     def order(self) -> int:
@@ -103,9 +107,6 @@ class GeneralFamily(Family):
         K = self.space.gain(X[:, 0])
         return K[:, None] * self._monic(X[:, 1:1 + n]), self._monic(X[:, 1 + n:1 + 2 * n])
 
-    def _fixed_den(self, fixed):
-        return np.concatenate([[1.0], fixed])
-
     def _coords(self, monic) -> list[float] | None:
         """Search coordinates of a monic polynomial, or None outside the disc |s| <= w_max."""
         W = self.space.w_max
@@ -114,7 +115,7 @@ class GeneralFamily(Family):
             return None
         if self.order == 3:
             r = np.roots(p)
-            real = r[np.abs(r.imag) <= 1e-9 * np.maximum(1.0, np.abs(r))]
+            real = r[np.abs(r.imag) <= 1e-9 * np.abs(r)]
             if real.size == 0:
                 real = r[[int(np.argmin(np.abs(r.imag)))]]
             root = float(real[0].real)
@@ -147,16 +148,17 @@ class GeneralFamily(Family):
         for label, p in (("zero", num), ("pole", den)):
             if p.size > 1:
                 roots = sorted(np.roots(p), key=lambda c: (c.real, c.imag))
-                for i, r in enumerate(r for r in roots if r.imag >= -1e-12):
+                # relative tests: the same at every frequency scale
+                for i, r in enumerate(r for r in roots if r.imag >= -1e-12 * abs(r)):
                     out[f"{label}{i + 1}_re"] = float(r.real)
-                    if abs(r.imag) > 1e-12:
+                    if abs(r.imag) > 1e-12 * abs(r):
                         out[f"{label}{i + 1}_im"] = float(r.imag)
         return out
 
     def describe(self, x):
         num, den = self.poly(x)
         poles = np.roots(den) if den.size > 1 else np.zeros(0)
-        rhp = int(np.sum(poles.real > 1e-9 * max(1.0, float(np.max(np.abs(poles), initial=1.0)))))
+        rhp = int(np.sum(poles.real > 1e-9 * float(np.max(np.abs(poles), initial=0.0))))
         text = f"general (order {self.order}): C(s) = {describe_factored(num, den)}"
         return text + (f" ({rhp} right-half-plane pole{'s' if rhp > 1 else ''})" if rhp else "")
 
@@ -174,3 +176,90 @@ class GeneralFamily(Family):
         p = np.poly(np.full(self.order, -w))
         u = self._coords(p)
         return np.asarray([self._u(k), *u, *u])
+
+    # -- what the strategies need ---------------------------------------------------
+    def placement_designs(self, kit):
+        """``order`` equal lead sections by the bisector method, each supplying
+        ``phi / order`` (for a deficiency too large for one lead); for a step-error limit
+        the last one replaced by a lag section whose ratio gives the static gain."""
+        out = []
+        for tgt, sign in kit.target_signs():
+            phi = kit.deficiency(tgt.point, sign)
+            if phi is None:
+                continue
+            phi %= 360.0   # sections add positive angle: -165 deg is 195 deg of lead
+            out.extend(self._multi_lead(kit, tgt, phi, {"deficiency_deg": phi, "gain_sign": sign}))
+        return out
+
+    def _multi_lead(self, kit, tgt, phi, base):
+        s, kp_need, g0, order = tgt.point, kit.kp_need, kit.g0, self.order
+        out = []
+        if phi <= 0.0:
+            return out
+        variants = [("equal lead sections", order, None)]
+        if kp_need is not None and order >= 2 and math.isfinite(g0) and g0 != 0.0:
+            variants.append(("equal lead sections + lag", order - 1, abs(s) / kit.lag_factors[0]))
+        for name, n, zl in variants:
+            beta = 1.0
+            for _ in range(8):
+                lag_angle = 0.0 if zl is None else section_angle(s, zl, zl / beta)
+                each = (phi - lag_angle) / n
+                zp = lead_bisector(s, each) if 0.0 < each <= kit.max_section_deg else None
+                if zp is None:
+                    kit.skip(f"general: {n} sections cannot supply {phi - lag_angle:.1f} deg")
+                    break
+                z, p = zp
+                zeros, poles = [z] * n, [p] * n
+                if zl is not None:
+                    zeros.append(zl)
+                    poles.append(zl / beta)
+                info = {**base, "sections": n, "section_angle_deg": each}
+                if zl is None:
+                    pl = kit.place(self.name, zeros, poles, tgt, name, info)
+                    if pl is not None:
+                        out.append(pl)
+                    break
+                k = kit.gain_for(zeros, poles, s)
+                if k is None:
+                    break
+                kp = k * (z / p) ** n * beta * g0
+                if kp <= 0.0:
+                    break
+                if kp >= kp_need * (1.0 - 1e-9):
+                    info.update(lag_angle_deg=lag_angle, static_gain_increase=beta,
+                                static_loop_gain=kp)
+                    pl = kit.place(self.name, zeros, poles, tgt, name, info)
+                    if pl is not None:
+                        out.append(pl)
+                    break
+                beta *= kp_need / kp * 1.02
+        return out
+
+    def convex_fixed_parts(self, w, region):
+        """The denominators ``(s + 5 w)^n`` and ``s (s + 5 w)^(n - 1)`` (coefficients after the 1)."""
+        n = self.order
+        out = []
+        for integrator in (False, True):
+            roots = [0.0] + [-5.0 * w] * (n - 1) if integrator else [-5.0 * w] * n
+            out.append(tuple(float(v) for v in np.poly(roots).real[1:]))
+        return tuple(out)
+
+    def fixed_part_of(self, num, den):
+        d = trim(den)
+        if d.size != self.order + 1:
+            return None
+        return tuple(float(v) for v in d[1:] / d[0])
+
+    def conic_form(self, fixed, w):
+        # every numerator coefficient free; only the leading one's sign is the gain's
+        k = self.order + 1
+        lower = np.full(k, -np.inf)
+        lower[0] = 0.0
+        carries = np.zeros(k, dtype=bool)
+        carries[0] = True
+        den = np.concatenate([[1.0], np.asarray(fixed, dtype=float)])
+        return _conic(den, _power_generators(k, w), lower, carries, tuple(fixed), self.fixed_names)
+
+
+#: The registered family (see :func:`synth.families.registry`).
+FAMILY = GeneralFamily
