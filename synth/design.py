@@ -11,7 +11,8 @@ terminal table.
 Work, not time.  Each family gets ``search.effort`` times
 :func:`synth.strategies.family_work` work units, and each strategy its
 ``share`` of them (``context.work``); a family the proportional analysis
-already rules out (``Family.futility``) gets :data:`FUTILE_EFFORT` of that.
+already rules out (``Family.futility``) gets the work of effort
+:data:`FUTILE_EFFORT` whatever ``search.effort`` (a few nearest designs to list).
 Seeds derive from ``search.seed``, the family and the strategy name.  So the
 same file and seed give the same JSON (timing fields aside) alone or under
 load.  ``search.time_budget`` is only a safety limit: checked between
@@ -59,8 +60,8 @@ CAUTION = ("These designs rest on a linear model. Verify them against actuator s
 
 ProgressFn = Callable[[float, float, str], None]
 
-#: Fraction of the normal work a family gets when the proportional analysis shows
-#: that it cannot be feasible (enough for a few nearest designs to list).
+#: Effort of a family the proportional analysis shows cannot be feasible (enough
+#: for the search's initial sample: a few nearest designs to list).
 FUTILE_EFFORT = 0.02
 
 
@@ -414,7 +415,9 @@ def run_design(problem, strategies=None, families=None,
     for fam in fams:
         start = time.monotonic()
         reason = fam.futility(explanation)
-        effort = search.effort * (FUTILE_EFFORT if reason else 1.0)
+        # a ruled-out family gets a fixed sliver of work whatever the effort: enough for a
+        # few nearest designs to list, never a full search
+        effort = FUTILE_EFFORT if reason else search.effort
         if reason:
             futile[fam.name] = reason
         units = family_work(fam, effort)

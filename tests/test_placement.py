@@ -24,11 +24,11 @@ from synth.problem.requirements import problem_from_text
 from synth.strategies import SearchContext, family_work
 from synth.strategies.placement import (
     ORIGIN,
+    STRATEGY,
     angle_deficiency,
     lead_bisector,
     magnitude_gain,
     placements,
-    STRATEGY,
     target_points,
 )
 

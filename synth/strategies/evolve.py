@@ -487,12 +487,14 @@ class EvolveStrategy:
             Up to four distinct candidates of the evolution, best estimated
             first, plus each prior candidate that the polish improved.
         """
-        objective = SearchObjective(problem, family)
-        lo, hi = family.bounds()
         p = family.n_params
-        rng = np.random.default_rng(context.seed)
         popmult = max(5, int(math.ceil(_POPULATION / p)))
         npop = popmult * p
+        if int(context.work) < npop:
+            return []  # not even the initial population fits in the work allowance
+        objective = SearchObjective(problem, family)
+        lo, hi = family.bounds()
+        rng = np.random.default_rng(context.seed)
         init = _latin_hypercube(rng, npop, lo, hi)
         starts = _gain_starts(family, context)
         for i, x in enumerate(starts[: npop // 2]):
