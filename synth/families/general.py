@@ -183,56 +183,43 @@ class GeneralFamily(Family):
         ``phi / order`` (for a deficiency too large for one lead); for a step-error limit
         the last one replaced by a lag section whose ratio gives the static gain."""
         out = []
-        for tgt, sign in kit.target_signs():
-            phi = kit.deficiency(tgt.point, sign)
-            if phi is None:
-                continue
-            phi %= 360.0   # sections add positive angle: -165 deg is 195 deg of lead
-            out.extend(self._multi_lead(kit, tgt, phi, {"deficiency_deg": phi, "gain_sign": sign}))
+        for tgt, sign, phi in kit.lead_deficiencies():
+            if phi > 0.0:
+                out += self._multi_lead(kit, tgt, phi, {"deficiency_deg": phi, "gain_sign": sign})
         return out
 
     def _multi_lead(self, kit, tgt, phi, base):
-        s, kp_need, g0, order = tgt.point, kit.kp_need, kit.g0, self.order
+        s, order = tgt.point, self.order
+
+        def sections(n, lag_angle):
+            """``n`` equal bisector sections supplying ``phi - lag_angle``, or None."""
+            each = (phi - lag_angle) / n
+            zp = lead_bisector(s, each) if 0.0 < each <= kit.max_section_deg else None
+            if zp is None:
+                kit.skip(f"general: {n} sections cannot supply {phi - lag_angle:.1f} deg")
+                return None
+            return [zp[0]] * n, [zp[1]] * n, {**base, "sections": n, "section_angle_deg": each}
+
         out = []
-        if phi <= 0.0:
-            return out
-        variants = [("equal lead sections", order, None)]
-        if kp_need is not None and order >= 2 and math.isfinite(g0) and g0 != 0.0:
-            variants.append(("equal lead sections + lag", order - 1, abs(s) / kit.lag_factors[0]))
-        for name, n, zl in variants:
-            beta = 1.0
-            for _ in range(8):
-                lag_angle = 0.0 if zl is None else section_angle(s, zl, zl / beta)
-                each = (phi - lag_angle) / n
-                zp = lead_bisector(s, each) if 0.0 < each <= kit.max_section_deg else None
-                if zp is None:
-                    kit.skip(f"general: {n} sections cannot supply {phi - lag_angle:.1f} deg")
-                    break
-                z, p = zp
-                zeros, poles = [z] * n, [p] * n
-                if zl is not None:
-                    zeros.append(zl)
-                    poles.append(zl / beta)
-                info = {**base, "sections": n, "section_angle_deg": each}
-                if zl is None:
-                    pl = kit.place(self.name, zeros, poles, tgt, name, info)
-                    if pl is not None:
-                        out.append(pl)
-                    break
-                k = kit.gain_for(zeros, poles, s)
-                if k is None:
-                    break
-                kp = k * (z / p) ** n * beta * g0
-                if kp <= 0.0:
-                    break
-                if kp >= kp_need * (1.0 - 1e-9):
-                    info.update(lag_angle_deg=lag_angle, static_gain_increase=beta,
-                                static_loop_gain=kp)
-                    pl = kit.place(self.name, zeros, poles, tgt, name, info)
-                    if pl is not None:
-                        out.append(pl)
-                    break
-                beta *= kp_need / kp * 1.02
+        leads = sections(order, 0.0)
+        if leads is not None:
+            out += kit.place(self.name, *leads[:2], tgt, "equal lead sections", leads[2])
+        if kit.kp_need is not None and order >= 2 and math.isfinite(kit.g0) and kit.g0 != 0.0:
+            zl = abs(s) / kit.lag_factors[0]
+
+            def build(beta):
+                lag_angle = section_angle(s, zl, zl / beta)
+                built = sections(order - 1, lag_angle)
+                if built is None:
+                    return None
+                zeros, poles, info = built
+                return [*zeros, zl], [*poles, zl / beta], {**info, "lag_angle_deg": lag_angle}
+
+            found = kit.lag_ratio_for_static_gain(build, s)
+            if found is not None:
+                zeros, poles, info, beta, kp = found
+                out += kit.place(self.name, zeros, poles, tgt, "equal lead sections + lag",
+                                 {**info, "static_gain_increase": beta, "static_loop_gain": kp})
         return out
 
     def convex_fixed_parts(self, w, region):

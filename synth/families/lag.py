@@ -50,10 +50,8 @@ class LagFamily(_PairFamily):
                 k = kit.gain_for([z], [p], tgt.point)
                 if k is None or k * (z / p) * g0 < kp_need:
                     continue  # this lag lowers the static gain below the error limit
-            pl = kit.place(self.name, [z], [p], tgt, "bisector (negative deficiency)",
-                           {"deficiency_deg": phi, "gain_sign": sign})
-            if pl is not None:
-                out.append(pl)
+            out += kit.place(self.name, [z], [p], tgt, "bisector (negative deficiency)",
+                             {"deficiency_deg": phi, "gain_sign": sign})
         return out
 
     def _for_static_gain(self, kit, s0, k0, tgt0, f):
@@ -71,9 +69,8 @@ class LagFamily(_PairFamily):
                 info = {"deficiency_deg": 0.0, "lag_zero_factor": f,
                         "static_gain_increase": beta, "static_loop_gain": k1 * g0 * beta,
                         "proportional_point": [s0.real, s0.imag], "proportional_gain": k0}
-                pl = kit.place(self.name, [zl], [zl / beta], tgt,
-                               f"lag zero |s|/{f:g}, ratio from the static gain", info)
-                return [] if pl is None else [pl]
+                return kit.place(self.name, [zl], [zl / beta], tgt,
+                                 f"lag zero |s|/{f:g}, ratio from the static gain", info)
             if k1 * g0 <= 0:
                 return []
         return []

@@ -23,20 +23,14 @@ class LeadFamily(_PairFamily):
         """One lead section at each target by the bisector method, with the zero below the
         target, or with the zero on a stable real plant pole (at most ``max_section_deg``)."""
         out = []
-        for tgt, sign in kit.target_signs():
+        for tgt, sign, phi in kit.lead_deficiencies():
             s = tgt.point
-            phi = kit.deficiency(s, sign)
-            if phi is None:
-                continue
-            phi %= 360.0   # sections add positive angle: -165 deg is 195 deg of lead
             if phi > kit.max_section_deg:
                 kit.skip(f"deficiency {phi:.1f} deg at {s:.3g} is too large for one lead section "
                          "(see the general family: split over sections)")
             for name, z, p in kit.lead_sections(s, phi, kit.stable_real_poles(s)):
-                pl = kit.place(self.name, [z], [p], tgt, name,
-                               {"deficiency_deg": phi, "gain_sign": sign, "lead_angle_deg": phi})
-                if pl is not None:
-                    out.append(pl)
+                out += kit.place(self.name, [z], [p], tgt, name,
+                                 {"deficiency_deg": phi, "gain_sign": sign, "lead_angle_deg": phi})
         return out
 
     def convex_fixed_parts(self, w, region):

@@ -83,55 +83,43 @@ class LeadLagFamily(Family):
         loop gain suffices, the lead supplying the lag's angle too, so the dominant pair
         stays exactly at the target."""
         out = []
-        for tgt, sign in kit.target_signs():
-            phi = kit.deficiency(tgt.point, sign)
-            if phi is None:
-                continue
-            phi %= 360.0   # sections add positive angle: -165 deg is 195 deg of lead
+        for tgt, sign, phi in kit.lead_deficiencies():
             if kit.kp_need is None:
                 kit.skip(f"lead-lag: no lag section needed ({kit.kp_why})")
                 continue
             base = {"deficiency_deg": phi, "gain_sign": sign}
             for f in kit.lag_factors:
-                out.extend(self._sections(kit, tgt, phi, f, base))
+                out += self._sections(kit, tgt, phi, f, base)
         return out
 
     def _sections(self, kit, tgt, phi, factor, base):
-        s, kp_need, g0 = tgt.point, kit.kp_need, kit.g0
-        out = []
-        if not math.isfinite(g0) or g0 == 0.0:
-            return out
+        s = tgt.point
+        if not math.isfinite(kit.g0) or kit.g0 == 0.0:
+            return []
         zl = abs(s) / factor
+        out = []
         # the lead constructions, each iterated on the lag ratio
         names = [c[0] for c in kit.lead_sections(s, min(phi, kit.max_section_deg))] or ["bisector"]
         for name in names:
-            beta = 1.0
-            for _ in range(8):
-                pl_ = zl / beta
-                lag_angle = section_angle(s, zl, pl_)
+
+            def build(beta, name=name):
+                lag_angle = section_angle(s, zl, zl / beta)
                 need = phi - lag_angle
                 secs = [c for c in kit.lead_sections(s, need) if c[0] == name]
                 if not secs:
                     kit.skip(f"lead-lag: lead deficiency {need:.1f} deg at {s:.3g} is out of "
                              "range for one section")
-                    break
+                    return None
                 _, z, p = secs[0]
-                k = kit.gain_for([z, zl], [p, pl_], s)
-                if k is None:
-                    break
-                kp = k * (z / p) * beta * g0
-                if kp <= 0.0:
-                    break
-                if kp >= kp_need * (1.0 - 1e-9):
-                    info = {**base, "lead_angle_deg": need, "lag_angle_deg": lag_angle,
-                            "lag_zero_factor": factor, "static_gain_increase": beta,
-                            "static_loop_gain": kp}
-                    pl = kit.place(self.name, [z, zl], [p, pl_], tgt,
-                                   f"{name} lead + lag zero |s_d|/{factor:g}", info)
-                    if pl is not None:
-                        out.append(pl)
-                    break
-                beta *= kp_need / kp * 1.02
+                return [z, zl], [p, zl / beta], {"lead_angle_deg": need, "lag_angle_deg": lag_angle}
+
+            found = kit.lag_ratio_for_static_gain(build, s)
+            if found is not None:
+                zeros, poles, info, beta, kp = found
+                out += kit.place(self.name, zeros, poles, tgt,
+                                 f"{name} lead + lag zero |s_d|/{factor:g}",
+                                 {**base, **info, "lag_zero_factor": factor,
+                                  "static_gain_increase": beta, "static_loop_gain": kp})
         return out
 
     def convex_fixed_parts(self, w, region):

@@ -46,10 +46,8 @@ class PFamily(Family):
             if any(abs(k - k0) <= 1e-6 * abs(k0) for k0 in seen):
                 continue
             seen.append(k)
-            pl = kit.place(self.name, [], [], tgt, "gain on the proportional locus",
-                           {"deficiency_deg": 0.0, "gain_sign": int(np.sign(k))})
-            if pl is not None:
-                out.append(pl)
+            out += kit.place(self.name, [], [], tgt, "gain on the proportional locus",
+                             {"deficiency_deg": 0.0, "gain_sign": int(np.sign(k))})
         return out
 
     def convex_fixed_parts(self, w, region):

@@ -75,19 +75,13 @@ class PDFamily(Family):
         """Filter pole far out (about ten times ``|s_d|``), the zero from the deficiency
         plus the filter's lag, the ratio kept in the family's range."""
         out = []
-        for tgt, sign in kit.target_signs():
-            phi = kit.deficiency(tgt.point, sign)
-            if phi is None:
-                continue
-            phi %= 360.0   # sections add positive angle: -165 deg is 195 deg of lead
+        for tgt, sign, phi in kit.lead_deficiencies():
             zN = kit.pd_section(tgt.point, phi, PD_RATIO_RANGE)
-            if zN is None:
-                continue
-            z, N = zN
-            pl = kit.place(self.name, [z], [N], tgt, "filter pole far out, zero from the deficiency",
-                           {"deficiency_deg": phi, "gain_sign": sign, "filter_pole": N})
-            if pl is not None:
-                out.append(pl)
+            if zN is not None:
+                z, N = zN
+                out += kit.place(self.name, [z], [N], tgt,
+                                 "filter pole far out, zero from the deficiency",
+                                 {"deficiency_deg": phi, "gain_sign": sign, "filter_pole": N})
         return out
 
     def convex_fixed_parts(self, w, region):

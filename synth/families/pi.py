@@ -69,9 +69,9 @@ class PIFamily(Family):
                 res = kit.relocate([a], [0.0], tgt0, limit=None)
                 if res is None:
                     continue
-                _add(out, kit.place(self.name, [a], [0.0], res[2],
-                                    "PI zero on a plant pole, gain on the damping ray",
-                                    {"deficiency_deg": 0.0, "cancelled_pole": -a}))
+                out += kit.place(self.name, [a], [0.0], res[2],
+                                 "PI zero on a plant pole, gain on the damping ray",
+                                 {"deficiency_deg": 0.0, "cancelled_pole": -a})
         for s0, k0, tgt0 in points:
             for f in kit.lag_factors:
                 zi = abs(s0) / f
@@ -80,8 +80,8 @@ class PIFamily(Family):
                     continue
                 info = {"deficiency_deg": 0.0, "pi_zero_factor": f,
                         "proportional_point": [s0.real, s0.imag], "proportional_gain": k0}
-                _add(out, kit.place(self.name, [zi], [0.0], res[2],
-                                    f"PI zero |s|/{f:g} below the proportional-locus point", info))
+                out += kit.place(self.name, [zi], [0.0], res[2],
+                                 f"PI zero |s|/{f:g} below the proportional-locus point", info)
         return out
 
     def _by_angle(self, kit):
@@ -97,8 +97,8 @@ class PIFamily(Family):
             z = -s.real + s.imag / math.tan(math.radians(psi))
             if z <= 0.0:
                 continue
-            _add(out, kit.place(self.name, [z], [0.0], tgt, "PI zero from the deficiency",
-                                {"deficiency_deg": phi, "gain_sign": sign}))
+            out += kit.place(self.name, [z], [0.0], tgt, "PI zero from the deficiency",
+                             {"deficiency_deg": phi, "gain_sign": sign})
         return out
 
     def convex_fixed_parts(self, w, region):
@@ -114,11 +114,6 @@ class PIFamily(Family):
             return super().pid_gains(num, den)
         nat = self.natural(x)
         return ParallelGains(kp=nat["Kp"], ki=nat["Ki"], kd=0.0, tf=0.0)
-
-
-def _add(out, placement):
-    if placement is not None:
-        out.append(placement)
 
 
 #: The registered family (see :func:`synth.families.registry`).

@@ -102,12 +102,8 @@ class PIDFamily(Family):
         deficiency plus the PI section's and the filter's lag; or the two zeros on the
         slowest stable plant poles (:meth:`_cancelling`)."""
         out = []
-        for tgt, sign in kit.target_signs():
+        for tgt, sign, phi in kit.lead_deficiencies():
             s = tgt.point
-            phi = kit.deficiency(s, sign)
-            if phi is None:
-                continue
-            phi %= 360.0   # sections add positive angle: -165 deg is 195 deg of lead
             base = {"deficiency_deg": phi, "gain_sign": sign}
             for f in kit.lag_factors:
                 zi = abs(s) / f
@@ -116,11 +112,11 @@ class PIDFamily(Family):
                 if zN is None:
                     continue
                 z, N = zN
-                _add(out, kit.place(self.name, [zi, z], [0.0, N], tgt,
-                                    f"PI zero |s_d|/{f:g}, PD zero from the deficiency",
-                                    {**base, "pi_zero": zi, "pi_angle_deg": pi_angle,
-                                     "filter_pole": N}))
-            _add(out, self._cancelling(kit, tgt))
+                out += kit.place(self.name, [zi, z], [0.0, N], tgt,
+                                 f"PI zero |s_d|/{f:g}, PD zero from the deficiency",
+                                 {**base, "pi_zero": zi, "pi_angle_deg": pi_angle,
+                                  "filter_pole": N})
+            out += self._cancelling(kit, tgt)
         return out
 
     def _cancelling(self, kit, tgt):
@@ -135,14 +131,14 @@ class PIDFamily(Family):
         """
         pair = kit.slow_stable_pair()
         if pair is None:
-            return None
+            return []
         N = 2.0 * -tgt.point.real
         if N > kit.w_max:
-            return None
+            return []
         zeros = [-v for v in pair]
         res = kit.relocate(zeros, [0.0, N], tgt, limit=None)
         if res is None:
-            return None
+            return []
         return kit.place(self.name, zeros, [0.0, N], res[2],
                          "PID zeros on the slowest plant poles, filter pole from the decay",
                          {"deficiency_deg": 0.0, "filter_pole": N,
@@ -169,11 +165,6 @@ class PIDFamily(Family):
         nat = self.natural(x)
         return ParallelGains(kp=nat["Kp"], ki=nat["Ki"], kd=nat["Kd"],
                              tf=1.0 / nat["filter_pole"])
-
-
-def _add(out, placement):
-    if placement is not None:
-        out.append(placement)
 
 
 #: The registered family (see :func:`synth.families.registry`).

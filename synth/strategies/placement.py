@@ -483,29 +483,84 @@ class PlacementKit:
         return magnitude_gain(cn, cd, self.num, self.den, s)
 
     # -- compensators ---------------------------------------------------------------------
-    def place(self, structure: str, zeros, poles, tgt, construction: str, info: dict):
-        """The compensator with the gain from the magnitude condition at ``tgt``, or None.
+    def lead_deficiencies(self) -> list:
+        """``(target, sign, phi)`` for every target and gain sign where the deficiency exists.
 
-        None (with a note) when the target is off the compensated locus, the
+        ``phi`` is read modulo 360 deg in [0, 360): sections that add phase add
+        positive angle, so a wrapped deficiency of -165 deg is 195 deg of lead.
+        """
+        out = []
+        for tgt, sign in self.target_signs():
+            phi = self.deficiency(tgt.point, sign)
+            if phi is not None:
+                out.append((tgt, sign, phi % 360.0))
+        return out
+
+    def lag_ratio_for_static_gain(self, build, s: complex, rounds: int = 8):
+        """Raise a lag section's zero/pole ratio ``beta`` until the static loop gain suffices.
+
+        Parameters
+        ----------
+        build : callable
+            ``build(beta) -> (zeros, poles, info)`` for the whole compensator
+            with lag ratio ``beta`` (its lead part re-fitted to keep the
+            target on the locus), or None when no section fits.
+        s : complex
+            The target point (the gain comes from the magnitude condition there).
+
+        Returns
+        -------
+        (zeros, poles, info, beta, kp) or None
+            ``kp = K C_m(0) G(0)`` the static loop gain, at least ``kp_need``;
+            None when a construction fails, the gain is off the locus or of the
+            wrong sign, or ``rounds`` raises do not reach it.
+
+        Notes
+        -----
+        Each round multiplies ``beta`` by ``1.02 kp_need / kp``: the static
+        gain grows about in proportion to ``beta`` while the lead re-fit keeps
+        the pair at the target (Ogata 2002, sec. 6-8, lag-lead compensation).
+        """
+        beta = 1.0
+        for _ in range(rounds):
+            built = build(beta)
+            if built is None:
+                return None
+            zeros, poles, info = built
+            k = self.gain_for(zeros, poles, s)
+            if k is None:
+                return None
+            kp = k * float(np.prod(zeros)) / float(np.prod(poles)) * self.g0
+            if kp <= 0.0:
+                return None
+            if kp >= self.kp_need * (1.0 - 1e-9):
+                return zeros, poles, info, beta, kp
+            beta *= self.kp_need / kp * 1.02
+        return None
+
+    def place(self, structure: str, zeros, poles, tgt, construction: str, info: dict) -> list:
+        """The compensator with the gain from the magnitude condition at ``tgt``, as a list.
+
+        Empty (with a note) when the target is off the compensated locus, the
         gain leaves the gain range, a pole or zero exceeds ``max_frequency``,
-        or the work allowance is spent.
+        or the work allowance is spent; so ``out += kit.place(...)`` collects.
         """
         if self.used[0] >= self.work:
             self.skip("placement work allowance spent")
-            return None
+            return []
         self.used[0] += 1
         cn, cd = _poly_from(zeros, poles)
         k = magnitude_gain(cn, cd, self.num, self.den, tgt.point)
         if k is None or k == 0.0:
             self.skip("target not on the locus after construction")
-            return None
+            return []
         if (self.gain_lo is not None and k < self.gain_lo) or (self.gain_hi is not None
                                                                and k > self.gain_hi):
             self.skip(f"gain {k:.4g} from the magnitude condition is outside the gain range")
-            return None
+            return []
         if any(abs(v) > self.w_max for v in (*zeros, *poles)):
             self.skip("a pole or zero exceeds search.max_frequency")
-            return None
+            return []
         g = evaluate(self.num, self.den, tgt.point)
         supplied = wrap_deg(arg_deg(complex(np.polyval(cn, tgt.point) / np.polyval(cd, tgt.point))))
         prov = {
@@ -522,7 +577,7 @@ class PlacementKit:
             "poles": [[-float(np.real(p)), -float(np.imag(p))] for p in poles],
         }
         prov.update(info)
-        return Placement(structure, k * cn, cd, k, tgt.point, construction, prov)
+        return [Placement(structure, k * cn, cd, k, tgt.point, construction, prov)]
 
     def relocate(self, zeros, poles, tgt0, limit: float | None = 0.5):
         """Crossing of the compensated locus with ``tgt0``'s damping ray nearest the old point.
