@@ -251,10 +251,6 @@ def _power_generators(k: int, w: float) -> np.ndarray:
     return np.diag(float(w) ** np.arange(k, dtype=float))
 
 
-def _col(X, j):
-    return X[:, j]
-
-
 def _ones(B):
     return np.ones(B)
 
@@ -301,11 +297,6 @@ def _real_roots_or_none(poly, positive=True):
     if positive and np.any(a <= 0):
         return None
     return np.sort(a)
-
-
-def _gain_of(num, den) -> float:
-    n, d = trim(num), trim(den)
-    return float(n[0] / d[0])
 
 
 @dataclass(frozen=True)

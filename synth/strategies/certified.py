@@ -352,7 +352,7 @@ class ConvexStrategy:
 
     name: str = "convex"
     origin: str = ORIGIN
-    share: float = 0.2
+    share: float = 0.3
     order: int = 20
 
     def propose(self, problem, family, context) -> list:

@@ -465,7 +465,7 @@ class EvolveStrategy:
 
     name: str = "search"
     origin: str = ORIGIN
-    share: float = 0.75
+    share: float = 0.68
     order: int = 30
 
     def propose(self, problem, family, context) -> list:

@@ -669,7 +669,7 @@ class PlacementStrategy:
 
     name: str = "placement"
     origin: str = ORIGIN
-    share: float = 0.05
+    share: float = 0.02
     order: int = 10
 
     def propose(self, problem, family, context) -> list:
