@@ -233,8 +233,7 @@ def _solve(problem) -> bool:
 
     for solver, opts in (("CLARABEL", {"max_iter": SOLVER_MAX_ITER}),
                          ("SCS", {"max_iters": FALLBACK_MAX_ITER})):
-        if solver not in cp.installed_solvers():
-            continue
+        # (a solver that is not installed raises SolverError too: the next one is tried)
         try:
             with warnings.catch_warnings():
                 # an inaccurate solution is rejected below; no warning for users
