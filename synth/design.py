@@ -1,26 +1,29 @@
 """The ``synth design`` pipeline: search every structure, verify every candidate, rank.
 
 :func:`run_design` loops over the structure families (``search.structures``,
-or all of them), runs every available strategy of :mod:`synth.strategies` on each
-within a fair share of ``search.time_budget``, verifies every candidate with
-:func:`synth.verify.verify`, ranks them with :func:`synth.rank.rank_designs`
-and keeps ``search.keep``.  The result, :class:`DesignRun`, gives the
-contract's ``synth.design/1`` JSON and the terminal table.
+or all of them, or the ones passed in), runs every strategy
+(:func:`synth.strategies.default_strategies`, or the ones passed in) on each,
+verifies every candidate with :func:`synth.verify.verify`, ranks them with
+:func:`synth.rank.rank_designs` and keeps ``search.keep``.  The result,
+:class:`DesignRun`, gives the contract's ``synth.design/1`` JSON and the
+terminal table.
 
-Time.  Each family gets an equal part of the budget still left when it
-starts (``(time_budget - elapsed) / families left``), so time an early family
-leaves unused passes to the later ones; within it, strategy i may run until its cumulative share of the
-slice (placement 15 %, convex 35 %, search 50 %, renormalised over the
-strategies present), so time one strategy leaves passes to the next and a
-slow one cannot starve the global search.
-The strategies do a fixed amount of work that normally ends well within the
-share, so the same file and seed give the same ranking; the share is a
-safety cap, and a family cut by it is listed in ``search.time_capped`` of
-the JSON.  Verification comes on top of the search time.
+Work, not time.  Each family gets ``search.effort`` times
+:func:`synth.strategies.family_work` work units, and each strategy its
+``share`` of them (``context.work``); a family the proportional analysis
+already rules out (``Family.futility``) gets the work of effort
+:data:`FUTILE_EFFORT` whatever ``search.effort`` (a few nearest designs to list).
+Seeds derive from ``search.seed``, the family and the strategy name.  So the
+same file and seed give the same JSON (timing fields aside) alone or under
+load.  ``search.time_budget`` is only a safety limit: checked between
+strategies, it stops the search when the wall clock passes it; the families
+it cut are listed in ``search.time_capped`` of the JSON (the run then may
+not repeat; the terminal says so).  Verification comes after the search and
+always completes.
 
-Strategy errors.  A strategy that raises :class:`synth.errors.SynthError` for
-a family (a case it cannot handle) is skipped for that family and named in
-``search.declined`` of the JSON; any other exception is a bug and propagates.
+Strategy errors.  A strategy that raises :class:`synth.errors.StrategyDeclined`
+for a family is recorded in ``search.declined``; any other exception (a
+user error of another kind, or a bug) propagates.
 
 Dead time.  All candidates are first verified with the Pade form in the
 simulation (quick); then, in rank order, each design that would be reported
@@ -35,17 +38,15 @@ import time
 import zlib
 from collections.abc import Callable
 from dataclasses import dataclass, field
-from types import MappingProxyType
 from typing import Any
 
 import numpy as np
 
-from synth.errors import SynthError
+from synth.errors import StrategyDeclined
 from synth.families import FAMILIES, families_for
-from synth.outputs.jsonout import clean, interval_lists, root_pairs
+from synth.outputs.jsonout import clean, root_pairs
 from synth.problem.plant import describe_factored
 from synth.rank import RankedDesign, rank_designs
-from synth.strategies import available_strategies
 from synth.verify.verdict import METRIC_KEYS, verify
 
 __all__ = ["CAUTION", "DesignRun", "SCHEMA", "run_design"]
@@ -59,9 +60,9 @@ CAUTION = ("These designs rest on a linear model. Verify them against actuator s
 
 ProgressFn = Callable[[float, float, str], None]
 
-#: Relative share of a family's time slice per strategy origin (normalised over
-#: the strategies present; unused time passes to the next strategy).
-_STRATEGY_WEIGHT = MappingProxyType({"placement": 0.15, "convex": 0.35, "search": 0.5})
+#: Effort of a family the proportional analysis shows cannot be feasible (enough
+#: for the search's initial sample: a few nearest designs to list).
+FUTILE_EFFORT = 0.02
 
 
 # ----------------------------------------------------------------------------
@@ -73,27 +74,6 @@ def _derived_seed(seed: int, *labels: str) -> int:
     """A per-family, per-strategy seed from the file's seed (stable across runs and Pythons)."""
     h = zlib.crc32("/".join(labels).encode())
     return int((int(seed) * 1_000_003 + h) % (2**32))
-
-
-def _explain(problem):
-    """The explain result, or None while synth.explain is not available."""
-    try:
-        from synth.explain import explain_problem
-    except ImportError:
-        return None
-    return explain_problem(problem)
-
-
-def _proportional(problem, explanation) -> dict:
-    """The contract's ``proportional`` object (from explain, else from the engine)."""
-    if explanation is not None:
-        return explanation.to_json()["proportional"]
-    from synth.locus.core import region_gain_intervals, stable_gain_intervals
-
-    plant = problem.plant
-    return {"stabilizing_gain_intervals": interval_lists(stable_gain_intervals(plant.num, plant.den)),
-            "requirement_gain_intervals": interval_lists(
-                region_gain_intervals(plant.num, plant.den, problem.region))}
 
 
 def _interval_point(lo, hi, scale: float) -> float:
@@ -112,16 +92,10 @@ def _interval_point(lo, hi, scale: float) -> float:
 def _gain_seeds(problem, explanation) -> tuple[float, ...]:
     """Proportional gains to start from: those passing the most checks first."""
     from synth.families.base import SearchSpace
-    from synth.locus.core import region_gain_intervals, stable_gain_intervals
 
-    plant = problem.plant
-    if explanation is not None:
-        groups = [explanation.candidate_gain_intervals, explanation.requirement_in_gain_range,
-                  explanation.stabilizing_in_gain_range]
-    else:
-        groups = [region_gain_intervals(plant.num, plant.den, problem.region),
-                  stable_gain_intervals(plant.num, plant.den)]
-    scale = max(1e-12, SearchSpace.for_problem(problem).gain_scale * 1e4)
+    groups = [explanation.candidate_gain_intervals, explanation.requirement_in_gain_range,
+              explanation.stabilizing_in_gain_range]
+    scale = SearchSpace.for_problem(problem).gain_scale * 1e4
     gr = problem.requirements.gain_range
     out: list[float] = []
     for ivs in groups:
@@ -129,7 +103,8 @@ def _gain_seeds(problem, explanation) -> tuple[float, ...]:
             k = _interval_point(lo, hi, scale)
             if gr is not None and not (gr[0] <= k <= gr[1]):
                 continue
-            if math.isfinite(k) and all(abs(k - o) > 1e-9 * max(1.0, abs(o)) for o in out):
+            # distinct to 1e-9 relative (a gain is never compared with an absolute tolerance)
+            if math.isfinite(k) and all(abs(k - o) > 1e-9 * abs(o) for o in out):
                 out.append(float(k))
     return tuple(out[:6])
 
@@ -385,12 +360,30 @@ def _verify_all(problem, cands, exact: bool) -> list:
             for c in cands]
 
 
-def run_design(problem, progress: ProgressFn | None = None) -> DesignRun:
+def _checked(new, family, strategy) -> list:
+    """The strategy's candidates, or TypeError when they break the protocol (a bug)."""
+    out = list(new)
+    for c in out:
+        if c.structure != family.name or c.origin != strategy.origin:
+            raise TypeError(f"strategy {strategy.name!r} proposed a {c.structure}/{c.origin} "
+                            f"candidate for family {family.name!r}")
+    return out
+
+
+def run_design(problem, strategies=None, families=None,
+               progress: ProgressFn | None = None) -> DesignRun:
     """Search, verify and rank compensators for ``problem``.
 
     Parameters
     ----------
-    problem : synth.requirements.Problem
+    problem : synth.problem.Problem
+    strategies : None or iterable of (Strategy or str), optional
+        None: every registered strategy.  Otherwise strategy objects (any
+        object following :class:`synth.strategies.Strategy`) or registered
+        strategy names; they run in their ``order``.
+    families : None or iterable of (Family class, Family or str), optional
+        None: ``search.structures`` (or every registered family).  Otherwise
+        exactly these families, in the given order.
     progress : callable, optional
         ``progress(done, total, label)``, called as the work advances (the CLI
         draws a progress bar with it).
@@ -399,49 +392,55 @@ def run_design(problem, progress: ProgressFn | None = None) -> DesignRun:
     -------
     DesignRun
     """
-    from synth.strategies import SearchContext
+    from synth.explain import explain_problem
+    from synth.strategies.base import SearchContext, family_work, resolve_strategies
 
     search = problem.search
-    explanation = _explain(problem)
-    proportional = _proportional(problem, explanation)
+    explanation = explain_problem(problem)
+    proportional = explanation.to_json()["proportional"]
     seeds = _gain_seeds(problem, explanation)
-    families = families_for(problem)
-    strategies = available_strategies()
-    total = len(families) * len(strategies) + 1
+    fams = families_for(problem, families)
+    strats = resolve_strategies(strategies)
+    total = len(fams) * len(strats) + 1
     done = 0
     candidates = []
     per_family: dict[str, float] = {}
+    work: dict[str, int] = {}
+    futile: dict[str, str] = {}
     capped: list[str] = []
-    skipped: list[str] = []
+    declined: list[str] = []
     t_search = time.monotonic()
-    t_end = t_search + search.time_budget
-    weights = [_STRATEGY_WEIGHT.get(m.ORIGIN, 1.0) for m in strategies]
-    cum = np.cumsum(weights) / max(sum(weights), 1e-12)
-    for i, fam in enumerate(families):
+    # a safety limit only: the search's amount is counted in work units
+    t_limit = t_search + search.time_budget
+    for fam in fams:
         start = time.monotonic()
-        # an equal part of what is left: slack from fast families passes to later ones
-        share = max(0.0, t_end - start) / (len(families) - i)
+        reason = fam.futility(explanation)
+        # a ruled-out family gets a fixed sliver of work whatever the effort: enough for a
+        # few nearest designs to list, never a full search
+        effort = FUTILE_EFFORT if reason else search.effort
+        if reason:
+            futile[fam.name] = reason
+        units = family_work(fam, effort)
+        work[fam.name] = units
         found: list = []
-        for mod, frac in zip(strategies, cum, strict=True):
-            # each strategy may use the time up to its cumulative share of the family's
-            # slice, so a slow strategy cannot starve the ones after it
-            deadline = start + share * float(frac)
-            ctx = SearchContext(seed=_derived_seed(search.seed, fam.name, mod.ORIGIN),
-                                deadline=deadline, budget=max(0.0, deadline - time.monotonic()),
-                                gain_seeds=seeds, prior=tuple(found), explanation=explanation)
-            if ctx.budget > 0:
+        for strat in strats:
+            if time.monotonic() > t_limit:
+                if fam.name not in capped:
+                    capped.append(fam.name)
+            else:
+                ctx = SearchContext(seed=_derived_seed(search.seed, fam.name, strat.name),
+                                    work=int(strat.share * units), gain_seeds=seeds,
+                                    prior=tuple(found), explanation=explanation)
                 try:
-                    new = list(mod.propose(problem, fam, ctx))
-                except SynthError as err:
-                    # a strategy that cannot handle this case declines it; the others go on
-                    skipped.append(f"{mod.ORIGIN} on {fam.name}: {err}")
+                    new = _checked(strat.propose(problem, fam, ctx), fam, strat)
+                except StrategyDeclined as err:
+                    # a real decline; any other error is a bug or bad input and propagates
+                    declined.append(f"{strat.name} on {fam.name}: {err}")
                     new = []
                 found.extend(new)
-                if any(c.provenance.get("time_capped") for c in new) and fam.name not in capped:
-                    capped.append(fam.name)
             done += 1
             if progress is not None:
-                progress(done, total, f"{fam.name} ({mod.ORIGIN})")
+                progress(done, total, f"{fam.name} ({strat.name})")
         candidates.extend(found)
         per_family[fam.name] = round(time.monotonic() - start, 3)
     search_seconds = time.monotonic() - t_search
@@ -465,8 +464,10 @@ def run_design(problem, progress: ProgressFn | None = None) -> DesignRun:
     ranked = rank_designs(pairs, problem)
     if progress is not None:
         progress(total, total, "verified")
-    stats = {"strategies": [m.ORIGIN for m in strategies], "candidates": len(candidates),
-             "search_seconds": round(search_seconds, 3), "family_seconds": per_family,
-             "time_capped": capped, "declined": skipped}
+    stats = {"structures": [f.name for f in fams], "strategies": [s.name for s in strats],
+             "effort": search.effort, "work": work, "futile": futile,
+             "candidates": len(candidates), "search_seconds": round(search_seconds, 3),
+             "family_seconds": per_family, "time_capped": capped,
+             "time_budget_reached": bool(capped), "declined": declined}
     return DesignRun(problem=problem, designs=tuple(ranked), proportional=proportional,
                      explanation=explanation, stats=stats)

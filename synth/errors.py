@@ -101,3 +101,14 @@ class Terminated(KeyboardInterrupt):
     def __init__(self, signum: int = signal.SIGTERM):
         super().__init__(signum)
         self.signum = signum
+
+
+class StrategyDeclined(SynthError):
+    """A design strategy cannot handle this problem with this structure family.
+
+    Raised from ``Strategy.propose`` for a real decline (say, the gain range
+    excludes the only useful gain sign); :func:`synth.design.run_design`
+    records the message in ``search.declined`` of the design JSON and goes
+    on with the other strategies.  Any other exception from a strategy is a
+    bug and propagates.
+    """

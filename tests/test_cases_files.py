@@ -63,7 +63,10 @@ def test_case_file_is_well_formed(path):
     assert "requirements" in data
     search = data["search"]
     assert isinstance(search["seed"], int)
-    assert 0 < search["time_budget"] <= 8
+    # the amount of search is counted in work (search.effort), so a bundled case gives the
+    # same answer on any machine; time_budget, a safety limit only, must not decide it
+    assert search.get("effort", 1.0) <= 1.0
+    assert "time_budget" not in search or search["time_budget"] >= 60
     # comment header: scenario, units and where the numbers come from, before any key
     header = []
     for line in text.splitlines():
@@ -84,7 +87,7 @@ def test_case_loads_through_load_problem(path):
 
     problem = load_problem(path)
     assert problem.plant.den.size >= 2
-    assert problem.search.time_budget <= 8
+    assert problem.search.effort <= 1.0
 
 
 def test_the_cases_use_all_three_plant_forms():
@@ -233,19 +236,3 @@ def test_no_stable_first_order_compensator_stabilises_it_but_the_header_example_
     # the header's C(s) = 5 (s + 3.4) / (s - 3) puts all three poles at -1 (numpy.roots)
     char = np.polyadd(np.polymul([1.0, -3.0], dg), np.polymul([5.0, 17.0], ng))
     assert np.roots(char) == pytest.approx([-1.0, -1.0, -1.0], abs=1e-4)
-
-
-def test_design_finds_only_unstable_compensators_and_only_negative_gains():
-    # facts above, seen through synth design: every feasible design of the non-strongly-
-    # stabilisable plant has a right-half-plane compensator pole; every feasible P design of
-    # the reactor has a negative gain
-    from synth.design import run_design
-
-    run = run_design(_load("needs-unstable-compensator.toml")).to_json()
-    feasible = [d for d in run["designs"] if d["feasible"]]
-    assert feasible
-    for d in feasible:
-        assert max(p[0] for p in d["compensator"]["poles"]) > 0
-    run = run_design(_load("reverse-acting-reactor.toml")).to_json()
-    ps = [d for d in run["designs"] if d["feasible"] and d["structure"] == "P"]
-    assert all(d["compensator"]["gain"] < -0.5 for d in ps)

@@ -18,7 +18,6 @@ External references used here:
 from __future__ import annotations
 
 import math
-import time
 
 import numpy as np
 import pytest
@@ -26,14 +25,16 @@ import scipy.signal
 
 from synth.families import family_for
 from synth.problem.requirements import problem_from_text
-from synth.strategies import SearchContext
-from synth.strategies.certified import ORIGIN, affine_loop, propose
+from synth.strategies import SearchContext, family_work
+from synth.strategies.certified import ORIGIN, STRATEGY, affine_loop
 
 GRID = np.concatenate([-np.logspace(-4, 4, 3000)[::-1], [0.0], np.logspace(-4, 4, 3000)])
 
 
-def _ctx(seed=0):
-    return SearchContext(seed=seed, deadline=time.monotonic() + 60.0, budget=60.0)
+def propose(problem, family, seed=0):
+    """The convex strategy with the work a design run gives it."""
+    ctx = SearchContext(seed=seed, work=int(STRATEGY.share * family_work(family)))
+    return STRATEGY.propose(problem, family, ctx)
 
 
 def _problem(num, den, req, search=""):
@@ -97,7 +98,7 @@ def test_certified_designs_lie_in_the_region_for_random_plants(structure):
     for num, den, req in plants:
         problem = _problem(num, den, req)
         region = problem.region
-        for cand in propose(problem, family_for(structure, problem), _ctx()):
+        for cand in propose(problem, family_for(structure, problem)):
             assert cand.origin == ORIGIN == "convex"
             prov = cand.provenance
             if not prov.get("certificates"):
@@ -140,7 +141,7 @@ def test_convex_lead_meets_the_step_error_limit():
     problem = _problem([10.0], [1.0, 6.0, 5.0],
                        "max_overshoot_percent = 20\nmax_settling_time = 4.0\n"
                        "max_steady_state_error = 0.05")
-    cands = propose(problem, family_for("lead", problem), _ctx())
+    cands = propose(problem, family_for("lead", problem))
     assert cands
     for cand in cands:
         num_l = np.polymul(cand.num, problem.plant.num)
@@ -165,7 +166,7 @@ def test_unmovable_resonance_falls_back_to_a_decay_certificate():
                        "gain_range = [0.0, 0.1]")
     pr = np.roots(problem.plant.den)
     assert np.max(-pr.real / np.abs(pr)) < 0.1
-    cands = propose(problem, family_for("PI", problem), _ctx())
+    cands = propose(problem, family_for("PI", problem))
     relaxed = [c for c in cands if c.provenance.get("relaxed")]
     assert relaxed
     for cand in relaxed:

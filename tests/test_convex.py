@@ -315,22 +315,22 @@ def test_spr_polynomial_of_itself_is_squared_modulus():
 # ----------------------------------------------------------------------------
 
 
-def test_bad_inputs_raise_input_error():
+def test_bad_arguments_raise_value_error():
     c0 = np.array([1.0, 2.0, 1.0])
     M = np.array([[0.0], [0.0], [1.0]])
-    with pytest.raises(InputError):
+    with pytest.raises(ValueError):
         certified_region_design(c0, M, Reg(), lo=[2.0], hi=[1.0])
-    with pytest.raises(InputError):
+    with pytest.raises(ValueError):
         certified_region_design(c0, np.ones((2, 1)), Reg())
-    with pytest.raises(InputError):
+    with pytest.raises(InputError):  # the region check is the screening kernel's
         certified_region_design(c0, M, Reg(-1.0, 0.0))
-    with pytest.raises(InputError):
+    with pytest.raises(ValueError):
         certified_region_design(c0, M, Reg(), objective="fastest")
-    with pytest.raises(InputError):
+    with pytest.raises(ValueError):
         certified_region_design(c0, M, Reg(), central=[1.0, -1.0, 1.0])
-    with pytest.raises(InputError):
+    with pytest.raises(ValueError):
         place_poles_ls(c0, M, [1.0, 2.0, 3.0, 4.0])
-    with pytest.raises(InputError):
+    with pytest.raises(ValueError):
         target_polynomial(Reg(), 0)
 
 

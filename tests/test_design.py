@@ -4,16 +4,15 @@ Every design the pipeline marks feasible is re-verified here with numpy.roots
 (closed-loop poles of the unreduced characteristic polynomial),
 scipy.signal.step (output and control effort of the closed loop) and
 scipy.signal.freqresp (margins and peak sensitivity), never with synth's own
-verifier.  Budgets are short and structure lists small to keep the file fast.
+verifier (tests/independent.py).  Search effort is small and structure lists
+short to keep the file fast.
 """
 
 import json
-import math
 
 import numpy as np
 import pytest
-from scipy import signal
-from scipy.interpolate import pade as scipy_pade
+from independent import independent_check
 
 from synth.design import SCHEMA, run_design
 from synth.problem.requirements import problem_from_text
@@ -28,22 +27,22 @@ STABLE = _problem(
     "numerator = [10.0]\ndenominator = [1.0, 8.0, 17.0, 10.0]",  # 10/((s+1)(s+2)(s+5))
     "max_overshoot_percent = 10.0\nmax_settling_time = 3.0\nmin_phase_margin_deg = 45.0\n"
     "max_steady_state_error = 0.0",
-    'structures = ["PI", "PID"]\ntime_budget = 3.0\nkeep = 4')
+    'structures = ["PI", "PID"]\neffort = 0.3\nkeep = 4')
 UNSTABLE = _problem(
     "zeros = []\npoles = [1.0, -4.0]\ngain = 4.0",  # 4/((s-1)(s+4))
     "max_overshoot_percent = 20.0\nmax_settling_time = 4.0\nmin_phase_margin_deg = 30.0\n"
     "plant_gain_range = [0.8, 1.25]",
-    'structures = ["PD", "lead"]\ntime_budget = 2.0\nkeep = 4')
+    'structures = ["PD", "lead"]\neffort = 0.3\nkeep = 4')
 RHP_ZERO = _problem(
     "numerator = [-1.0, 2.0]\ndenominator = [1.0, 4.0, 3.0]",  # (2-s)/((s+1)(s+3))
     "max_overshoot_percent = 15.0\nmax_steady_state_error = 0.0\nmax_peak_sensitivity = 2.0\n"
     "max_settling_time = 12.0",
-    'structures = ["PI", "PID"]\ntime_budget = 2.0\nkeep = 4')
+    'structures = ["PI", "PID"]\neffort = 0.3\nkeep = 4')
 DEAD_TIME = _problem(
     "numerator = [1.0]\ndenominator = [1.0, 2.0, 1.0]\ndead_time = 0.5",  # e^-0.5s/(s+1)^2
     "max_overshoot_percent = 10.0\nmin_phase_margin_deg = 45.0\nmin_gain_margin_db = 6.0\n"
     "max_steady_state_error = 0.0\nmax_settling_time = 12.0",
-    'structures = ["PI", "PID"]\ntime_budget = 2.0\nkeep = 4')
+    'structures = ["PI", "PID"]\neffort = 0.3\nkeep = 4')
 # (s-1)/((s-2)(s+3)): one real plant pole (at 2) between the real RHP zeros at 1 and at
 # infinity, so parity interlacing fails and no stable compensator stabilises it
 # (D. C. Youla, J. J. Bongiorno and C. N. Lu, "Single-loop feedback stabilization of linear
@@ -52,7 +51,7 @@ PARITY = _problem(
     'expression = "(s-1)/((s-2)*(s+3))"',
     "max_settling_time = 10.0\nplant_gain_range = [0.9, 1.1]",
     'structures = ["lead", "general"]\ngeneral_order = 1\nmax_frequency = 50.0\n'
-    "time_budget = 2.0\nkeep = 6\nseed = 1")
+    "effort = 0.3\nkeep = 6\nseed = 1")
 
 
 @pytest.fixture(scope="module")
@@ -60,77 +59,6 @@ def runs():
     return {name: run_design(p) for name, p in
             (("stable", STABLE), ("unstable", UNSTABLE), ("rhp_zero", RHP_ZERO),
              ("dead_time", DEAD_TIME), ("parity", PARITY))}
-
-
-def _delay_polys(plant, order=10):
-    """Plant polynomials with scipy.interpolate.pade's [order/order] form of the delay."""
-    num, den = plant.rational_num, plant.rational_den
-    if plant.dead_time:
-        c = [(-plant.dead_time) ** k / math.factorial(k) for k in range(2 * order + 1)]
-        pn, pd = scipy_pade(c, order)
-        num, den = np.polymul(pn.coeffs, num), np.polymul(pd.coeffs, den)
-    return num, den
-
-
-def _independent_check(problem, design):
-    """Re-verify one feasible design without synth: numpy.roots, scipy.signal."""
-    req = problem.requirements
-    c = design["compensator"]
-    nc, dc = np.asarray(c["numerator"]), np.asarray(c["denominator"])
-    # closed-loop poles of the unreduced polynomial (engine form, as the contract says)
-    gnum, gden = problem.plant.num, problem.plant.den
-    char = np.polyadd(np.polymul(dc, gden), np.polymul(nc, gnum))
-    poles = np.roots(char)
-    assert np.all(poles.real < 0), "closed loop must be stable (numpy.roots)"
-    reported = np.array([complex(a, b) for a, b in design["closed_loop_poles"]])
-    np.testing.assert_allclose(np.sort_complex(reported), np.sort_complex(poles),
-                               rtol=1e-6, atol=1e-9)
-    if req.min_damping_ratio is not None:
-        assert np.min(-poles.real / np.abs(poles)) >= req.min_damping_ratio - 1e-9
-    # step response of output and control effort (scipy.signal.step); the delay by a
-    # [10/10] Pade form, close to exact over the simulated horizon
-    pnum, pden = _delay_polys(problem.plant)
-    num_l, den_l = np.polymul(nc, pnum), np.polymul(dc, pden)
-    cl = np.polyadd(den_l, num_l)
-    sigma = float(np.min(-np.roots(cl).real))
-    t = np.linspace(0.0, min(40.0 / sigma, 2000.0), 40001)
-    _, y = signal.step(signal.TransferFunction(num_l, cl), T=t)
-    _, u = signal.step(signal.TransferFunction(np.polymul(nc, pden), cl), T=t)
-    yf = np.polyval(num_l, 0.0) / np.polyval(cl, 0.0)
-    dt = t[1] - t[0]
-    if req.max_overshoot_percent is not None:
-        os_ = max(0.0, (np.max(y) - yf) / abs(yf) * 100.0)
-        assert os_ <= req.max_overshoot_percent + 0.2, f"overshoot {os_}"
-    if req.max_settling_time is not None:
-        band = req.settling_band_percent / 100.0 * abs(yf)
-        out = np.flatnonzero(np.abs(y - yf) > band)
-        ts = t[out[-1] + 1] if out.size else 0.0
-        assert ts <= req.max_settling_time * 1.01 + 2 * dt, f"settling {ts}"
-    if req.max_steady_state_error is not None:
-        assert abs(1.0 - yf) <= req.max_steady_state_error + 1e-9
-    if req.max_control_effort is not None:
-        assert np.max(np.abs(u)) <= req.max_control_effort * 1.01
-    # frequency domain with the exact delay: scipy.signal.freqresp of the rational part
-    w = np.geomspace(1e-4, 1e4, 200001)
-    _, lr = signal.freqresp(signal.TransferFunction(np.polymul(nc, problem.plant.rational_num),
-                                                    np.polymul(dc, problem.plant.rational_den)), w)
-    L = lr * np.exp(-1j * w * problem.plant.dead_time)
-    ms = float(np.max(1.0 / np.abs(1.0 + L)))
-    assert design["metrics"]["peak_sensitivity"] == pytest.approx(ms, rel=2e-3)
-    if req.max_peak_sensitivity is not None:
-        assert ms <= req.max_peak_sensitivity * 1.002
-    if req.min_phase_margin_deg is not None:
-        cross = np.flatnonzero(np.diff(np.sign(np.abs(L) - 1.0)))
-        pm = min(180.0 - abs(np.degrees(np.angle(L[i]))) for i in cross)
-        assert pm >= req.min_phase_margin_deg - 0.1
-    if req.min_gain_margin_db is not None:
-        pc = np.flatnonzero((np.diff(np.sign(L.imag)) != 0) & (L.real[:-1] < 0))
-        mags = [abs(L[i]) for i in pc if abs(L[i]) < 1.0]
-        if mags:
-            assert -20 * np.log10(max(mags)) >= req.min_gain_margin_db - 0.05
-    if req.plant_gain_range is not None:
-        for k in np.linspace(*req.plant_gain_range, 9):
-            assert np.all(np.roots(np.polyadd(np.polymul(dc, gden), k * np.polymul(nc, gnum))).real < 0)
 
 
 @pytest.mark.parametrize("name", ["stable", "unstable", "rhp_zero", "dead_time"])
@@ -145,7 +73,7 @@ def test_every_feasible_design_passes_an_independent_check(runs, name):
     assert feasible, f"no feasible design for the {name} plant"
     assert run.any_feasible
     for d in feasible:
-        _independent_check(problem, d)
+        independent_check(problem, d)
     # feasible designs first, ranks 1..n
     flags = [d["feasible"] for d in doc["designs"]]
     assert flags == sorted(flags, reverse=True)
@@ -159,9 +87,24 @@ def test_parity_interlacing_failure_needs_an_unstable_compensator_pole(runs):
     for d in feasible:
         poles = np.roots(d["compensator"]["denominator"])  # numpy.roots
         assert np.any(poles.real > 0), "a stable compensator cannot stabilise this plant"
-        _independent_check(PARITY, d)
+        independent_check(PARITY, d)
     # every lead (stable) candidate fails
     assert all(not d["feasible"] for d in doc["designs"] if d["structure"] == "lead")
+
+
+def test_reverse_acting_plant_gets_only_negative_proportional_gains():
+    # -2/((50 s - 1)(10 s + 1)): the closed loop 500 s^2 + 40 s - 1 - 2 K is stable exactly
+    # when -1 - 2 K > 0, i.e. K < -0.5 (Routh-Hurwitz for a quadratic; common practice)
+    problem = _problem('expression = "-2/((50*s-1)*(10*s+1))"',
+                       "max_overshoot_percent = 30.0\nmax_settling_time = 150.0\n"
+                       "gain_range = [-20.0, 20.0]",
+                       'structures = ["P", "lead"]\neffort = 0.3\nkeep = 6')
+    doc = run_design(problem).to_json()
+    ps = [d for d in doc["designs"] if d["feasible"] and d["structure"] == "P"]
+    assert ps, "a negative proportional gain meets these limits"
+    for d in ps:
+        assert d["compensator"]["gain"] < -0.5
+        independent_check(problem, d)
 
 
 def test_peak_sensitivity_respects_the_interpolation_bound(runs):
@@ -226,7 +169,7 @@ def test_nothing_feasible_reports_the_nearest_designs_with_reasons():
     # 1/s^2 with P alone: never asymptotically stable (common practice)
     problem = _problem("numerator = [1.0]\ndenominator = [1.0, 0.0, 0.0]",
                        "max_overshoot_percent = 10.0",
-                       'structures = ["P"]\ntime_budget = 1.0\nkeep = 3')
+                       'structures = ["P"]\neffort = 0.2\nkeep = 3')
     run = run_design(problem)
     assert not run.any_feasible
     assert run.designs and all(d.verdict.violations for d in run.designs)
@@ -236,7 +179,7 @@ def test_nothing_feasible_reports_the_nearest_designs_with_reasons():
 def test_progress_is_reported():
     calls = []
     problem = _problem("numerator = [1.0]\ndenominator = [1.0, 1.0]", "",
-                       'structures = ["P"]\ntime_budget = 1.0\nkeep = 2')
+                       'structures = ["P"]\neffort = 0.2\nkeep = 2')
     run_design(problem, progress=lambda done, total, label: calls.append((done, total, label)))
     assert calls and calls[-1][0] == calls[-1][1]
     assert all(0 <= d <= t for d, t, _ in calls)

@@ -14,7 +14,6 @@ External references used here:
 from __future__ import annotations
 
 import math
-import time
 
 import numpy as np
 import pytest
@@ -22,14 +21,14 @@ import scipy.signal
 
 from synth.families import FAMILIES, family_for
 from synth.problem.requirements import problem_from_text
-from synth.strategies import SearchContext
+from synth.strategies import SearchContext, family_work
 from synth.strategies.placement import (
     ORIGIN,
+    STRATEGY,
     angle_deficiency,
     lead_bisector,
     magnitude_gain,
     placements,
-    propose,
     target_points,
 )
 
@@ -157,8 +156,9 @@ def test_large_deficiency_is_split_not_forced_into_one_lead():
 
 def test_propose_records_target_and_angle_in_the_provenance():
     problem = _problem((4.0,), (1.0, 2.0, 0.0), "max_overshoot_percent = 16.3\nmax_settling_time = 2.0")
-    ctx = SearchContext(seed=0, deadline=time.monotonic() + 30.0, budget=30.0)
-    cands = propose(problem, family_for("lead", problem), ctx)
+    fam = family_for("lead", problem)
+    ctx = SearchContext(seed=0, work=int(STRATEGY.share * family_work(fam)))
+    cands = STRATEGY.propose(problem, fam, ctx)
     assert cands
     for c in cands:
         assert c.origin == ORIGIN == "placement"

@@ -39,7 +39,7 @@ def test_registry_uses_the_contract_names():
     # the contract's structure names, exactly
     assert tuple(FAMILIES) == ("P", "PI", "PD", "PID", "lead", "lag", "lead-lag", "general")
     assert [f.name for f in families_for(PROBLEM)] == list(FAMILIES)
-    with pytest.raises(InputError):
+    with pytest.raises(ValueError):
         family_for("PIDD", PROBLEM)
 
 
@@ -174,25 +174,100 @@ def test_from_polys_rejects_other_shapes():
     assert family_for("P", PROBLEM).from_polys([1.0, 1.0], [1.0, 2.0]) is None
 
 
-@pytest.mark.parametrize("name,fixed", [("P", []), ("PI", []), ("PD", [20.0]), ("PID", [30.0]),
-                                        ("lead", [8.0]), ("lag", [0.1]),
-                                        ("lead-lag", [8.0, 0.1]), ("general", [1.0, -2.0, 3.0])])
-def test_affine_form_gives_an_affine_characteristic_polynomial(name, fixed):
+def _sample_shapes(name, rng, n):
+    """Random compensators of the textbook shape (zeros and poles drawn here, numpy.poly)."""
+    out = []
+    for _ in range(n):
+        k = rng.uniform(0.5, 5.0)
+        if name == "lead":      # zero below the pole (common practice)
+            p = rng.uniform(1.0, 50.0)
+            out.append((p, k * np.poly([-p * rng.uniform(0.0, 1.0)])))
+        elif name == "lag":     # zero above the pole
+            p = rng.uniform(0.01, 1.0)
+            out.append((p, k * np.poly([-p * rng.uniform(1.0, 100.0)])))
+        elif name == "PD":      # filter pole N = (1 + N_f) z, N_f in [2, 50] (common practice)
+            N = rng.uniform(5.0, 100.0)
+            out.append((N, k * np.poly([-N / rng.uniform(3.0, 51.0)])))
+        elif name == "PI":      # zero in the left half-plane
+            out.append((None, k * np.poly([-rng.uniform(0.01, 10.0)])))
+    return out
+
+
+@pytest.mark.parametrize("name", ["lead", "lag", "PD", "PI"])
+def test_conic_form_covers_exactly_the_textbook_shape(name):
+    # every compensator of the textbook shape is a nonnegative combination of the
+    # generators (scipy.optimize.nnls: zero residual) ...
+    from scipy.optimize import nnls
+
+    from synth.families import NotSupported
+
     fam = family_for(name, PROBLEM)
-    form = fam.affine_form(fixed)
-    g_num, g_den = PROBLEM.plant.num, PROBLEM.plant.den
-    rng = np.random.default_rng(29)
-    x1, x2 = rng.normal(size=(2, len(form.names)))
+    rng = np.random.default_rng(31)
+    for fixed, num in _sample_shapes(name, rng, 20):
+        form = fam.conic_form(() if fixed is None else (fixed,), 2.0)
+        assert not isinstance(form, NotSupported)
+        x, resid = nnls(form.generators.T, num)
+        assert resid <= 1e-9 * np.linalg.norm(num)
+    # ... and every nonnegative combination has the shape (numpy.roots)
+    form = fam.conic_form(() if name == "PI" else (7.0,), 2.0)
+    for x in rng.uniform(0.0, 3.0, (30, form.generators.shape[0])):
+        z = -np.roots(form.numerator(x)).real[0]
+        if name == "lead":
+            assert -1e-12 <= z <= 7.0 * (1 + 1e-12)
+        elif name == "lag":
+            assert z >= 7.0 * (1 - 1e-12)
+        elif name == "PD":
+            assert 3.0 * (1 - 1e-9) <= 7.0 / z <= 51.0 * (1 + 1e-9)
+        else:
+            assert z >= 0.0
 
-    def char(x):  # reference: numpy.polymul / numpy.polyadd
-        return np.polyadd(np.polymul(form.den, g_den), np.polymul(form.numerator(x), g_num))
 
-    # affine: c(a x1 + (1-a) x2) = a c(x1) + (1-a) c(x2)
-    a = 0.3
-    np.testing.assert_allclose(char(a * x1 + (1 - a) * x2), a * char(x1) + (1 - a) * char(x2),
-                               rtol=1e-10, atol=1e-10)
-    with pytest.raises(InputError):
-        fam.affine_form(list(fixed) + [1.0])
+@pytest.mark.parametrize("name", ["PD", "PID", "lead", "lag", "lead-lag", "general"])
+def test_conic_form_keeps_the_fixed_denominator(name):
+    # the denominator is the product of the fixed factors (numpy.polymul), monic
+    fam = family_for(name, PROBLEM)
+    fixed = {"PD": (20.0,), "PID": (30.0,), "lead": (8.0,), "lag": (0.1,),
+             "lead-lag": (8.0, 0.05, 0.5), "general": (1.0, -2.0, 3.0)}[name]
+    form = fam.conic_form(fixed, 1.0)
+    ref = {"PD": [1.0, 20.0], "PID": np.polymul([1.0, 30.0], [1.0, 0.0]), "lead": [1.0, 8.0],
+           "lag": [1.0, 0.1], "lead-lag": np.polymul([1.0, 8.0], [1.0, 0.05]),
+           "general": [1.0, 1.0, -2.0, 3.0]}[name]
+    np.testing.assert_allclose(form.den, ref, rtol=1e-15)
+    assert form.generators.shape[1] == form.den.size  # proper: numerator degree <= denominator
+    assert len(form.fixed) == len(fam.fixed_names)
+
+
+@pytest.mark.parametrize("name", ["P", "PI", "PD", "PID"])
+def test_pid_gains_give_the_textbook_parallel_form(name):
+    # C(s) = Kp + Ki/s + Kd s / (Tf s + 1) (K. J. Astrom and T. Hagglund, Advanced PID
+    # Control, ISA 2006, ch. 3; from memory), evaluated with numpy.polyval
+    fam = family_for(name, PROBLEM)
+    s = np.array([0.3j, 1 + 2j, 7.5j])
+    for x in _sample(fam, 15, seed=37):
+        num, den = fam.poly(x)
+        g = fam.pid_gains(num, den)
+        ref = g.kp + g.ki / s + g.kd * s / (g.tf * s + 1)
+        np.testing.assert_allclose(np.polyval(num, s) / np.polyval(den, s), ref, rtol=1e-6)
+
+
+@pytest.mark.parametrize("name", ["lead", "lag", "lead-lag", "general"])
+def test_families_without_a_pid_form_say_so(name):
+    from synth.families import NotSupported
+
+    fam = family_for(name, PROBLEM)
+    num, den = fam.poly(_sample(fam, 1, seed=41)[0])
+    assert isinstance(fam.pid_gains(num, den), NotSupported)
+
+
+def test_structure_names_in_files_come_from_the_registry(write_toml):
+    from synth.problem.requirements import STRUCTURES, load_problem
+
+    assert STRUCTURES == tuple(FAMILIES)
+    path = write_toml('[plant]\nnumerator = [1.0]\ndenominator = [1.0, 1.0]\n'
+                      '[search]\nstructures = ["PID", "notch"]\n')
+    with pytest.raises(InputError) as err:
+        load_problem(path)
+    assert "search.structures" in str(err.value) and "lead-lag" in str(err.value)
 
 
 def test_near_gain_is_close_to_a_plain_gain_mid_band():

@@ -23,10 +23,22 @@ with every other:
 ``near_gain(k)``
     a parameter vector whose compensator is close to the plain gain ``k``
     (used to seed searches from the proportional analysis);
-``affine_form(fixed)``
-    the compensator numerator as an affine function ``num0 + x @ basis`` of
-    free coefficients once the listed part of the denominator is fixed (for
-    convex strategies).
+Each family also declares what each strategy needs from it, with
+:class:`NotSupported` as the explicit answer when it offers nothing:
+
+``placement_designs(kit)``
+    its root-locus constructions (:mod:`synth.strategies.placement` passes
+    the kit of shared geometry and targets);
+``convex_fixed_parts(w, region)``, ``fixed_part_of(num, den)``, ``conic_form(fixed, w)``
+    for the convex strategy: which denominator parts to fix, how to read
+    them off an earlier candidate, and the numerator as a conic combination
+    of generators once they are fixed;
+``pid_gains(num, den)``
+    its PID form (parallel gains), for the implementation outputs;
+``futility(explanation)``
+    why the structure cannot meet the requirements at all, when the
+    proportional analysis already shows it (the search then costs almost
+    nothing), else None.
 
 Search-space coordinates.  Pole and zero magnitudes are searched as
 ``log10`` of rad/s between ``SearchSpace.w_min`` and ``SearchSpace.w_max``
@@ -51,7 +63,6 @@ from typing import ClassVar
 
 import numpy as np
 
-from synth.errors import InputError
 from synth.numerics.poly import scaled_roots, trim
 from synth.problem.plant import describe_factored
 
@@ -152,40 +163,89 @@ class SearchSpace:
 
 
 @dataclass(frozen=True)
-class AffineForm:
-    """Compensator with a fixed denominator and numerator ``num0 + x @ basis``.
+class NotSupported:
+    """The explicit answer of a family that offers nothing to a strategy.
 
     Parameters
     ----------
+    reason : str
+        Why, in plain words (recorded in the run's bookkeeping).
+    """
+
+    reason: str
+
+
+@dataclass(frozen=True)
+class ConicForm:
+    """A family's compensator with its denominator fixed and a conic numerator.
+
+    With the denominator ``den`` fixed, the closed-loop characteristic
+    polynomial ``den den_G + n_C num_G`` is affine in the numerator, and the
+    numerator is written ``n_C(x) = x @ generators`` with ``x >= lower``.
+    The generators are chosen so that the box is exactly (lead, lag, PD,
+    PI) or contains (PID, lead-lag) the family's shape; a solution outside
+    the shape is recognised by ``family.from_polys`` returning None.
+
+    Attributes
+    ----------
     den : ndarray, shape (k,)
         Fixed monic compensator denominator.
-    num0 : ndarray, shape (k,)
-        Constant part of the numerator (padded to the length of ``den``).
-    basis : ndarray, shape (m, k)
-        Row ``i`` is the numerator's dependence on the free coefficient ``x[i]``.
-    names : tuple of str
-        Names of the free coefficients.
-
-    Notes
-    -----
-    The closed-loop characteristic polynomial ``den * den_G + num(x) * num_G``
-    is then affine in ``x``.  Map a solution back to the family with
-    ``family.from_polys(form.numerator(x), form.den)`` (``None`` when the
-    solution falls outside the family, e.g. a "lead" whose zero passed its pole).
+    generators : ndarray, shape (m, k)
+        Numerator generators (descending powers, padded to ``k``).
+    lower : ndarray, shape (m,)
+        Lower bound of each ``x_i``: 0 (a conic generator) or ``-inf`` (free sign).
+    carries_gain : ndarray of bool, shape (m,)
+        Whether ``x_i`` contributes to the leading coefficient (the gain
+        ``K``), so that ``gain_range`` bounds it.
+    fixed : tuple of float
+        The fixed values, named by ``fixed_names``.
+    fixed_names : tuple of str
     """
 
     den: np.ndarray
-    num0: np.ndarray
-    basis: np.ndarray
-    names: tuple[str, ...]
+    generators: np.ndarray
+    lower: np.ndarray
+    carries_gain: np.ndarray
+    fixed: tuple[float, ...]
+    fixed_names: tuple[str, ...]
 
     def numerator(self, x) -> np.ndarray:
-        """Numerator coefficients for free coefficients ``x`` (shape (m,) or (B, m))."""
-        return self.num0 + np.asarray(x, dtype=float) @ self.basis
+        """Numerator coefficients for ``x`` (shape (m,) or (B, m))."""
+        return np.asarray(x, dtype=float) @ self.generators
 
 
-def _col(X, j):
-    return X[:, j]
+@dataclass(frozen=True)
+class ParallelGains:
+    """PID gains of ``C(s) = Kp + Ki / s + Kd s / (Tf s + 1)`` (parallel form).
+
+    ``Tf = 0`` for a family without a derivative filter.
+
+    References
+    ----------
+    K. J. Astrom and T. Hagglund, *Advanced PID Control*, ISA, 2006, ch. 3
+    (the parallel form with a first-order derivative filter).
+    """
+
+    kp: float
+    ki: float
+    kd: float
+    tf: float
+
+
+def _conic(den, generators, lower, carries_gain, fixed, names) -> ConicForm:
+    gen = np.atleast_2d(np.asarray(generators, dtype=float))
+    k = np.asarray(den).size
+    if gen.shape[1] < k:
+        gen = np.hstack([np.zeros((gen.shape[0], k - gen.shape[1])), gen])
+    return ConicForm(den=np.asarray(den, dtype=float), generators=gen,
+                     lower=np.asarray(lower, dtype=float),
+                     carries_gain=np.asarray(carries_gain, dtype=bool),
+                     fixed=tuple(float(v) for v in fixed), fixed_names=tuple(names))
+
+
+def _power_generators(k: int, w: float) -> np.ndarray:
+    """``w^i s^(k-1-i)``, i = 0..k-1: every coefficient free, scaled to the speed ``w``."""
+    return np.diag(float(w) ** np.arange(k, dtype=float))
 
 
 def _ones(B):
@@ -217,7 +277,7 @@ def _lpad(P, width):
 def _as_batch(X, p):
     X = np.atleast_2d(np.asarray(X, dtype=float))
     if X.shape[1] != p:
-        raise InputError(f"expected {p} parameters per row, got {X.shape[1]}")
+        raise ValueError(f"expected {p} parameters per row, got {X.shape[1]}")
     return X
 
 
@@ -227,7 +287,7 @@ def _real_roots_or_none(poly, positive=True):
     if p.size == 1:
         return np.zeros(0)
     r = np.roots(p)
-    # a double root comes back from numpy.roots split by about sqrt(eps)
+    # a double root comes back from numpy.roots split by about sqrt(eps), relative
     if np.any(np.abs(r.imag) > 1e-6 * np.abs(r)):
         return None
     a = -r.real
@@ -236,23 +296,23 @@ def _real_roots_or_none(poly, positive=True):
     return np.sort(a)
 
 
-def _gain_of(num, den) -> float:
-    n, d = trim(num), trim(den)
-    return float(n[0] / d[0])
-
-
 @dataclass(frozen=True)
 class Family:
     """Base class: one compensator structure over a :class:`SearchSpace`.
 
-    Subclasses set ``name``, ``param_names`` and implement ``_polys``,
-    ``_bounds``, ``natural``, ``from_polys`` and ``near_gain``.
+    Subclasses set ``name``, ``position``, ``param_names`` and implement
+    ``_polys``, ``_bounds``, ``natural``, ``from_polys`` and ``near_gain``;
+    they override the strategy hooks they support (each answers
+    :class:`NotSupported` here).  A module of :mod:`synth.families` that
+    defines ``FAMILY = TheClass`` registers it (see :func:`synth.families.registry`).
     """
 
     space: SearchSpace
     name: ClassVar[str] = ""
+    #: position in listings and in the ranking's tie-break (lower first)
+    position: ClassVar[int] = 1000
     param_names: ClassVar[tuple[str, ...]] = ()
-    #: names of the denominator parameters that ``affine_form`` expects fixed
+    #: names of the denominator values ``conic_form`` expects fixed
     fixed_names: ClassVar[tuple[str, ...]] = ()
 
     @property
@@ -299,34 +359,74 @@ class Family:
         lo, hi = self.bounds()
         return np.clip(np.asarray(x, dtype=float), lo, hi)
 
-    def affine_form(self, fixed: Sequence[float] = ()) -> AffineForm:
-        """Numerator affine in free coefficients with the denominator fixed.
+    # -- what the strategies need (override what the family supports) -----------------
+    def placement_designs(self, kit) -> list | NotSupported:
+        """Root-locus constructions of this structure (see :mod:`synth.strategies.placement`).
+
+        Parameters
+        ----------
+        kit : synth.strategies.placement.PlacementKit
+            Targets, gain signs, the plant and the shared constructions.
+
+        Returns
+        -------
+        list of Placement, or NotSupported
+        """
+        return NotSupported(f"no root-locus construction for the {self.name} structure")
+
+    def convex_fixed_parts(self, w: float, region) -> tuple[tuple[float, ...], ...] | NotSupported:
+        """Denominator parts worth fixing for the convex strategy (values of ``fixed_names``).
+
+        Parameters
+        ----------
+        w : float
+            Reference speed of the problem (rad/s).
+        region : synth.problem.region.Region
+            The requirement region.
+        """
+        return NotSupported(f"no fixed-denominator form for the {self.name} structure")
+
+    def fixed_part_of(self, num, den) -> tuple[float, ...] | None:
+        """The fixed part of a compensator of this family (for reusing earlier candidates)."""
+        return None
+
+    def conic_form(self, fixed: Sequence[float], w: float) -> ConicForm | NotSupported:
+        """The numerator as a conic combination once ``fixed`` is fixed (see :class:`ConicForm`).
 
         Parameters
         ----------
         fixed : sequence of float
-            Values of ``fixed_names`` (pole magnitudes in rad/s; for the
-            general family the monic denominator's coefficients after the
-            leading 1).
+            Values of ``fixed_names``.
+        w : float
+            Reference speed (rad/s): generators that drop powers of ``s``
+            are scaled by powers of ``w`` so useful ``x`` are of order one.
         """
-        fixed = [float(v) for v in fixed]
-        if len(fixed) != len(self.fixed_names):
-            raise InputError(f"{self.name}: affine_form needs {len(self.fixed_names)} fixed "
-                             f"values ({', '.join(self.fixed_names) or 'none'}), got {len(fixed)}")
-        den = self._fixed_den(fixed)
-        k = den.size
-        # every family's numerator is a full polynomial of the denominator's degree
-        names = tuple(f"b{k - 1 - i}" for i in range(k))
-        return AffineForm(den=den, num0=np.zeros(k), basis=np.eye(k), names=names)
+        return NotSupported(f"no fixed-denominator form for the {self.name} structure")
+
+    def pid_gains(self, num, den) -> ParallelGains | NotSupported:
+        """Parallel PID gains of a compensator of this family."""
+        return NotSupported(f"the {self.name} structure has no PID form")
+
+    def futility(self, explanation) -> str | None:
+        """Why this structure cannot meet the requirements at all, if the analysis shows it.
+
+        Parameters
+        ----------
+        explanation : synth.explain.Explanation or None
+
+        Returns
+        -------
+        str or None
+            A sentence when no compensator of the structure can be feasible
+            (the run then spends almost no work on it); None when unknown.
+        """
+        return None
 
     # -- hooks -------------------------------------------------------------------
     def _bounds(self):  # pragma: no cover - abstract
         raise NotImplementedError
 
     def _polys(self, X):  # pragma: no cover - abstract
-        raise NotImplementedError
-
-    def _fixed_den(self, fixed):  # pragma: no cover - abstract
         raise NotImplementedError
 
     def natural(self, x) -> dict[str, float]:  # pragma: no cover - abstract
@@ -347,6 +447,11 @@ class Family:
 
     def _u(self, k):
         return float(self.space.gain_coord(k))
+
+    def _in_band(self, values) -> tuple[float, ...]:
+        """Magnitudes clipped into the family's frequency band ``[w_min, w_max]``."""
+        sp = self.space
+        return tuple(float(min(max(v, sp.w_min), sp.w_max)) for v in values)
 
 
 @dataclass(frozen=True)
@@ -371,8 +476,9 @@ class _PairFamily(Family):
         B = X.shape[0]
         return K[:, None] * _stack(_ones(B), z), _stack(_ones(B), p)
 
-    def _fixed_den(self, fixed):
-        return np.array([1.0, fixed[0]])
+    def fixed_part_of(self, num, den):
+        d = trim(den)
+        return self._in_band([d[1] / d[0]]) if d.size == 2 else None
 
     def natural(self, x):
         K = float(self.space.gain(x[0]))

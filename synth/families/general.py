@@ -10,10 +10,13 @@ import numpy as np
 
 from synth.families.base import (
     Family,
+    _conic,
     _mul_rows,
     _ones,
+    _power_generators,
     _stack,
 )
+from synth.locus.conditions import lead_bisector, section_angle
 from synth.numerics.poly import trim
 from synth.problem.plant import describe_factored
 
@@ -48,6 +51,7 @@ class GeneralFamily(Family):
     """
 
     name: ClassVar[str] = "general"
+    position: ClassVar[int] = 80
 
     @property
     def order(self) -> int:
@@ -103,9 +107,6 @@ class GeneralFamily(Family):
         K = self.space.gain(X[:, 0])
         return K[:, None] * self._monic(X[:, 1:1 + n]), self._monic(X[:, 1 + n:1 + 2 * n])
 
-    def _fixed_den(self, fixed):
-        return np.concatenate([[1.0], fixed])
-
     def _coords(self, monic) -> list[float] | None:
         """Search coordinates of a monic polynomial, or None outside the disc |s| <= w_max."""
         W = self.space.w_max
@@ -147,6 +148,7 @@ class GeneralFamily(Family):
         for label, p in (("zero", num), ("pole", den)):
             if p.size > 1:
                 roots = sorted(np.roots(p), key=lambda c: (c.real, c.imag))
+                # relative tests: the same at every frequency scale
                 for i, r in enumerate(r for r in roots if r.imag >= -1e-12 * abs(r)):
                     out[f"{label}{i + 1}_re"] = float(r.real)
                     if abs(r.imag) > 1e-12 * abs(r):
@@ -174,3 +176,77 @@ class GeneralFamily(Family):
         p = np.poly(np.full(self.order, -w))
         u = self._coords(p)
         return np.asarray([self._u(k), *u, *u])
+
+    # -- what the strategies need ---------------------------------------------------
+    def placement_designs(self, kit):
+        """``order`` equal lead sections by the bisector method, each supplying
+        ``phi / order`` (for a deficiency too large for one lead); for a step-error limit
+        the last one replaced by a lag section whose ratio gives the static gain."""
+        out = []
+        for tgt, sign, phi in kit.lead_deficiencies():
+            if phi > 0.0:
+                out += self._multi_lead(kit, tgt, phi, {"deficiency_deg": phi, "gain_sign": sign})
+        return out
+
+    def _multi_lead(self, kit, tgt, phi, base):
+        s, order = tgt.point, self.order
+
+        def sections(n, lag_angle):
+            """``n`` equal bisector sections supplying ``phi - lag_angle``, or None."""
+            each = (phi - lag_angle) / n
+            zp = lead_bisector(s, each) if 0.0 < each <= kit.max_section_deg else None
+            if zp is None:
+                kit.skip(f"general: {n} sections cannot supply {phi - lag_angle:.1f} deg")
+                return None
+            return [zp[0]] * n, [zp[1]] * n, {**base, "sections": n, "section_angle_deg": each}
+
+        out = []
+        leads = sections(order, 0.0)
+        if leads is not None:
+            out += kit.place(self.name, *leads[:2], tgt, "equal lead sections", leads[2])
+        if kit.kp_need is not None and order >= 2 and math.isfinite(kit.g0) and kit.g0 != 0.0:
+            zl = abs(s) / kit.lag_factors[0]
+
+            def build(beta):
+                lag_angle = section_angle(s, zl, zl / beta)
+                built = sections(order - 1, lag_angle)
+                if built is None:
+                    return None
+                zeros, poles, info = built
+                return [*zeros, zl], [*poles, zl / beta], {**info, "lag_angle_deg": lag_angle}
+
+            found = kit.lag_ratio_for_static_gain(build, s)
+            if found is not None:
+                zeros, poles, info, beta, kp = found
+                out += kit.place(self.name, zeros, poles, tgt, "equal lead sections + lag",
+                                 {**info, "static_gain_increase": beta, "static_loop_gain": kp})
+        return out
+
+    def convex_fixed_parts(self, w, region):
+        """The denominators ``(s + 5 w)^n`` and ``s (s + 5 w)^(n - 1)`` (coefficients after the 1)."""
+        n = self.order
+        out = []
+        for integrator in (False, True):
+            roots = [0.0] + [-5.0 * w] * (n - 1) if integrator else [-5.0 * w] * n
+            out.append(tuple(float(v) for v in np.poly(roots).real[1:]))
+        return tuple(out)
+
+    def fixed_part_of(self, num, den):
+        d = trim(den)
+        if d.size != self.order + 1:
+            return None
+        return tuple(float(v) for v in d[1:] / d[0])
+
+    def conic_form(self, fixed, w):
+        # every numerator coefficient free; only the leading one's sign is the gain's
+        k = self.order + 1
+        lower = np.full(k, -np.inf)
+        lower[0] = 0.0
+        carries = np.zeros(k, dtype=bool)
+        carries[0] = True
+        den = np.concatenate([[1.0], np.asarray(fixed, dtype=float)])
+        return _conic(den, _power_generators(k, w), lower, carries, tuple(fixed), self.fixed_names)
+
+
+#: The registered family (see :func:`synth.families.registry`).
+FAMILY = GeneralFamily

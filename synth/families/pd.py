@@ -11,10 +11,15 @@ import numpy as np
 from synth.families.base import (
     PD_RATIO_RANGE,
     Family,
+    ParallelGains,
+    _conic,
     _ones,
     _stack,
 )
 from synth.numerics.poly import trim
+
+#: Derivative-filter poles the convex strategy fixes, as multiples of the target speed.
+_CONVEX_FILTER = (5.0, 12.0)
 
 
 @dataclass(frozen=True)
@@ -27,6 +32,7 @@ class PDFamily(Family):
     """
 
     name: ClassVar[str] = "PD"
+    position: ClassVar[int] = 30
     param_names: ClassVar[tuple[str, ...]] = ("gain", "log10_filter_pole", "log10_ratio")
     fixed_names: ClassVar[tuple[str, ...]] = ("filter_pole",)
 
@@ -41,9 +47,6 @@ class PDFamily(Family):
         z = N / 10.0 ** X[:, 2]
         B = X.shape[0]
         return K[:, None] * _stack(_ones(B), z), _stack(_ones(B), N)
-
-    def _fixed_den(self, fixed):
-        return np.array([1.0, fixed[0]])
 
     def natural(self, x):
         K = float(self.space.gain(x[0]))
@@ -66,3 +69,41 @@ class PDFamily(Family):
         lw1 = self.space.log_w[1]
         r = math.log10(PD_RATIO_RANGE[0])
         return np.array([self._u(k * 10.0 ** r), lw1, r])
+
+    # -- what the strategies need ---------------------------------------------------
+    def placement_designs(self, kit):
+        """Filter pole far out (about ten times ``|s_d|``), the zero from the deficiency
+        plus the filter's lag, the ratio kept in the family's range."""
+        out = []
+        for tgt, sign, phi in kit.lead_deficiencies():
+            zN = kit.pd_section(tgt.point, phi, PD_RATIO_RANGE)
+            if zN is not None:
+                z, N = zN
+                out += kit.place(self.name, [z], [N], tgt,
+                                 "filter pole far out, zero from the deficiency",
+                                 {"deficiency_deg": phi, "gain_sign": sign, "filter_pole": N})
+        return out
+
+    def convex_fixed_parts(self, w, region):
+        return tuple(self._in_band([a * w]) for a in _CONVEX_FILTER)
+
+    def fixed_part_of(self, num, den):
+        d = trim(den)
+        return self._in_band([d[1] / d[0]]) if d.size == 2 else None
+
+    def conic_form(self, fixed, w):
+        # u (s + N/51) + v (s + N/3), u, v >= 0: exactly the zeros with N/z in the PD range
+        N = float(fixed[0])
+        gen = [[1.0, N / PD_RATIO_RANGE[1]], [1.0, N / PD_RATIO_RANGE[0]]]
+        return _conic([1.0, N], gen, [0.0, 0.0], [True, True], (N,), self.fixed_names)
+
+    def pid_gains(self, num, den):
+        x = self.from_polys(num, den)
+        if x is None:
+            return super().pid_gains(num, den)
+        nat = self.natural(x)
+        return ParallelGains(kp=nat["Kp"], ki=0.0, kd=nat["Kd"], tf=1.0 / nat["filter_pole"])
+
+
+#: The registered family (see :func:`synth.families.registry`).
+FAMILY = PDFamily

@@ -9,14 +9,21 @@ from typing import ClassVar
 import numpy as np
 
 from synth.families.base import (
+    PD_RATIO_RANGE,
     Family,
+    ParallelGains,
+    _conic,
     _ones,
+    _power_generators,
     _stack,
 )
+from synth.locus.conditions import section_angle
 from synth.numerics.poly import trim
 
 #: Zero damping range of the PID family (below 1: complex zeros; above: real).
 _PID_ZETA = (0.1, 30.0)
+#: Derivative-filter poles the convex strategy fixes, as multiples of the target speed.
+_CONVEX_FILTER = (5.0, 12.0)
 
 
 @dataclass(frozen=True)
@@ -32,6 +39,7 @@ class PIDFamily(Family):
     """
 
     name: ClassVar[str] = "PID"
+    position: ClassVar[int] = 40
     param_names: ClassVar[tuple[str, ...]] = ("gain", "log10_outer_zero",
                                               "log10_zero_damping", "log10_filter_pole")
     fixed_names: ClassVar[tuple[str, ...]] = ("filter_pole",)
@@ -53,9 +61,6 @@ class PIDFamily(Family):
         num = K[:, None] * _stack(_ones(B), 2 * zeta * w, w * w)
         den = _stack(_ones(B), N, np.zeros(B))
         return num, den
-
-    def _fixed_den(self, fixed):
-        return np.array([1.0, fixed[0], 0.0])
 
     def natural(self, x):
         K = float(self.space.gain(x[0]))
@@ -90,3 +95,77 @@ class PIDFamily(Family):
         zeta = min((w1 + N) / (2 * w), _PID_ZETA[1])
         m = w * (zeta + math.sqrt(zeta * zeta - 1.0))
         return np.array([self._u(k), math.log10(min(m, N)), math.log10(zeta), lw1])
+
+    # -- what the strategies need ---------------------------------------------------
+    def placement_designs(self, kit):
+        """The PI zero a decade (or a quarter) below ``|s_d|``, then the PD zero from the
+        deficiency plus the PI section's and the filter's lag; or the two zeros on the
+        slowest stable plant poles (:meth:`_cancelling`)."""
+        out = []
+        for tgt, sign, phi in kit.lead_deficiencies():
+            s = tgt.point
+            base = {"deficiency_deg": phi, "gain_sign": sign}
+            for f in kit.lag_factors:
+                zi = abs(s) / f
+                pi_angle = section_angle(s, zi, 0.0)   # negative: the PI section lags
+                zN = kit.pd_section(s, phi - pi_angle, PD_RATIO_RANGE)
+                if zN is None:
+                    continue
+                z, N = zN
+                out += kit.place(self.name, [zi, z], [0.0, N], tgt,
+                                 f"PI zero |s_d|/{f:g}, PD zero from the deficiency",
+                                 {**base, "pi_zero": zi, "pi_angle_deg": pi_angle,
+                                  "filter_pole": N})
+            out += self._cancelling(kit, tgt)
+        return out
+
+    def _cancelling(self, kit, tgt):
+        """PID whose zeros sit on the two slowest stable plant poles.
+
+        What is left is about ``K g / (s (s + N))``, whose locus meets the
+        target's damping ray where ``2 zeta w_n = N``: the filter pole is set to
+        twice the target decay rate and the gain found on the locus of the whole
+        loop (common practice: cancel the slow plant dynamics, let the integrator
+        and the filter pole set the speed).  The cancelled modes remain in the
+        closed loop (the verifier checks their decay).
+        """
+        pair = kit.slow_stable_pair()
+        if pair is None:
+            return []
+        N = 2.0 * -tgt.point.real
+        if N > kit.w_max:
+            return []
+        zeros = [-v for v in pair]
+        res = kit.relocate(zeros, [0.0, N], tgt, limit=None)
+        if res is None:
+            return []
+        return kit.place(self.name, zeros, [0.0, N], res[2],
+                         "PID zeros on the slowest plant poles, filter pole from the decay",
+                         {"deficiency_deg": 0.0, "filter_pole": N,
+                          "cancelled_poles": [[v.real, v.imag] for v in pair]})
+
+    def convex_fixed_parts(self, w, region):
+        return tuple(self._in_band([a * w]) for a in _CONVEX_FILTER)
+
+    def fixed_part_of(self, num, den):
+        d = trim(den)
+        return self._in_band([d[1] / d[0]]) if d.size == 3 else None
+
+    def conic_form(self, fixed, w):
+        # nonnegative coefficients: necessary for zeros in the left half-plane; the exact
+        # shape is checked by from_polys after the solve
+        N = float(fixed[0])
+        return _conic([1.0, N, 0.0], _power_generators(3, w), [0.0, 0.0, 0.0],
+                      [True, False, False], (N,), self.fixed_names)
+
+    def pid_gains(self, num, den):
+        x = self.from_polys(num, den)
+        if x is None:
+            return super().pid_gains(num, den)
+        nat = self.natural(x)
+        return ParallelGains(kp=nat["Kp"], ki=nat["Ki"], kd=nat["Kd"],
+                             tf=1.0 / nat["filter_pole"])
+
+
+#: The registered family (see :func:`synth.families.registry`).
+FAMILY = PIDFamily

@@ -51,7 +51,6 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from synth.errors import InputError
 from synth.numerics.screening import (
     in_region_batch,
     region_parameters,
@@ -186,23 +185,23 @@ def _check_affine(c0, M, lo, hi) -> tuple[np.ndarray, np.ndarray, np.ndarray, np
         c0 = np.asarray(c0, dtype=float)
         M = np.asarray(M, dtype=float)
     except (TypeError, ValueError):
-        raise InputError("c0 and M must be real numeric arrays") from None
+        raise ValueError("c0 and M must be real numeric arrays") from None
     if c0.ndim != 1 or c0.size < 2:
-        raise InputError(f"c0 must be a 1-D coefficient array of length >= 2, got shape {c0.shape}")
+        raise ValueError(f"c0 must be a 1-D coefficient array of length >= 2, got shape {c0.shape}")
     if M.ndim == 1:
         M = M[:, None]
     if M.ndim != 2 or M.shape[0] != c0.size or M.shape[1] == 0:
-        raise InputError(f"M must have shape ({c0.size}, p) with p >= 1, got {M.shape}")
+        raise ValueError(f"M must have shape ({c0.size}, p) with p >= 1, got {M.shape}")
     if not (np.isfinite(c0).all() and np.isfinite(M).all()):
-        raise InputError("c0 and M must be finite")
+        raise ValueError("c0 and M must be finite")
     p = M.shape[1]
     lo = np.broadcast_to(np.asarray(-np.inf if lo is None else lo, dtype=float), (p,)).copy()
     hi = np.broadcast_to(np.asarray(np.inf if hi is None else hi, dtype=float), (p,)).copy()
     if np.isnan(lo).any() or np.isnan(hi).any():
-        raise InputError("bounds lo and hi must not be nan")
+        raise ValueError("bounds lo and hi must not be nan")
     if np.any(lo > hi):
         k = int(np.flatnonzero(lo > hi)[0])
-        raise InputError(f"empty box: lo[{k}] = {lo[k]} > hi[{k}] = {hi[k]}")
+        raise ValueError(f"empty box: lo[{k}] = {lo[k]} > hi[{k}] = {hi[k]}")
     return c0, M, lo, hi
 
 
@@ -214,23 +213,33 @@ def _reference_point(lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
     return mid
 
 
-def _solve(problem) -> bool:
-    """Solve with Clarabel, falling back to SCS; True when optimal."""
-    import cvxpy as cp
+#: Interior-point iteration cap of one conic solve: the solver's own effort is
+#: counted in iterations, never in seconds, so a run does not depend on the load.
+SOLVER_MAX_ITER = 200
+#: Iteration cap of the first-order fallback solver (SCS).
+FALLBACK_MAX_ITER = 4000
 
-    for solver in ("CLARABEL", "SCS"):
-        if solver not in cp.installed_solvers():
-            continue
-        # SCS is the fallback only: cap its effort so one solve cannot eat the time budget
-        opts = {"max_iters": 4000, "time_limit_secs": 1.0} if solver == "SCS" else {}
+
+def _solve(problem) -> bool:
+    """Solve with Clarabel, falling back to SCS; True when optimal.
+
+    Each solver runs under an iteration cap, never a time limit.  Only the
+    solver's own failure (:class:`cvxpy.error.SolverError`: a numerical
+    breakdown or an exhausted iteration cap) moves on to the fallback; any
+    other exception is a bug and propagates.
+    """
+    import cvxpy as cp
+    from cvxpy.error import SolverError
+
+    for solver, opts in (("CLARABEL", {"max_iter": SOLVER_MAX_ITER}),
+                         ("SCS", {"max_iters": FALLBACK_MAX_ITER})):
+        # (a solver that is not installed raises SolverError too: the next one is tried)
         try:
             with warnings.catch_warnings():
                 # an inaccurate solution is rejected below; no warning for users
                 warnings.simplefilter("ignore")
                 problem.solve(solver=solver, **opts)
-        except (KeyboardInterrupt, SystemExit):
-            raise
-        except BaseException:  # noqa: BLE001 - solver errors and Clarabel's Rust panics alike
+        except SolverError:
             continue
         if problem.status == cp.OPTIMAL:
             return True
@@ -295,13 +304,13 @@ def target_polynomial(
     sigma, zeta = region_parameters(region)
     degree = int(degree)
     if degree < 1:
-        raise InputError(f"target degree must be >= 1, got {degree}")
+        raise ValueError(f"target degree must be >= 1, got {degree}")
     if not 0.0 < inward < 1.0:
-        raise InputError(f"inward must lie in (0, 1), got {inward}")
+        raise ValueError(f"inward must lie in (0, 1), got {inward}")
     if natural_frequency is not None and not (
         math.isfinite(natural_frequency) and natural_frequency > 0
     ):
-        raise InputError(f"natural_frequency must be a positive number, got {natural_frequency}")
+        raise ValueError(f"natural_frequency must be a positive number, got {natural_frequency}")
     zeta_t = min(0.98, max(0.7, zeta + inward * (1.0 - zeta)))
     wn_floor = 1.0 if natural_frequency is None and sigma == 0.0 else (natural_frequency or 0.0)
     sigma_t = max((1.0 + inward) * sigma, zeta_t * wn_floor)
@@ -360,11 +369,11 @@ def place_poles_ls(c0, M, target_poly, lo=None, hi=None) -> np.ndarray | None:
     c0, M, lo, hi = _check_affine(c0, M, lo, hi)
     t = np.asarray(target_poly, dtype=float)
     if t.ndim != 1 or t.size > c0.size or t.size < 1 or not np.isfinite(t).all():
-        raise InputError(f"target_poly must be finite with at most {c0.size} coefficients")
+        raise ValueError(f"target_poly must be finite with at most {c0.size} coefficients")
     t = np.concatenate([np.zeros(c0.size - t.size), t])
     t_lead = t[np.flatnonzero(t)[0]] if np.any(t) else 0.0
     if t_lead == 0.0 or t[0] == 0.0:
-        raise InputError("target_poly must have the same degree as c0 + M x (nonzero leading coefficient)")
+        raise ValueError("target_poly must have the same degree as c0 + M x (nonzero leading coefficient)")
     if np.allclose(M[0], 0.0):
         lead = c0[0]
     else:
@@ -443,9 +452,9 @@ def spr_polynomial(c, d, region_part: str, sigma: float = 0.0, zeta: float = 0.0
     c = np.asarray(c, dtype=float)
     d = np.asarray(d, dtype=float)
     if c.shape != d.shape or c.ndim != 1:
-        raise InputError("c and d must be 1-D arrays of the same length")
+        raise ValueError("c and d must be 1-D arrays of the same length")
     if region_part not in ("decay", "damping"):
-        raise InputError(f"region_part must be 'decay' or 'damping', got {region_part!r}")
+        raise ValueError(f"region_part must be 'decay' or 'damping', got {region_part!r}")
     n = c.size - 1
     beta = 0.5 * math.pi - math.acos(zeta) if region_part == "damping" else 0.0
     tr = _transform_matrix(n, region_part, sigma, beta)
@@ -664,7 +673,9 @@ def _move_into(d: np.ndarray, sigma: float, zeta: float) -> np.ndarray:
     need_decay = 1.02 * sigma + a
     need_damp = 1.02 * zeta * b / math.sqrt(max(1.0 - (1.02 * zeta) ** 2, 1e-12)) + a
     # a real root needs -(a - delta) > 0 for damping 1: at least a tiny shift
-    need_real = np.where(b == 0.0, a + 1e-9 * np.maximum(np.abs(r), 1.0), -np.inf)
+    # (relative to the root's size, or to the polynomial's root scale for a root at 0)
+    size = np.where(np.abs(r) > 0, np.abs(r), _root_scale(d))
+    need_real = np.where(b == 0.0, a + 1e-9 * size, -np.inf)
     delta = np.maximum.reduce([np.zeros_like(a), need_decay, need_damp, need_real])
     delta = np.where(delta > 0, delta * 1.001, 0.0)
     return np.poly(r - delta).real * d[0]
@@ -816,10 +827,10 @@ def certified_region_design(
     c0, M, lo, hi = _check_affine(c0, M, lo, hi)
     sigma, zeta = region_parameters(region)
     if objective not in ("margin", "centre"):
-        raise InputError(f"objective must be 'margin' or 'centre', got {objective!r}")
+        raise ValueError(f"objective must be 'margin' or 'centre', got {objective!r}")
     iterations = int(iterations)
     if iterations < 1:
-        raise InputError(f"iterations must be >= 1, got {iterations}")
+        raise ValueError(f"iterations must be >= 1, got {iterations}")
 
     # c must have a positive leading coefficient to match d's: flip the sign
     # of the whole parametrisation if needed (roots do not change)
@@ -830,12 +841,12 @@ def certified_region_design(
     if central is not None:
         d = np.asarray(central, dtype=float)
         if d.shape != c0.shape or not np.isfinite(d).all() or d[0] == 0.0:
-            raise InputError(
+            raise ValueError(
                 f"central must be a finite polynomial of length {c0.size} "
                 "with nonzero leading coefficient"
             )
         if not in_region_batch(d, region):
-            raise InputError("central polynomial must have every root inside the region")
+            raise ValueError("central polynomial must have every root inside the region")
         starts = [d / d[0]]
     else:
         starts = _initial_centrals(c0s, Ms, region, lo, hi, natural_frequency, int(samples), int(seed))

@@ -48,8 +48,16 @@ from synth.problem.plant import Plant
 from synth.problem.region import Region, damping_from_overshoot, decay_rate_from_settling
 from synth.problem.source import read_input_text
 
-#: Structure families known to the search, in order of simplicity.
-STRUCTURES = ("P", "PI", "PD", "PID", "lead", "lag", "lead-lag", "general")
+
+def __getattr__(name: str):
+    # STRUCTURES is read from the family registry, the one place that knows the
+    # structure names; looked up lazily so that importing this module never
+    # imports the families (which import the plant from this package)
+    if name == "STRUCTURES":
+        from synth.families import structure_names
+
+        return structure_names()
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
 _TOP_KEYS = {"format", "plant", "requirements", "search"}
 
@@ -113,7 +121,11 @@ class SearchSettings:
     max_frequency: float = 1000.0
     seed: int = 0
     keep: int = 10
-    time_budget: float = 10.0
+    #: seconds of wall clock after which the search stops as a safety limit (the
+    #: amount of search is counted in work, never timed; see ``effort``)
+    time_budget: float = 600.0
+    #: relative amount of search work per structure (deterministic)
+    effort: float = 1.0
 
 
 @dataclass(frozen=True)
@@ -205,12 +217,15 @@ _REQ_SPEC = {
 
 
 def _structures(v, src, key):
+    from synth.families import structure_names
+
+    names = structure_names()
     if not isinstance(v, list) or not v:
-        raise InputError(f"must be a non-empty list of names from {', '.join(STRUCTURES)}", src, key)
+        raise InputError(f"must be a non-empty list of names from {', '.join(names)}", src, key)
     seen = []
     for x in v:
-        if not isinstance(x, str) or x not in STRUCTURES:
-            raise InputError(f"unknown structure {x!r}; choose from {', '.join(STRUCTURES)}", src, key)
+        if not isinstance(x, str) or x not in names:
+            raise InputError(f"unknown structure {x!r}; choose from {', '.join(names)}", src, key)
         if x in seen:
             raise InputError(f"structure {x!r} is listed twice", src, key)
         seen.append(x)
@@ -225,6 +240,7 @@ _SEARCH_SPEC = {
     "seed": lambda v, s, k: _num(v, s, k, lo=0, hi=2**63 - 1, integer=True),
     "keep": lambda v, s, k: _num(v, s, k, lo=1, hi=1000, integer=True),
     "time_budget": lambda v, s, k: _num(v, s, k, lo=0, lo_open=True, hi=3600),
+    "effort": lambda v, s, k: _num(v, s, k, lo=0.05, hi=20),
 }
 
 

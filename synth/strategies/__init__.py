@@ -1,17 +1,25 @@
 """Design strategies: they propose candidates; the verifier judges them.
 
-See :mod:`synth.strategies.base` for the protocol shared by every strategy.
+See :mod:`synth.strategies.base` for the protocol shared by every strategy
+and the registry (:func:`default_strategies`): every module here that
+defines ``STRATEGY`` is one strategy.
 """
 
 from synth.strategies.base import (
+    CONIC_SOLVE_UNITS,
     ORIGINS,
-    STRATEGY_MODULES,
+    WORK_BASE,
+    WORK_PER_PARAM,
     Candidate,
     SearchContext,
-    available_strategies,
+    Strategy,
     candidate_from_params,
     candidate_from_polys,
+    default_strategies,
+    family_work,
+    resolve_strategies,
 )
 
-__all__ = ["Candidate", "ORIGINS", "STRATEGY_MODULES", "SearchContext", "available_strategies",
-           "candidate_from_params", "candidate_from_polys"]
+__all__ = ["CONIC_SOLVE_UNITS", "Candidate", "ORIGINS", "SearchContext", "Strategy", "WORK_BASE",
+           "WORK_PER_PARAM", "candidate_from_params", "candidate_from_polys",
+           "default_strategies", "family_work", "resolve_strategies"]

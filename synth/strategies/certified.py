@@ -6,12 +6,14 @@ numerator coefficients: ``c(x) = c0 + M x``.  This module
 
 1. fixes the denominator part of a family (``Family.fixed_names``: the
    derivative filter pole of PD and PID, the pole of lead and lag, both
-   poles of lead-lag, the whole denominator of the general family) at a few
-   values -- multiples of the target speed, and the denominators that
-   earlier strategies proposed for the family (``context.prior``);
-2. writes the free numerator as a conic combination ``n_C = sum_i x_i b_i``,
-   ``x >= 0``, of generators ``b_i`` chosen so that the box ``x >= 0`` is
-   exactly (lead, lag, PD, PI) or contains (PID, lead-lag) the family's
+   poles and the lag zero of lead-lag, the whole denominator of the general
+   family) at the values the family proposes (``Family.convex_fixed_parts``:
+   multiples of the target speed) and at those of the candidates earlier
+   strategies proposed for the family (``Family.fixed_part_of`` of
+   ``context.prior``);
+2. writes the free numerator as the family's conic combination
+   ``n_C = sum_i x_i b_i``, ``x >= 0`` (``Family.conic_form``), whose box
+   is exactly (lead, lag, PD, PI) or contains (PID, lead-lag) the family's
    shape: e.g. a lead ``K (s + z)/(s + p)``, ``0 < z < p``, is
    ``u s + v (s + p)`` with ``u, v >= 0``;
 3. calls :func:`synth.numerics.sos.certified_region_design` (the
@@ -27,6 +29,15 @@ Each candidate's provenance says whether the region certificate holds
 the region each certificate was written for, so anyone can re-check it.
 The pipeline verifies every candidate again.
 
+Work.  Each conic solve (the least-squares QP and every semidefinite
+program) counts :data:`synth.strategies.CONIC_SOLVE_UNITS` work units, and
+each solve runs under the solver's iteration cap
+(:data:`synth.numerics.sos.SOLVER_MAX_ITER`), never a time limit; fixed parts
+are tried in order until ``context.work`` is spent.  Only the solver's own
+errors are absorbed (inside :func:`synth.numerics.sos`); a fixed part whose
+box cannot meet the step-error limit within the gain range is skipped, and
+when every part is, the strategy declines (:class:`synth.errors.StrategyDeclined`).
+
 References
 ----------
 .. [1] D. Henrion, M. Sebek and V. Kucera, "Positive polynomials and robust
@@ -38,16 +49,14 @@ References
 
 from __future__ import annotations
 
-import math
-import time
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 
 import numpy as np
 
-from synth.families.base import PD_RATIO_RANGE
+from synth.errors import StrategyDeclined
 from synth.numerics.poly import trim
 
-__all__ = ["ORIGIN", "AffineLoop", "affine_loop", "fixed_parts", "planned_parts", "propose"]
+__all__ = ["ORIGIN", "STRATEGY", "AffineLoop", "ConvexStrategy", "affine_loop", "fixed_parts"]
 
 ORIGIN = "convex"
 
@@ -57,21 +66,16 @@ _ITERATIONS = 6
 _BISECTION_STEPS = 4
 #: Box samples the convex module screens to pick the first central polynomial.
 _SAMPLES = 600
-#: Fixed parts tried per family (multiples of the target speed) besides the
-#: denominators of earlier strategies' candidates.
-_PD_FILTER = (5.0, 12.0)
-_LEAD_POLE = (3.0, 8.0)
-_LAG_POLE = (0.02, 0.1)
-#: lead-lag: (lead pole, lag pole, lag zero) / w, a lag ratio of 10 (common practice)
-_LEADLAG_POLES = ((5.0, 0.03, 0.3),)
-_GENERAL_ROOTS = (5.0, 0.0)  # (s + 5 w)^n, and an integrator s (s + 5 w)^(n - 1)
+#: Earlier candidates whose fixed parts are tried first, and most fixed parts in all.
 _PRIORS = 2
+_MAX_PARTS = 3
 #: Above this many unknowns the convex module's dominant-pair sweep switches to
 #: a slow bounded least-squares method; the strategy then supplies the first
 #: central polynomial itself.
 _MAX_PAIR_COLUMNS = 8
-#: Rough seconds per certified design plus pole placement, to respect the deadline.
-_COST_GUESS = 0.35
+#: Solver coordinates below this are no controller at all (x is in units of the
+#: reference gain 1 / |G(j w)|, so the test is relative to the problem's scale).
+_NEGLIGIBLE_X = 1e-6
 
 
 @dataclass(frozen=True)
@@ -113,49 +117,6 @@ def _pad_to(p: np.ndarray, n: int) -> np.ndarray:
     return np.concatenate([np.zeros(n - p.size), p])
 
 
-def _generators(name: str, fixed, form, sign: float, k_ref: float, w: float,
-                gmax: float | None):
-    """Conic generators (rows, in the form's coefficient basis) and the upper bounds of x.
-
-    Each generator is scaled by ``k_ref w^j`` (``j`` the power of ``s`` it
-    drops below the numerator's degree) so that useful values of ``x`` are of
-    order one in every problem; only the gain range bounds ``x`` above.
-    """
-    k = form.den.size
-    powers = np.arange(k, dtype=float)            # descending: s^(k-1) ... s^0
-    if name in ("lead", "lag", "PD"):
-        p = fixed[0]
-        if name == "lead":            # u s + v (s + p): zero in [0, p]
-            gen = np.array([[1.0, 0.0], [1.0, p]])
-        elif name == "lag":           # u (s + p) + v: zero in [p, inf)
-            gen = np.array([[1.0, p], [0.0, w]])
-        else:                         # u (s + p/51) + v (s + p/3): ratio in the PD range
-            gen = np.array([[1.0, p / PD_RATIO_RANGE[1]], [1.0, p / PD_RATIO_RANGE[0]]])
-        leads = gen[:, 0]
-    elif name == "lead-lag":
-        # (s + z_lag) (u s + v (s + p_lead)): the lag section (zero z_lag, pole
-        # p_lag) fixed, the lead zero in [0, p_lead], both zeros real
-        p1, z2 = fixed[0], fixed[2]
-        gen = np.array([np.polymul([1.0, z2], [1.0, 0.0]), np.polymul([1.0, z2], [1.0, p1])])
-        leads = gen[:, 0]
-    elif name == "general":           # free signs: the caller sets lo = -inf
-        gen = np.diag(w ** powers)
-        leads = np.concatenate([[1.0], np.zeros(k - 1)])
-    else:
-        # P, PI, PID, lead-lag: nonnegative coefficients, necessary for zeros in
-        # the left half-plane; the family's exact shape is checked after the solve
-        gen = np.diag(w ** powers)
-        leads = np.concatenate([[1.0], np.zeros(k - 1)])
-    gen = sign * k_ref * gen
-    hi = np.full(gen.shape[0], np.inf)
-    if gmax is not None:
-        hi = np.where(leads > 0, gmax / k_ref, np.inf)
-    lo = np.zeros(gen.shape[0])
-    if name == "general":
-        lo = np.where(leads > 0, 0.0, -np.inf)
-    return gen @ form.basis, lo, hi
-
-
 def _static_floor(problem, gen, den_c) -> tuple[int, float] | None:
     """Lower bound on one ``x_i`` that meets the step-error limit, when it is a box bound.
 
@@ -183,49 +144,67 @@ def _static_floor(problem, gen, den_c) -> tuple[int, float] | None:
 
 
 def affine_loop(problem, family, fixed, sign: int = 1) -> AffineLoop:
-    """The loop of ``family`` with its denominator part fixed, as ``c0 + M x``, ``x >= 0``.
+    """The loop of ``family`` with its denominator part fixed, as ``c0 + M x`` on a box.
 
     Parameters
     ----------
-    problem : synth.requirements.Problem
+    problem : synth.problem.Problem
     family : synth.families.Family
     fixed : sequence of float
-        Values of ``family.fixed_names`` (see :meth:`Family.affine_form`).
+        Values of ``family.fixed_names`` (see :meth:`Family.conic_form`).
     sign : {1, -1}
         Sign of the compensator gain.
 
     Returns
     -------
     AffineLoop
+
+    Raises
+    ------
+    StrategyDeclined
+        When the family has no fixed-denominator form, or the box cannot meet
+        the step-error limit within the gain range.
+    ValueError
+        For a sign the gain range excludes (a programming error: callers pick
+        the sign with :func:`synth.strategies.placement.gain_signs`).
     """
-    form = family.affine_form(tuple(fixed)[: len(family.fixed_names)])
+    from synth.families import NotSupported
+
+    w = _reference_speed(problem)
+    form = family.conic_form(tuple(fixed), w)
+    if isinstance(form, NotSupported):
+        raise StrategyDeclined(form.reason)
     gr = problem.requirements.gain_range
     gmax = None
     if gr is not None:
         gmax = float(gr[1]) if sign > 0 else -float(gr[0])
         if gmax <= 0:
             raise ValueError("the gain range excludes this sign")
-    w = _reference_speed(problem)
     g = abs(complex(np.polyval(problem.plant.num, 1j * w) / np.polyval(problem.plant.den, 1j * w)))
+    # generators scaled so that useful x are of order one whatever the plant's gain
     k_ref = 1.0 / g if np.isfinite(g) and g > 0 else 1.0
-    gen, lo, hi = _generators(family.name, tuple(fixed), form, float(sign), k_ref, w, gmax)
+    gen = float(sign) * k_ref * form.generators
+    hi = np.full(gen.shape[0], np.inf)
+    if gmax is not None:
+        hi = np.where(form.carries_gain, gmax / k_ref, np.inf)
+    lo = form.lower.copy()
     floor = _static_floor(problem, gen, form.den)
     if floor is not None:
         i, x_min = floor
-        lo = lo.copy()
         lo[i] = max(lo[i], x_min)
         if lo[i] > hi[i]:
-            raise ValueError("the gain range cannot meet the steady-state error limit")
+            fixed_text = ", ".join(f"{k} {v:.4g}" for k, v in
+                                   zip(form.fixed_names, form.fixed, strict=True))
+            raise StrategyDeclined(f"{family.name} ({fixed_text or 'no fixed part'}): the gain "
+                                   "range cannot meet the steady-state error limit")
     num_g, den_g = problem.plant.num, problem.plant.den
     cols = [np.polymul(g, num_g) for g in gen]
     base = np.polymul(form.den, den_g)
-    if np.any(form.num0):
-        base = np.polyadd(base, np.polymul(form.num0, num_g))
     n = max(base.size, *(c.size for c in cols))
     c0 = _pad_to(base, n)
     M = np.stack([_pad_to(c, n) for c in cols], axis=1)
-    return AffineLoop(family.name, tuple(float(v) for v in fixed), form.den.copy(), gen,
-                      c0, M, lo, np.asarray(hi, dtype=float))
+    return AffineLoop(family.name, form.fixed, form.den.copy(), gen, c0, M, lo,
+                      np.asarray(hi, dtype=float))
 
 
 def _reference_speed(problem) -> float:
@@ -237,79 +216,37 @@ def _reference_speed(problem) -> float:
 
 
 def fixed_parts(problem, family, prior=()) -> list[tuple[float, ...]]:
-    """Fixed denominator parts to try: from earlier candidates first, then a sweep.
+    """Fixed denominator parts to try: from earlier candidates first, then the family's.
 
     Parameters
     ----------
-    problem : synth.requirements.Problem
+    problem : synth.problem.Problem
     family : synth.families.Family
     prior : sequence of Candidate
-        Earlier candidates of this family; their denominators come first.
+        Earlier candidates of this family; their fixed parts come first.
 
     Returns
     -------
     list of tuple of float
-        Values of ``family.fixed_names``, inside the family's frequency band.
+        Values of ``family.fixed_names``, duplicates (to 1e-6 relative) removed;
+        empty when the family has no fixed-denominator form.
     """
-    w = _reference_speed(problem)
-    space = family.space
-    name = family.name
+    from synth.families import NotSupported
+
+    sweep = family.convex_fixed_parts(_reference_speed(problem), problem.region)
+    if isinstance(sweep, NotSupported):
+        return []
     out: list[tuple[float, ...]] = []
     for c in list(prior)[:_PRIORS]:
-        f = _fixed_from_den(family, np.asarray(c.den, dtype=float), np.asarray(c.num, dtype=float))
+        f = family.fixed_part_of(np.asarray(c.num, dtype=float), np.asarray(c.den, dtype=float))
         if f is not None:
-            out.append(f)
-    if name in ("PD", "PID"):
-        out += [(a * w,) for a in _PD_FILTER]
-    elif name == "lead":
-        out += [(a * w,) for a in _LEAD_POLE]
-    elif name == "lag":
-        out += [(a * w,) for a in _LAG_POLE]
-    elif name == "lead-lag":
-        # the closed loop keeps a slow pole near the lag zero: keep it inside the
-        # region's decay rate so that a certificate can exist
-        sig = problem.region.sigma
-        for a, b, c in _LEADLAG_POLES:
-            z = max(c * w, 1.5 * sig)
-            out.append((a * w, z * b / c, z))
-    elif name == "general":
-        n = family.order
-        for a in _GENERAL_ROOTS:
-            roots = [-5.0 * w] * n if a else [0.0] + [-5.0 * w] * (n - 1)
-            out.append(tuple(float(v) for v in np.poly(roots).real[1:]))
-    elif name in ("P", "PI"):
-        out += [()]
-    clipped = []
+            out.append(tuple(f))
+    out.extend(tuple(f) for f in sweep)
+    unique: list[tuple[float, ...]] = []
     for f in out:
-        if name != "general":
-            f = tuple(min(max(v, space.w_min), space.w_max) for v in f)
-        if not any(np.allclose(f, g, rtol=1e-6, atol=0) for g in clipped):
-            clipped.append(f)
-    return clipped
-
-
-def _fixed_from_den(family, den, num=None) -> tuple[float, ...] | None:
-    """Recover the fixed part from a candidate of the family (lead-lag: its lag zero too)."""
-    d = trim(den)
-    d = d / d[0]
-    name = family.name
-    if name in ("PD", "lead", "lag") and d.size == 2:
-        return (float(d[1]),)
-    if name == "PID" and d.size == 3:
-        return (float(d[1]),)
-    if name == "lead-lag" and d.size == 3 and num is not None and trim(num).size == 3:
-        r, q = np.roots(d), np.roots(trim(num))
-        if (np.any(np.abs(r.imag) > 1e-9 * np.abs(r)) or np.any(r.real >= 0)
-                or np.any(np.abs(q.imag) > 1e-9 * np.abs(q)) or np.any(q.real >= 0)):
-            return None
-        poles, zeros = np.sort(-r.real), np.sort(-q.real)
-        if not zeros[0] > poles[0]:
-            return None
-        # (lead pole, lag pole, lag zero): the smaller zero belongs to the lag
-        return (float(poles[1]), float(poles[0]), float(zeros[0]))
-    if name == "general" and d.size == family.order + 1:
-        return tuple(float(v) for v in d[1:])
-    return None
+        if not any(len(f) == len(g) and np.allclose(f, g, rtol=1e-6, atol=0) for g in unique):
+            unique.append(f)
+    return unique
 
 
 def _jsonable(a) -> list[float]:
@@ -340,19 +277,22 @@ def _regions(region):
         yield Region(0.0, 0.0), "region dropped: stability certified only"
 
 
-def _solve_one(problem, family, loop: AffineLoop, seed: int, w: float):
-    """Pole placement and certified region design on one parametrisation."""
+def _solve_one(problem, family, loop: AffineLoop, seed: int, w: float, solves: int):
+    """Pole placement and certified region design on one parametrisation.
+
+    Returns ``(solutions, solves_used)``; at most ``solves`` conic solves.
+    """
     from synth.numerics.screening import in_region_batch
     from synth.numerics.sos import certified_region_design, place_poles_ls, target_polynomial
 
     region = problem.region
     out = []
-    labels = (*family.fixed_names, "lag_zero")
-    names = dict(zip(labels, loop.fixed, strict=False))
+    names = dict(zip(family.fixed_names, loop.fixed, strict=False))
     base = {"fixed": names, "region": {"sigma": float(region.sigma), "zeta": float(region.zeta)}}
     n = loop.c0.size - 1
     target = target_polynomial(region, n, natural_frequency=w)
     x_ls = place_poles_ls(loop.c0, loop.M, target, loop.lo, loop.hi)
+    used = 1
     c_ls = None
     if x_ls is not None:
         c_ls = loop.c0 + loop.M @ x_ls
@@ -363,7 +303,10 @@ def _solve_one(problem, family, loop: AffineLoop, seed: int, w: float):
         else:
             c_ls = None  # poles outside the region: not worth verifying
     big = loop.M.shape[1] + n - 1 > _MAX_PAIR_COLUMNS
-    for reg, _why in _regions(region):
+    design = cert_region = relaxed = None
+    for reg, why in _regions(region):
+        if used >= solves:
+            break
         central = None
         if big:
             # large loops: start from the least-squares fit (or the target)
@@ -374,17 +317,19 @@ def _solve_one(problem, family, loop: AffineLoop, seed: int, w: float):
                 central = target_polynomial(reg, n, natural_frequency=w)
         design = certified_region_design(loop.c0, loop.M, reg, loop.lo, loop.hi,
                                          central=central,
-                                         iterations=_ITERATIONS, natural_frequency=w,
-                                         samples=_SAMPLES, seed=seed,
+                                         iterations=min(_ITERATIONS, solves - used),
+                                         natural_frequency=w, samples=_SAMPLES, seed=seed,
                                          bisection_steps=_BISECTION_STEPS)
-        relaxed = _why
+        used += design.iterations
+        cert_region, relaxed = reg, why
         if design.certified:
             break
-    if design.x is not None and (design.certified or relaxed is None):
+    if design is not None and design.x is not None and (design.certified or relaxed is None):
         prov = {**base, "method": "certified region design (positive-polynomial certificate)",
                 "certified": bool(design.certified) and relaxed is None,
                 "status": design.status,
-                "certificate_region": {"sigma": float(reg.sigma), "zeta": float(reg.zeta)},
+                "certificate_region": {"sigma": float(cert_region.sigma),
+                                       "zeta": float(cert_region.zeta)},
                 "depth": float(design.depth), "margin": float(design.margin),
                 "iterations": int(design.iterations),
                 "central_polynomial": _jsonable(design.certificates[0].central)
@@ -393,85 +338,80 @@ def _solve_one(problem, family, loop: AffineLoop, seed: int, w: float):
         if relaxed is not None:
             prov["relaxed"] = relaxed
         out.insert(0, (design.x, loop.numerator(design.x), prov))
-    return out
+    return out, used
 
 
-def planned_parts(problem) -> int:
-    """How many fixed parts one family gets, from the file's time budget (deterministic).
+@dataclass(frozen=True)
+class ConvexStrategy:
+    """Convex synthesis (origin ``"convex"``): certified region designs and pole placement.
 
-    About 40 % of the family's share of ``search.time_budget`` at roughly
-    ``_COST_GUESS`` seconds per fixed part, between 1 and 3; the rest is left
-    to the global search.
+    See the module docstring.  ``propose`` returns ``[]`` for a family
+    without a fixed-denominator form; the seed only seeds the convex
+    module's sampling of starting points.
     """
-    from synth.families import families_for
 
-    share = float(problem.search.time_budget) / max(1, len(families_for(problem)))
-    return int(min(3, max(1, math.floor(0.4 * share / _COST_GUESS))))
+    name: str = "convex"
+    origin: str = ORIGIN
+    share: float = 0.3
+    order: int = 20
 
+    def propose(self, problem, family, context) -> list:
+        """Convex candidates for one family (certified region designs first).
 
-def propose(problem, family, context) -> list:
-    """Convex candidates for one family (certified region designs first).
+        Returns
+        -------
+        list of synth.strategies.Candidate
+            ``origin = "convex"``; ``provenance["certified"]`` tells whether the
+            certificate for the requirement region holds; ``certificate_region``
+            is the region the certificates were written for (weaker, with a
+            ``relaxed`` note, when the requirement region admits none).
 
-    Parameters
-    ----------
-    problem : synth.requirements.Problem
-    family : synth.families.Family
-    context : synth.strategies.SearchContext
-        ``seed`` seeds the convex module's sampling; ``deadline`` caps the
-        sweep of fixed parts (a sweep cut short says ``time_capped``).
+        Raises
+        ------
+        StrategyDeclined
+            When no fixed part can meet the step-error limit within the gain range.
+        """
+        from synth.strategies.base import CONIC_SOLVE_UNITS, candidate_from_polys
+        from synth.strategies.placement import gain_signs
 
-    Returns
-    -------
-    list of synth.strategies.Candidate
-        ``origin = "convex"``; ``provenance["certified"]`` tells whether the
-        certificate for the requirement region holds; ``certificate_region``
-        is the region the certificates were written for (weaker, with a
-        ``relaxed`` note, when the requirement region admits none).
-    """
-    from synth.strategies import candidate_from_polys
-    from synth.strategies.placement import gain_signs
-
-    signs = gain_signs(problem)
-    if not signs:
-        return []
-    sign = signs[0]
-    w = _reference_speed(problem)
-    seed = int(getattr(context, "seed", 0) or 0)
-    deadline = getattr(context, "deadline", None)
-    prior = getattr(context, "prior", ()) or ()
-    out = []
-    capped = False
-    parts = fixed_parts(problem, family, prior)[: planned_parts(problem)]
-    for i, fixed in enumerate(parts):
-        if deadline is not None and time.monotonic() + _COST_GUESS > deadline:
-            capped = True
-            break
-        try:
-            loop = affine_loop(problem, family, fixed, sign)
-        except (ValueError, ArithmeticError):
-            continue
-        if not np.all(np.isfinite(loop.M)) or not np.all(np.isfinite(loop.c0)):
-            continue
-        try:
-            solved = _solve_one(problem, family, loop, seed + i, w)
-        except (KeyboardInterrupt, SystemExit):
-            raise
-        except BaseException:  # noqa: B036 - a solver panic (pyo3) is not an Exception
-            # a numerical failure inside a solver costs this fixed part only
-            continue
-        for x, num, prov in solved:
-            if not np.any(np.abs(x) > 1e-6):
-                continue  # (numerically) no controller at all
-            num = trim(num)
-            if num.size == 0 or not np.all(np.isfinite(num)) or num[0] == 0.0:
+        signs = gain_signs(problem)
+        parts = fixed_parts(problem, family, context.prior)[:_MAX_PARTS]
+        if not signs or not parts:
+            return []
+        sign = signs[0]
+        w = _reference_speed(problem)
+        solves = int(context.work) // CONIC_SOLVE_UNITS
+        out = []
+        declined = []
+        for i, fixed in enumerate(parts):
+            if solves < 2:   # a least-squares fit and one certificate at least
+                break
+            try:
+                loop = affine_loop(problem, family, fixed, sign)
+            except StrategyDeclined as err:
+                declined.append(str(err))
                 continue
-            cand = candidate_from_polys(family, num, loop.den, ORIGIN, prov)
-            if not cand.params:
-                continue  # the solution left the family's shape (e.g. complex lead-lag zeros)
-            if any(np.allclose(cand.num, c.num, rtol=1e-8, atol=0) and cand.den == c.den
-                   for c in out if len(c.num) == len(cand.num)):
+            if not np.all(np.isfinite(loop.M)) or not np.all(np.isfinite(loop.c0)):
                 continue
-            out.append(cand)
-    if capped and out:
-        out[-1] = replace(out[-1], provenance={**out[-1].provenance, "time_capped": True})
-    return out
+            solved, used = _solve_one(problem, family, loop, int(context.seed) + i, w, solves)
+            solves -= used
+            for x, num, prov in solved:
+                if not np.any(np.abs(x) > _NEGLIGIBLE_X):
+                    continue  # (numerically) no controller at all
+                num = trim(num)
+                if num.size == 0 or not np.all(np.isfinite(num)) or num[0] == 0.0:
+                    continue
+                cand = candidate_from_polys(family, num, loop.den, self.origin, prov)
+                if not cand.params:
+                    continue  # the solution left the family's shape (e.g. complex lead-lag zeros)
+                if any(np.allclose(cand.num, c.num, rtol=1e-8, atol=0) and cand.den == c.den
+                       for c in out if len(c.num) == len(cand.num)):
+                    continue
+                out.append(cand)
+        if not out and declined and len(declined) == len(parts):
+            raise StrategyDeclined("; ".join(dict.fromkeys(declined)))
+        return out
+
+
+#: The registered strategy object (see :func:`synth.strategies.default_strategies`).
+STRATEGY = ConvexStrategy()

@@ -23,15 +23,21 @@ a dead time enters by its Pade form); margins and peak sensitivity from
 the plant-gain range by the eigenvalue-free kernel at test factors.  These
 are estimates: every proposal is verified afterwards by :func:`synth.verify.verify`.
 
-Determinism.  All randomness comes from ``context.seed`` (initial Latin
-hypercube and the evolution's own generator); generations and polish
-evaluations are fixed numbers, so the same problem and seed give the same
-proposals.  Candidates of earlier strategies (``context.prior``) are polished
-next to the evolution's best but never enter its population, so the
-evolution's own proposals do not depend on which other strategies ran
-(adding a strategy can only add candidates).  The deadline is only a safety cap: when it cuts the evolution,
-the provenance says so (``time_capped``) and the run is no longer
-guaranteed to repeat.
+Work and determinism.  One work unit is one row of the objective.  The
+polish has a fixed number of compass iterations; the evolution gets the
+generations that the rest of ``context.work`` pays for (about 40 + 15 per
+parameter at ``search.effort = 1``; when a run converges early, the work left
+restarts it from a fresh hypercube, so one poor basin is not the last word),
+so the same problem and seed give the
+same proposals on any machine under any load; nothing here reads the clock.
+All randomness comes from ``context.seed``: the initial Latin hypercube
+(``scipy.stats.qmc.LatinHypercube``) and the evolution's own generator draw
+from one ``numpy.random.Generator``.  With too little work for a single
+generation (a structure the proportional analysis already rules out), only
+the initial population is evaluated.  Candidates of earlier strategies
+(``context.prior``) are polished next to the evolution's best but never
+enter its population, so the evolution's own proposals do not depend on
+which other strategies ran (adding a strategy can only add candidates).
 
 References
 ----------
@@ -50,15 +56,14 @@ References
 from __future__ import annotations
 
 import math
-import time
 from dataclasses import dataclass
 
 import numpy as np
 
 from synth.numerics.poly import batch_polymul
-from synth.strategies import candidate_from_params
+from synth.strategies.base import candidate_from_params
 
-__all__ = ["ORIGIN", "SearchObjective", "propose"]
+__all__ = ["ORIGIN", "STRATEGY", "EvolveStrategy", "SearchObjective"]
 
 ORIGIN = "search"
 
@@ -68,10 +73,14 @@ _TIGHTEN = 0.95
 #: Points of the modal step-response grid and of the frequency grid.
 _T_POINTS = 240
 _W_POINTS = 160
-#: Population size (about; rounded to a multiple of the dimension) and generations.
+#: Population size (about; rounded to a multiple of the dimension).
 _POPULATION = 42
-_BASE_GENERATIONS = 40
-_GENERATIONS_PER_PARAM = 15
+#: Relative spread of the population's objective at which the evolution stops.
+_DE_TOL = 1e-3
+#: Fewest generations a restart is worth (the work left after an early convergence).
+_MIN_RESTART_GENERATIONS = 15
+#: Objective values at or above this belong to unstable closed loops.
+_UNSTABLE = 10.0
 #: How many distinct candidates a family returns, and how many get polished.
 _N_OUT = 4
 _N_POLISH = 2
@@ -201,9 +210,9 @@ class SearchObjective:
     def details(self, X) -> dict[str, np.ndarray]:
         """Estimated metrics and the objective for a batch (arrays of shape (B,))."""
         from synth.locus.core import roots_batch
+        from synth.numerics.screening import in_region_batch as _in_region
         from synth.problem.region import Region
         from synth.rank import score_arrays
-        from synth.verify.screening import _in_region
 
         X = np.atleast_2d(np.asarray(X, dtype=float))
         B = X.shape[0]
@@ -339,11 +348,16 @@ class SearchObjective:
         return self.details(X)["f"]
 
 
-def _lhs(rng, n, lo, hi):
-    """Latin hypercube sample of n points in the box [lo, hi]."""
-    d = lo.size
-    u = (np.argsort(rng.random((n, d)), axis=0) + rng.random((n, d))) / n
-    return lo + u * (hi - lo)
+def _latin_hypercube(rng, n, lo, hi):
+    """Latin hypercube sample of ``n`` points in the box ``[lo, hi]`` (scipy.stats.qmc).
+
+    References
+    ----------
+    M. D. McKay, R. J. Beckman and W. J. Conover, Technometrics 21(2), 1979.
+    """
+    from scipy.stats import qmc
+
+    return lo + qmc.LatinHypercube(d=lo.size, rng=rng).random(n) * (hi - lo)
 
 
 def _gain_starts(family, context) -> list[np.ndarray]:
@@ -366,8 +380,8 @@ def _prior_starts(family, context) -> list[tuple[np.ndarray, str]]:
     return out
 
 
-def _compass(objective, X, F, lo, hi, deadline):
-    """Batched compass search from several starts at once.
+def _compass(objective, X, F, lo, hi):
+    """Batched compass search from several starts at once (``_POLISH_ITERATIONS`` at most).
 
     Each iteration evaluates, for every start, the 2p points one step along
     each coordinate and one pattern move (repeating the last successful
@@ -385,15 +399,13 @@ def _compass(objective, X, F, lo, hi, deadline):
     steps = np.tile(_POLISH_STEP * width, (k, 1))
     last = np.zeros_like(X)
     dirs = np.concatenate([np.eye(p), -np.eye(p)])
-    cut = False
+    evaluations = 0
     for _ in range(_POLISH_ITERATIONS):
-        if time.monotonic() > deadline:
-            cut = True
-            break
         trial = X[:, None, :] + dirs[None, :, :] * steps[:, None, :]
         trial = np.concatenate([trial, (X + last)[:, None, :]], axis=1)
         trial = np.clip(trial, lo, hi)
         ft = objective(trial.reshape(-1, p)).reshape(k, 2 * p + 1)
+        evaluations += k * (2 * p + 1)
         j = np.argmin(ft, axis=1)
         best = ft[np.arange(k), j]
         better = best < F
@@ -404,7 +416,7 @@ def _compass(objective, X, F, lo, hi, deadline):
         steps = np.where(better[:, None], steps, 0.5 * steps)
         if np.all(steps < 1e-7 * width):
             break
-    return X, F, cut
+    return X, F, evaluations
 
 
 def _distinct(X, E, lo, hi, n_out):
@@ -424,100 +436,154 @@ def _distinct(X, E, lo, hi, n_out):
     return chosen
 
 
-def propose(problem, family, context) -> list:
-    """Differential evolution over the family's box, then compass search from the best.
+def _converged(intermediate_result) -> bool:
+    """Stop the evolution when its population agrees (scipy's rule, relative 1e-3)...
 
-    Parameters
-    ----------
-    problem : synth.requirements.Problem
-    family : synth.families.Family
-    context : synth.strategies.SearchContext
-        ``gain_seeds`` join the evolution's start population; ``prior``
-        candidates (from earlier strategies) are only polished, alongside the
-        evolution's best, so the evolution itself does not depend on which
-        other strategies ran.
-
-    Returns
-    -------
-    list of Candidate
-        Up to four distinct candidates of the evolution, best estimated first,
-        plus each prior candidate that the polish improved.
+    ...but never while every member is unstable: there the objective is
+    ``10 + log(1 + unstable part)``, whose spread is tiny next to its mean,
+    so scipy's relative test would stop on the plateau before any stable
+    compensator is found.  A rule on the population (work), not on time.
     """
-    from scipy.optimize import differential_evolution
+    E = np.asarray(intermediate_result.population_energies)
+    if not np.all(np.isfinite(E)) or np.min(E) >= _UNSTABLE:
+        return False
+    return bool(np.std(E) <= _DE_TOL * abs(float(np.mean(E))))
 
-    objective = SearchObjective(problem, family)
-    lo, hi = family.bounds()
-    p = family.n_params
-    rng = np.random.default_rng(context.seed)
-    popmult = max(5, int(math.ceil(_POPULATION / p)))
-    npop = popmult * p
-    init = _lhs(rng, npop, lo, hi)
-    starts = _gain_starts(family, context)
-    for i, x in enumerate(starts[: npop // 2]):
-        init[i] = x
-    generations = _BASE_GENERATIONS + _GENERATIONS_PER_PARAM * p
-    capped = {"hit": False}
 
-    def stop(intermediate_result):
-        if time.monotonic() > context.deadline:
-            capped["hit"] = True
-            raise StopIteration
+def _polish_reserve(p: int) -> int:
+    """Work units kept for the polish: every compass iteration from every start, plus priors."""
+    return _POLISH_ITERATIONS * (2 * p + 1) * (_N_POLISH + _N_PRIOR_POLISH) + 20
 
-    res = differential_evolution(
-        lambda Xt: objective(Xt.T), list(zip(lo, hi, strict=True)), maxiter=generations,
-        popsize=popmult, init=init, rng=rng, polish=False, vectorized=True,
-        updating="deferred", workers=1, tol=1e-3, mutation=(0.5, 1.0), recombination=0.9,
-        callback=stop)
-    pop = np.asarray(res.population)
-    energies = np.asarray(res.population_energies)
-    chosen = _distinct(pop, energies, lo, hi, _N_OUT)
-    xs = [pop[i] for i in chosen]
-    fs = [float(energies[i]) for i in chosen]
-    src = ["evolution"] * len(xs)
-    k = min(_N_POLISH, len(xs))
-    # prior candidates: polished too, best few (they are already in the run as they are)
-    priors = _prior_starts(family, context)
-    if priors:
-        PX = np.array([x for x, _ in priors])
-        PF = objective(PX)
-        keep = _distinct(PX, PF, lo, hi, _N_PRIOR_POLISH)
-        prior_x = [PX[i] for i in keep]
-        prior_f = [float(PF[i]) for i in keep]
-        prior_src = [f"polished {priors[i][1]} candidate" for i in keep]
-    else:
-        prior_x, prior_f, prior_src = [], [], []
-    polished = [False] * len(xs)
-    n_start = k + len(prior_x)
-    if n_start and time.monotonic() <= context.deadline:
-        X0 = np.array(xs[:k] + prior_x)
-        F0 = np.array(fs[:k] + prior_f)
-        X1, F1, cut = _compass(objective, X0, F0, lo, hi, context.deadline)
-        capped["hit"] |= cut
-        for j in range(k):
-            if F1[j] < fs[j]:
-                xs[j], fs[j], polished[j] = X1[j], float(F1[j]), True
-        for j in range(len(prior_x)):
-            if F1[k + j] < prior_f[j]:
-                xs.append(X1[k + j])
-                fs.append(float(F1[k + j]))
-                polished.append(True)
-                src.append(prior_src[j])
-    elif n_start:
-        capped["hit"] = True
-    order = np.argsort(fs, kind="stable")
-    out = []
-    for j in order:
-        prov = {
-            "method": "differential evolution (Storn and Price 1997), compass-search polish",
-            "start": src[j],
-            "objective": fs[j],
-            "estimated_feasible": bool(fs[j] < 1.0),
-            "polished": polished[j],
-            "generations": int(res.nit),
-            "evaluations": int(res.nfev),
-            "gain_starts": len(starts),
-            "time_capped": capped["hit"],
-            "seed": int(context.seed),
-        }
-        out.append(candidate_from_params(family, xs[j], ORIGIN, prov))
-    return out
+
+@dataclass(frozen=True)
+class EvolveStrategy:
+    """Global search (origin ``"search"``): differential evolution, then compass polish.
+
+    See the module docstring for the objective, the work accounting and the
+    determinism rules.
+    """
+
+    name: str = "search"
+    origin: str = ORIGIN
+    share: float = 0.68
+    order: int = 30
+
+    def propose(self, problem, family, context) -> list:
+        """Differential evolution over the family's box, then compass search from the best.
+
+        Parameters
+        ----------
+        problem : synth.problem.Problem
+        family : synth.families.Family
+        context : synth.strategies.SearchContext
+            ``gain_seeds`` join the evolution's start population; ``prior``
+            candidates (from earlier strategies) are only polished, alongside
+            the evolution's best, so the evolution itself does not depend on
+            which other strategies ran.
+
+        Returns
+        -------
+        list of Candidate
+            Up to four distinct candidates of the evolution, best estimated
+            first, plus each prior candidate that the polish improved.
+        """
+        p = family.n_params
+        popmult = max(5, int(math.ceil(_POPULATION / p)))
+        npop = popmult * p
+        if int(context.work) < npop:
+            return []  # not even the initial population fits in the work allowance
+        objective = SearchObjective(problem, family)
+        lo, hi = family.bounds()
+        rng = np.random.default_rng(context.seed)
+        init = _latin_hypercube(rng, npop, lo, hi)
+        starts = _gain_starts(family, context)
+        for i, x in enumerate(starts[: npop // 2]):
+            init[i] = x
+        # the evolution costs npop rows per generation plus the initial population
+        # each generation costs npop rows, plus the initial population of each run
+        rows = int(context.work) - _polish_reserve(p)
+        generations = rows // npop - 1
+        pops, energies_list, labels = [], [], []
+        nit = 0
+        if generations >= 1:
+            from scipy.optimize import differential_evolution
+
+            start = init
+            while True:
+                maxiter = rows // npop - 1
+                if maxiter < (1 if not pops else _MIN_RESTART_GENERATIONS):
+                    break
+                res = differential_evolution(
+                    lambda Xt: objective(Xt.T), list(zip(lo, hi, strict=True)), maxiter=maxiter,
+                    popsize=popmult, init=start, rng=rng, polish=False, vectorized=True,
+                    updating="deferred", workers=1, tol=0.0, mutation=(0.5, 1.0),
+                    recombination=0.9, callback=_converged)
+                pops.append(np.asarray(res.population))
+                energies_list.append(np.asarray(res.population_energies))
+                labels.append("evolution" if len(pops) == 1 else f"evolution restart {len(pops) - 1}")
+                nit += int(res.nit)
+                rows -= npop * (int(res.nit) + 1)
+                if int(res.nit) >= maxiter:
+                    break  # the work is spent
+                # converged early: the rest of the work restarts from a fresh hypercube, so
+                # a population caught in a poorer basin is not the last word
+                start = _latin_hypercube(rng, npop, lo, hi)
+        else:
+            # too little work for a generation: the initial population is the answer
+            pops, energies_list, labels = [init], [objective(init)], ["initial sample"]
+        nfev = npop * (nit + len(pops))
+        pop = np.concatenate(pops)
+        energies = np.concatenate(energies_list)
+        origin_of = np.repeat(np.arange(len(pops)), [len(e) for e in energies_list])
+        chosen = _distinct(pop, energies, lo, hi, _N_OUT)
+        xs = [pop[i] for i in chosen]
+        fs = [float(energies[i]) for i in chosen]
+        src = [labels[origin_of[i]] for i in chosen]
+        polished = [False] * len(xs)
+        polish_evaluations = 0
+        if generations >= 1:
+            k = min(_N_POLISH, len(xs))
+            # prior candidates: polished too, best few (they are already in the run as they are)
+            priors = _prior_starts(family, context)
+            prior_x, prior_f, prior_src = [], [], []
+            if priors:
+                PX = np.array([x for x, _ in priors])
+                PF = objective(PX)
+                polish_evaluations += len(priors)
+                keep = _distinct(PX, PF, lo, hi, _N_PRIOR_POLISH)
+                prior_x = [PX[i] for i in keep]
+                prior_f = [float(PF[i]) for i in keep]
+                prior_src = [f"polished {priors[i][1]} candidate" for i in keep]
+            if k + len(prior_x):
+                X1, F1, used = _compass(objective, np.array(xs[:k] + prior_x),
+                                        np.array(fs[:k] + prior_f), lo, hi)
+                polish_evaluations += used
+                for j in range(k):
+                    if F1[j] < fs[j]:
+                        xs[j], fs[j], polished[j] = X1[j], float(F1[j]), True
+                for j in range(len(prior_x)):
+                    if F1[k + j] < prior_f[j]:
+                        xs.append(X1[k + j])
+                        fs.append(float(F1[k + j]))
+                        polished.append(True)
+                        src.append(prior_src[j])
+        order = np.argsort(fs, kind="stable")
+        out = []
+        for j in order:
+            prov = {
+                "method": "differential evolution (Storn and Price 1997), compass-search polish",
+                "start": src[j],
+                "objective": fs[j],
+                "estimated_feasible": bool(fs[j] < 1.0),
+                "polished": polished[j],
+                "generations": nit,
+                "evaluations": nfev + polish_evaluations,
+                "gain_starts": len(starts),
+                "seed": int(context.seed),
+            }
+            out.append(candidate_from_params(family, xs[j], self.origin, prov))
+        return out
+
+
+#: The registered strategy object (see :func:`synth.strategies.default_strategies`).
+STRATEGY = EvolveStrategy()
