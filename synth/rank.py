@@ -90,19 +90,20 @@ class RankedDesign:
 def reference_scales(problem) -> Refs:
     """``T_ref`` and ``U_ref`` of the score.
 
-    ``T_ref`` is ``max_settling_time`` when given, else ``4 / w_char`` with
+    ``T_ref`` is the settling-time limit when given, else ``4 / w_char`` with
     ``w_char`` the problem's characteristic frequency
-    (:class:`synth.families.SearchSpace`).  ``U_ref`` is
-    ``max_control_effort`` when given, else ``1 / |G(j 4 / T_ref)|``, the
+    (:class:`synth.families.SearchSpace`).  ``U_ref`` is the control-effort
+    limit when given, else ``1 / |G(j 4 / T_ref)|``, the
     gain that brings the plant to unit loop gain at the speed asked for.
     """
     from synth.families.base import SearchSpace
 
     req = problem.requirements
     space = SearchSpace.for_problem(problem)
-    t_ref = req.max_settling_time if req.max_settling_time is not None else 4.0 / space.w_char
-    if req.max_control_effort is not None:
-        u_ref = req.max_control_effort
+    ts, effort = req.limit("settling_time"), req.limit("peak_control_effort")
+    t_ref = ts if ts is not None else 4.0 / space.w_char
+    if effort is not None:
+        u_ref = effort
     else:
         g = abs(complex(problem.plant.evaluate(np.array([4j / t_ref]), exact_delay=False)[0]))
         u_ref = 1.0 / g if np.isfinite(g) and g > 0 else 1.0

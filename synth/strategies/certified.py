@@ -199,7 +199,7 @@ def affine_loop(problem, family, fixed, sign: int = 1) -> AffineLoop:
     AffineLoop
     """
     form = family.affine_form(tuple(fixed)[: len(family.fixed_names)])
-    gr = problem.requirements.gain_range
+    gr = problem.requirements.limit("gain")
     gmax = None
     if gr is not None:
         gmax = float(gr[1]) if sign > 0 else -float(gr[0])

@@ -367,8 +367,8 @@ def target_points(problem) -> list[Target]:
     for zt in dampings:
         sig = region.sigma
         basis = "settling time" if sig > 0 else ""
-        if req.max_rise_time is not None and zt * 1.8 / req.max_rise_time > sig:
-            sig = zt * 1.8 / req.max_rise_time
+        if req.limit("rise_time") is not None and zt * 1.8 / req.limit("rise_time") > sig:
+            sig = zt * 1.8 / req.limit("rise_time")
             basis = "rise time"
         if sig > 0:
             wns = [k * sig / zt for k in _SPEED_STEPS]
@@ -423,7 +423,7 @@ def static_gain_need(problem, num, den) -> tuple[float | None, str]:
     why : str
         Why it is None ("" otherwise).
     """
-    e = problem.requirements.max_steady_state_error
+    e = problem.requirements.limit("steady_state_error")
     if e is None:
         return None, "no steady-state error requirement"
     if _loop_type(den) >= 1:
@@ -539,7 +539,7 @@ def _pd_section(s: complex, phi: float, wmax: float) -> tuple[float, float] | No
 
 
 def _limits(problem):
-    gr = problem.requirements.gain_range
+    gr = problem.requirements.limit("gain")
     lo, hi = (None, None) if gr is None else (float(gr[0]), float(gr[1]))
     return lo, hi, float(problem.search.max_frequency)
 
@@ -562,7 +562,7 @@ def gain_signs(problem) -> tuple[int, ...]:
     """Gain signs to try: the one giving negative feedback at low frequency (common
     practice), the other only when the gain range excludes it."""
     want = _static_sign(problem.plant.num, problem.plant.den)
-    gr = problem.requirements.gain_range
+    gr = problem.requirements.limit("gain")
     if gr is None:
         return (want,)
     allowed = [sg for sg in (1, -1) if (gr[1] > 0 if sg > 0 else gr[0] < 0)]
@@ -1040,7 +1040,7 @@ def shortlist(problem, designs, limit: int = MAX_CANDIDATES) -> list[Placement]:
     scr = screen_batch(problem, nums, dens)
     klass = np.where(scr.in_region & scr.plant_range_ok, 0,
                      np.where(scr.stable & scr.plant_range_ok, 1, np.where(scr.stable, 2, 3)))
-    u_max = problem.requirements.max_control_effort
+    u_max = problem.requirements.limit("peak_control_effort")
     if u_max is not None:
         # a biproper compensator's output jumps to K at the step: |K| bounds the peak
         klass = np.where(np.array([abs(d.gain) > u_max for d in designs]), 3, klass)

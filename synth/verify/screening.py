@@ -10,6 +10,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from synth.numerics.poly import batch_polymul
+from synth.numerics.screening import in_region_batch
 
 
 @dataclass(frozen=True)
@@ -23,13 +24,7 @@ class ScreenResult:
 
 
 def _in_region(polys, region) -> np.ndarray:
-    """Batched region test: the eigenvalue-free kernel, or eigenvalues as a fallback."""
-    try:
-        from synth.numerics.screening import in_region_batch
-    except ImportError:  # kernel not installed: same answer from eigenvalues
-        from synth.locus.core import roots_batch
-
-        return region.contains(roots_batch(polys))
+    """Batched region test by the eigenvalue-free kernel."""
     return in_region_batch(polys, region)
 
 
@@ -66,7 +61,7 @@ def screen_batch(problem, nums, dens, range_points: int = 3) -> ScreenResult:
     region = problem.region
     in_region = _in_region(char, region) if not region.is_stability_only else stable.copy()
     ok = stable.copy()
-    pgr = problem.requirements.plant_gain_range
+    pgr = problem.requirements.limit("stable_plant_gain_range")
     if pgr is not None:
         ks = np.geomspace(pgr[0], pgr[1], max(2, range_points))
         for k in ks:
