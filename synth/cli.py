@@ -134,10 +134,17 @@ def trace(
 
     if design:
         path, rank = _split_design_ref(design)
-        from synth.outputs.compare import load_design_json
+        from synth.outputs.document import load_design
 
-        result, operating_gain = trace_design_loop(problem, load_design_json(path), rank,
-                                                   source=path)
+        document = load_design(path)
+        chosen, plant = document.design(rank), document.need_plant()
+        try:
+            result, operating_gain = trace_design_loop(
+                problem, plant.numerator, plant.denominator, chosen.compensator.num,
+                chosen.compensator.den)
+        except InputError as err:
+            raise InputError(f"design {rank}: {err.message}", path,
+                             f"designs[{chosen.index}].{err.key}") from None
     else:
         with _about(problem):
             result, operating_gain = trace_problem(problem), None
@@ -188,9 +195,10 @@ def design(
     if json_out:
         _write_json_atomic(json_out, doc)
     if report:
+        from synth.design import prepare_report
         from synth.outputs.report.document import write_report
 
-        written = write_report(problem, doc, report)
+        written = write_report(prepare_report(problem, doc, run.explanation), report)
         for path in written:
             typer.echo(f"report written to {path}")
     if not run.any_feasible:

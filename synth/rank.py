@@ -37,12 +37,13 @@ requirement limits when given, else scales of the plant; see
 :func:`reference_scales`), never on the other candidates, so adding a
 candidate never changes the order of the others.
 
-Near duplicates.  Two designs whose compensator frequency responses agree
-within 0.5 % over the design band (40 points from ``w_min`` to ``w_max`` of
-:class:`synth.families.SearchSpace`) are the same controller for every
-practical purpose; only the better ranked one is kept.  Between two designs
-of the same structure the tolerance is 10 %, so the list shows alternatives
-rather than small variations of one design.
+Near duplicates.  synth's one "same design" rule (:mod:`synth.verify.same`,
+:data:`~synth.verify.same.RANK_RULE`) is applied over the design band (40
+points from ``w_min`` to ``w_max`` of :class:`synth.families.SearchSpace`):
+compensator frequency responses that agree within 0.5 % are the same
+controller for every practical purpose, and only the better ranked one is
+kept.  Between two designs of the same structure the tolerance is 10 %, so
+the list shows alternatives rather than small variations of one design.
 """
 
 from __future__ import annotations
@@ -55,6 +56,7 @@ import numpy as np
 
 from synth.problem.requirements import STRUCTURES
 from synth.strategies import ORIGINS, Candidate
+from synth.verify.same import RANK_RULE, compensator_responses, response_gap
 from synth.verify.verdict import Verdict
 
 __all__ = ["RankedDesign", "Refs", "rank_designs", "reference_scales", "score", "score_arrays"]
@@ -62,10 +64,6 @@ __all__ = ["RankedDesign", "Refs", "rank_designs", "reference_scales", "score", 
 #: Weights of the score terms (read-only).
 WEIGHTS = MappingProxyType({"sensitivity": 0.27, "gain_range": 0.13, "speed": 0.22,
                             "effort": 0.13, "simplicity": 0.13, "tracking": 0.12})
-#: Relative agreement of compensator frequency responses that counts as a duplicate
-#: (looser between designs of one structure, so the list shows real alternatives).
-_DUPLICATE_RTOL = 5e-3
-_SAME_STRUCTURE_RTOL = 0.1
 
 
 @dataclass(frozen=True)
@@ -167,15 +165,6 @@ def _sort_key(item):
             tuple(round(v, 12) for v in cand.num), tuple(round(v, 12) for v in cand.den))
 
 
-def _responses(cands, w) -> np.ndarray:
-    s = 1j * w
-    out = np.empty((len(cands), w.size), dtype=complex)
-    for i, c in enumerate(cands):
-        with np.errstate(all="ignore"):
-            out[i] = np.polyval(c.num, s) / np.polyval(c.den, s)
-    return out
-
-
 def rank_designs(pairs, problem, keep: int | None = None) -> list[RankedDesign]:
     """Order verified candidates, drop near duplicates, number them from 1.
 
@@ -201,20 +190,16 @@ def rank_designs(pairs, problem, keep: int | None = None) -> list[RankedDesign]:
     keep = problem.search.keep if keep is None else keep
     space = SearchSpace.for_problem(problem)
     w = np.geomspace(space.w_min, space.w_max, 40)
-    resp = _responses([it[0] for it in items], w)
+    resp = compensator_responses([(it[0].num, it[0].den) for it in items], w)
     kept: list[int] = []
     for i in range(len(items)):
         if len(kept) >= keep:
             break
         if kept:
-            other = resp[kept]
-            ri = resp[i][None, :]
-            with np.errstate(all="ignore"):
-                rel = np.abs(other - ri) / np.maximum(np.abs(other), np.abs(ri))
-            rel = np.max(np.where(np.isfinite(rel), rel, 1.0), axis=1)
-            same = np.array([items[j][0].structure == items[i][0].structure for j in kept])
-            tol = np.where(same, _SAME_STRUCTURE_RTOL, _DUPLICATE_RTOL)
-            if np.any(rel < tol):
+            gaps = response_gap(resp[kept], resp[i])
+            mine = items[i][0].structure
+            if any(RANK_RULE.same(g, items[j][0].structure, mine)
+                   for g, j in zip(gaps, kept, strict=True)):
                 continue
         kept.append(i)
     return [RankedDesign(rank=j + 1, candidate=items[i][0], verdict=items[i][1],

@@ -376,6 +376,30 @@ class Requirement:
             excess = float(self.shortfall(value, limit))
         return excess, self.violation.format(**ctx)
 
+    def room(self, value, limit) -> float:
+        """How much room a met limit leaves, as a fraction of the limit (of the range for ``within``).
+
+        ``inf`` where the metric is unbounded on the good side; negative when
+        the limit is violated.  A requirement is *binding* when its room is
+        small (compare's binding analysis).
+        """
+        if self.kind in ("upper", "lower"):
+            scale = max(abs(limit), self.floor)
+            if value is None:
+                return -math.inf if self.kind == "upper" else math.inf
+            excess = value - limit if self.kind == "upper" else limit - value
+            return -excess / scale if scale > 0 else (math.inf if excess <= 0 else -math.inf)
+        if self.kind == "contain":
+            if value is None:
+                return -math.inf
+            lo, hi = _ends(value)
+            a, b = limit
+            return min((a - lo) / abs(a), (hi - b) / abs(b))
+        if self.kind == "within":
+            a, b = limit
+            return min(value - a, b - value) / (b - a)
+        raise ValueError(f"{self.key} is a setting; it has no room")
+
     def search_limit(self, limit, margin: float, widen: float):
         """The limit a search aims for, with room left for its estimates' errors.
 
@@ -458,7 +482,8 @@ REQUIREMENTS: Mapping[str, Requirement] = MappingProxyType({r.key: r for r in (
         "plant gain tolerance", "stable for plant gain factors {}", "kG in [{:g},{:g}]",
         RangeSpec(positive=True),
         violation="stable only for plant-gain factors in {value_text}; required "
-                  "[{lo:.3g}, {hi:.3g}]"),
+                  "[{lo:.3g}, {hi:.3g}]",
+        undefined="no range of plant-gain factors around 1 keeps the loop stable"),
     Requirement(
         "gain_range", "gain", "within", "structure", "",
         "compensator gain", "K within {}", "K in [{:g},{:g}]", RangeSpec(),
