@@ -186,7 +186,10 @@ def design(
     with _about(problem), terminal_progress("searching") as progress:
         run = run_design(problem, progress=progress)
     doc = run.to_json()
-    _echo_lines(run.table_lines())
+    from synth.outputs.run import design_text
+    from synth.outputs.text import show
+
+    show(design_text(run))
     if sample_time is not None or doc.get("designs"):
         from synth.outputs.implementation import add_implementation_forms, implementation_lines
 
@@ -220,7 +223,9 @@ def compare(
     _check_output_path(plot, "--plot", (".png", ".svg"))
     runs = [(f, load_design_json(f)) for f in files]
     result = compare_runs(runs)
-    _echo_lines(result.table_lines())
+    from synth.outputs.text import show
+
+    show(result.text())
     if json_out:
         _write_json_atomic(json_out, result.to_json())
     if plot:

@@ -117,7 +117,7 @@ def _gain_seeds(problem, explanation) -> tuple[float, ...]:
         groups = [region_gain_intervals(plant.num, plant.den, problem.region),
                   stable_gain_intervals(plant.num, plant.den)]
     scale = max(1e-12, SearchSpace.for_problem(problem).gain_scale * 1e4)
-    gr = problem.requirements.gain_range
+    gr = problem.requirements.limit("gain")
     out: list[float] = []
     for ivs in groups:
         for lo, hi in ivs:

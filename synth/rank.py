@@ -12,25 +12,25 @@ and deterministic.
 Score.  A weighted sum of six terms, each in [0, 1], lower is better; the
 weights add up to 1:
 
-============  ======  ==================================================
-term          weight  value
-============  ======  ==================================================
-sensitivity   0.27    ``1 - 1/Ms`` (Ms the peak sensitivity)
-gain range    0.13    ``1 / (1 + g)``, ``g = min(ln hi, ln(1/lo))`` over the
-                      stable plant-gain range ``(lo, hi)`` (``lo <= 0``
-                      counts as unbounded below)
-speed         0.22    ``Ts / (Ts + T_ref)`` (Ts the settling time)
-effort        0.13    ``min(1, log10(1 + U / U_ref) / 4)`` (U the peak
-                      control effort: logarithmic, so a thousandfold effort
-                      still costs more than a hundredfold)
-simplicity    0.13    ``n_params / 8``
-tracking      0.12    ``clip(1 - y_ss, 0, 1)`` (y_ss the step's final
-                      value): even where no error limit is set, a loop
-                      that barely moves its output toward the reference
-                      (or moves it the wrong way) is no design; a final
-                      value at or above 1 costs nothing, since a prefilter
-                      gain can scale it down
-============  ======  ==================================================
+================  ======  ================================================
+term              weight  value
+================  ======  ================================================
+sensitivity       0.27    ``1 - 1/Ms`` (Ms the peak sensitivity)
+gain_tolerance    0.13    ``1 / (1 + g)``, ``g = min(ln hi, ln(1/lo))`` over
+                          the stable plant-gain range ``(lo, hi)``
+                          (``lo <= 0`` counts as unbounded below)
+speed             0.22    ``Ts / (Ts + T_ref)`` (Ts the settling time)
+effort            0.13    ``min(1, log10(1 + U / U_ref) / 4)`` (U the peak
+                          control effort: logarithmic, so a thousandfold
+                          effort still costs more than a hundredfold)
+simplicity        0.13    ``n_params / 8``
+tracking          0.12    ``clip(1 - y_ss, 0, 1)`` (y_ss the step's final
+                          value): even where no error limit is set, a loop
+                          that barely moves its output toward the
+                          reference (or moves it the wrong way) is no
+                          design; a final value at or above 1 costs
+                          nothing, since a prefilter gain can scale it down
+================  ======  ================================================
 
 The references ``T_ref`` and ``U_ref`` depend on the problem only (the
 requirement limits when given, else scales of the plant; see
@@ -62,7 +62,7 @@ from synth.verify.verdict import Verdict
 __all__ = ["RankedDesign", "Refs", "rank_designs", "reference_scales", "score", "score_arrays"]
 
 #: Weights of the score terms (read-only).
-WEIGHTS = MappingProxyType({"sensitivity": 0.27, "gain_range": 0.13, "speed": 0.22,
+WEIGHTS = MappingProxyType({"sensitivity": 0.27, "gain_tolerance": 0.13, "speed": 0.22,
                             "effort": 0.13, "simplicity": 0.13, "tracking": 0.12})
 
 
@@ -128,7 +128,7 @@ def score_arrays(ms, lo, hi, ts, effort, n_params, refs: Refs, final_value=1.0) 
         t_track = np.where(np.isfinite(fv), np.clip(1.0 - fv, 0.0, 1.0), 1.0)
     t_simple = float(n_params) / 8.0
     w = WEIGHTS
-    return (w["sensitivity"] * t_sens + w["gain_range"] * t_gain + w["speed"] * t_speed
+    return (w["sensitivity"] * t_sens + w["gain_tolerance"] * t_gain + w["speed"] * t_speed
             + w["effort"] * t_eff + w["simplicity"] * t_simple + w["tracking"] * t_track)
 
 

@@ -5,7 +5,7 @@ compensator
 
     C(s) = K * monic_num(s) / monic_den(s),
 
-``K`` being the root-locus gain that ``requirements.gain_range`` bounds (the
+``K`` being the root-locus gain that the allowed gain range bounds (the
 ``gain`` of the design JSON).  All families share the same methods, in the
 spirit of scikit-learn's estimators, so a strategy written against one works
 with every other:

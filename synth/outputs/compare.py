@@ -25,8 +25,9 @@ feasible design (or, when no design is feasible, its rank-1 design). Each
 requirement of the run's ``requirements`` object is judged at that design by
 its catalogue entry (:mod:`synth.problem.catalogue`): *violated* when the
 verifier's own rule says so, *binding* when it is met with a room of at most
-``binding_margin`` (default 5 %) of the limit (of the range's width for
-``gain_range``; each end separately for ``plant_gain_range``), and *slack*
+``binding_margin`` (default 5 %) of the limit (of the range's width for a
+range the value must lie in; each end separately for a range that must be
+contained, see :meth:`synth.problem.catalogue.Requirement.room`), and *slack*
 otherwise.  A metric that is ``null`` in the JSON is unbounded: an unbounded
 settling time violates an upper limit, an infinite gain margin is slack for a
 lower limit.
@@ -42,6 +43,7 @@ from typing import Any
 
 from synth.errors import InputError
 from synth.outputs.document import DesignDocument, DesignRecord, load_design, read_design, thaw
+from synth.outputs.text import Row, TextReport, TextTable, plain_lines
 from synth.problem.catalogue import METRICS, REQUIREMENTS, NumberSpec
 from synth.verify.same import (
     COMPARE_RULE,
@@ -462,35 +464,40 @@ class Comparison:
 
     # -- terminal ----------------------------------------------------------------------------
     def table_lines(self) -> list[str]:
+        """The terminal account as plain lines (see :meth:`text`)."""
+        return plain_lines(self.text())
+
+    def text(self) -> TextReport:
         """The terminal account: runs, the design-by-run rank grid, moves, requirements."""
         runs = self.runs
-        lines = [f"Comparing {len(runs)} design runs "
-                 f"(same design: same structure, responses within {self.rtol:.0%})"]
+        before = [f"Comparing {len(runs)} design runs "
+                  f"(same design: same structure, responses within {self.rtol:.0%})"]
         for r in runs:
             label = r.plant.get("label") if isinstance(r.plant, dict) else None
             extra = f"  plant: {label}" if label else ""
-            lines.append(f"  [{r.tag}] {r.name}: {r.n_designs} designs, "
-                         f"{r.n_feasible} feasible{extra}")
-        lines.append("")
+            before.append(f"  [{r.tag}] {r.name}: {r.n_designs} designs, "
+                          f"{r.n_feasible} feasible{extra}")
+        before.append("")
         if not self.designs:
-            lines.append("No designs in any run.")
-            return lines
+            before.append("No designs in any run.")
+            return TextReport(before=tuple(before))
 
         # rank grid: one row per design, one column per run; '*' marks an infeasible design
-        width = max(len(r.tag) for r in runs) + 2
+        before.append("Ranks (* = misses a requirement, - = absent)")
         desc_w = min(60, max(len(d.description) for d in self.designs))
-        head = f"  {'id':<4} {'design':<{desc_w}} " + " ".join(f"{r.tag:>{width}} " for r in runs)
-        lines.append("Ranks (* = misses a requirement, - = absent)")
-        lines.append(head)
+        rows = []
         for d in self.designs:
-            cells = []
+            cells, marks = [d.id], ["", ""]
+            desc = d.description if len(d.description) <= desc_w else \
+                d.description[:desc_w - 3] + "..."
+            cells.append(desc)
             for e in d.entries:
-                mark = " " if e is None or e.feasible else "*"
-                cells.append(f"{'-' if e is None else str(e.rank):>{width}}{mark}")
-            desc = d.description if len(d.description) <= desc_w else d.description[:desc_w - 3] + "..."
-            lines.append(f"  {d.id:<4} {desc:<{desc_w}} " + " ".join(cells))
-        lines.append("")
+                cells.append("-" if e is None else f"{e.rank}{'' if e.feasible else '*'}")
+                marks.append("" if e is None else ("good" if e.feasible else "bad"))
+            rows.append(Row(tuple(cells), marks=tuple(marks)))
+        table = TextTable(("id", "design", *(r.tag for r in runs)), tuple(rows))
 
+        lines = [""]
         if self.identical_rankings:
             lines.append("Rankings are identical in every run; no design moved.")
         elif not self.moves:
@@ -550,7 +557,7 @@ class Comparison:
                     line += "  (became binding in " + ", ".join(
                         runs[i].tag for i in b.became_binding) + ")"
                 lines.append(line)
-        return lines
+        return TextReport(before=tuple(before), table=table, after=tuple(lines))
 
 
 def _changed(a: Any, b: Any) -> bool:

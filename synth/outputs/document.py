@@ -185,8 +185,8 @@ class DesignRecord:
     def metric(self, key: str) -> Any:
         """A metric's value (``None`` when absent or unbounded).
 
-        The compensator gain (metric ``"gain"``, the one ``gain_range``
-        limits) comes from the compensator when ``metrics`` does not list it.
+        The compensator gain (metric ``"gain"``, the one the allowed gain
+        range limits) comes from the compensator when ``metrics`` does not list it.
         """
         if key == "gain" and key not in self.metrics:
             return self.compensator.gain

@@ -265,6 +265,11 @@ class Requirement:
         Largest penalty the search gives this requirement (an estimate that
         is infinite, such as a response that never rises, would otherwise
         swamp every other term).
+    region : {"overshoot", "damping", "settling"} or None
+        How the limit shapes the s-plane region the engine and the search aim
+        for (:meth:`synth.problem.requirements.Requirements.region`): a
+        least damping from an overshoot by the second-order relation, a least
+        damping as it stands, or a least decay rate from a settling time.
     """
 
     key: str
@@ -285,6 +290,7 @@ class Requirement:
     bound: float = 0.0
     ceiling: float | None = None
     cap: float | None = None
+    region: Literal["overshoot", "damping", "settling"] | None = None
 
     # -- presentation -------------------------------------------------------------------------
     def column(self, limit) -> str:
@@ -429,14 +435,15 @@ REQUIREMENTS: Mapping[str, Requirement] = MappingProxyType({r.key: r for r in (
         # 0 is a real requirement ("no overshoot"): the region then asks for real poles
         NumberSpec(lo=0, hi=100, hi_open=True),
         violation="overshoot {value:.3g} % exceeds {limit:g} %",
-        undefined="overshoot undefined: the final value is zero", floor=1.0),
+        undefined="overshoot undefined: the final value is zero", floor=1.0,
+        region="overshoot"),
     Requirement(
         "max_settling_time", "settling_time", "upper", "reference", "s",
         "settling time", "at most {} s", "Ts<={:g}s", _POSITIVE,
         violation="settling time {value:.3g} s exceeds {limit:g} s "
                   "({settling_band_percent:g} % band)",
         undefined="does not settle within the {settling_band_percent:g} % band in the "
-                  "simulated horizon"),
+                  "simulated horizon", region="settling"),
     Requirement(
         "settling_band_percent", None, "setting", "reference", "%",
         "settling band", "{} % around the final value", "band {:g}%",
@@ -457,7 +464,7 @@ REQUIREMENTS: Mapping[str, Requirement] = MappingProxyType({r.key: r for r in (
         "damping", "every closed-loop pole damped at least {}", "zeta>={:g}",
         NumberSpec(lo=0, lo_open=True, hi=1, hi_open=True),
         violation="damping ratio {value:.3g} of the pole at {where} is below {limit:g}",
-        ceiling=0.9999),
+        ceiling=0.9999, region="damping"),
     Requirement(
         "min_phase_margin_deg", "phase_margin_deg", "lower", "loop", "deg",
         "phase margin", "at least {} deg", "PM>={:g}",

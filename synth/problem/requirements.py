@@ -107,18 +107,20 @@ class Requirements:
         return float(self.value(entry.key))
 
     def region(self) -> Region:
-        """The s-plane region implied by the overshoot, damping and settling limits."""
+        """The s-plane region implied by the limits that shape it (the catalogue's ``region``).
+
+        The least damping is the largest that any overshoot or damping limit
+        asks for; the least decay rate comes from the settling-time limit.
+        """
         zeta = 0.0
-        overshoot = self.limit("overshoot_percent")
-        if overshoot is not None:
-            zeta = max(zeta, damping_from_overshoot(overshoot))
-        damping = self.limit("min_damping_ratio")
-        if damping is not None:
-            zeta = max(zeta, damping)
         sigma = 0.0
-        settling = self.limit("settling_time")
-        if settling is not None:
-            sigma = decay_rate_from_settling(settling, self.settling_band)
+        for entry, limit in self.limits():
+            if entry.region == "overshoot":
+                zeta = max(zeta, damping_from_overshoot(limit))
+            elif entry.region == "damping":
+                zeta = max(zeta, limit)
+            elif entry.region == "settling":
+                sigma = decay_rate_from_settling(limit, self.settling_band)
         return Region(sigma=sigma, zeta=min(zeta, 0.999999))
 
     def given(self) -> dict[str, Any]:

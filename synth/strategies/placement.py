@@ -46,7 +46,7 @@ deficiency ``phi`` there (the angle the compensator must add) and builds:
     replaced by a lag section when a steady-state error needs it.
 
 The gain sign is the one that can make the closed loop's constant term
-positive (Routh's necessary condition), unless ``gain_range`` excludes it.
+positive (Routh's necessary condition), unless the allowed gain range excludes it.
 Lead sections read the deficiency modulo 360 deg (a wrapped -165 deg is
 195 deg of lead, beyond one section).
 
@@ -1024,7 +1024,7 @@ def shortlist(problem, designs, limit: int = MAX_CANDIDATES) -> list[Placement]:
     Screened with the eigenvalue-free kernel (:func:`synth.verify.screen_batch`):
     designs with every closed-loop pole in the region and stable over the
     plant-gain range come first, then stable ones, then the rest (with the
-    designs whose gain alone exceeds ``max_control_effort``); inside a
+    designs whose gain alone exceeds the effort limit); inside a
     class the targets take turns (each target's first construction before
     any target's second), so the list covers the targets evenly.
     """

@@ -37,7 +37,7 @@ def screen_batch(problem, nums, dens, range_points: int = 3) -> ScreenResult:
     nums, dens : ndarray, shape (B, k)
         Compensator numerators and denominators (one per row, padded).
     range_points : int
-        Plant-gain factors tested across ``plant_gain_range`` (both ends and
+        Plant-gain factors tested across the required plant-gain range (both ends and
         geometrically spaced interior points).  A necessary check only; the
         full verifier decides the range exactly.
 

@@ -12,8 +12,8 @@ never hide a mode, and decides:
   guide, not a requirement of its own: overshoot and settling time are judged
   by the simulation, damping by every pole);
 * the exact interval of plant-gain factors around 1 that keeps the loop stable
-  (:func:`synth.locus.core.stable_gain_intervals`), against ``plant_gain_range``;
-* the compensator gain against ``gain_range``;
+  (:func:`synth.locus.core.stable_gain_intervals`), against the required range;
+* the compensator gain against the allowed range;
 * a unit-step simulation (overshoot against the final value, settling time as
   the last time outside the band, 10-90 % rise time, steady-state error, peak
   compensator output) -- with the EXACT dead time, see :func:`step_response`;
