@@ -102,7 +102,13 @@ def _discrete(plant, c: CompensatorRecord, T: float) -> dict:
     out["sampled_loop"] = {"stable": lp.stable, "spectral_radius": lp.spectral_radius,
                            "overshoot_percent": lp.overshoot_percent,
                            "final_value": lp.final_value,
-                           "characteristic": list(lp.characteristic)}
+                           "characteristic": list(lp.characteristic),
+                           "numerically_marginal": lp.marginal}
+    if lp.marginal:
+        warnings.append(f"note: at T = {T:g} s the closed-loop poles crowd z = 1 (sampling far "
+                        "faster than the loop's slowest mode), so the sampled loop's overshoot "
+                        "and final value are numerically marginal beyond their first digits; "
+                        "the continuous verdicts stand")
     if not lp.stable:
         warnings.append(f"warning: the sampled loop is UNSTABLE at T = {T:g} s (largest closed-loop "
                         f"root magnitude {lp.spectral_radius:.4g}); sample faster")

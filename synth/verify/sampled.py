@@ -31,6 +31,9 @@ __all__ = ["SampledLoopCheck", "sampled_loop_check", "zoh_discretise"]
 # A closed-loop root this close to the unit circle counts as on it (not stable):
 # rounding cannot then turn a marginal loop into a "stable" verdict.
 _UNIT_CIRCLE_TOL = 1e-10
+# Relative rounding error of the closed loop's static gain above which its final value and
+# overshoot are called numerically marginal.
+_MARGINAL = 1e-6
 
 
 def _positive_time(T, name: str = "the sample time") -> float:
@@ -157,6 +160,12 @@ class SampledLoopCheck:
         ``den_C den_G + num_C num_G`` in descending powers of ``z``.
     sample_time : float
         The sample time in seconds.
+    marginal : bool
+        The final value and the overshoot are numerically marginal: the
+        characteristic polynomial at ``z = 1`` is so much smaller than its
+        coefficients (closed-loop poles crowding ``z = 1`` when sampling is
+        far faster than the loop's slowest mode) that rounding alone may move
+        them by more than a millionth.
     """
 
     stable: bool
@@ -165,12 +174,14 @@ class SampledLoopCheck:
     final_value: float | None
     characteristic: tuple[float, ...]
     sample_time: float
+    marginal: bool = False
 
     def to_json(self) -> dict:
         """Mapping with the same names; ``characteristic`` as a list."""
         return {"stable": self.stable, "spectral_radius": self.spectral_radius,
                 "overshoot_percent": self.overshoot_percent, "final_value": self.final_value,
-                "characteristic": list(self.characteristic), "sample_time": self.sample_time}
+                "characteristic": list(self.characteristic), "sample_time": self.sample_time,
+                "marginal": self.marginal}
 
 
 def _pad_add(p: np.ndarray, q: np.ndarray) -> np.ndarray:
@@ -241,8 +252,13 @@ def sampled_loop_check(plant_numd, plant_dend, c_numd, c_dend, T: float) -> Samp
         if final != 0:
             excess = np.max(y * math.copysign(1.0, final)) - abs(final)
             overshoot = float(max(0.0, excess) / abs(final) * 100.0)
+    # rounding error of char(1) relative to its value: n eps sum|c| / |sum c|
+    at_one = abs(float(np.sum(char)))
+    spread = char.size * np.finfo(float).eps * float(np.sum(np.abs(char)))
+    marginal = bool(stable and (at_one == 0.0 or spread / at_one > _MARGINAL))
     return SampledLoopCheck(stable=bool(stable), spectral_radius=rho,
                             overshoot_percent=overshoot, final_value=final,
-                            characteristic=tuple(float(x) for x in char), sample_time=T)
+                            characteristic=tuple(float(x) for x in char), sample_time=T,
+                            marginal=marginal)
 
 
