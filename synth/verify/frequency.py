@@ -51,8 +51,8 @@ class LoopFrequency:
         (where gain margins are read), ascending.
     bandwidth : float or None
         Closed-loop bandwidth: the lowest frequency at which
-        ``|T(jw)| = |L/(1+L)|`` falls below ``1/sqrt(2)`` of its value at the
-        grid's low end (``None`` when it never does on the grid).
+        ``|T(jw)| = |L/(1+L)|`` falls below ``1/sqrt(2)`` of its static value
+        ``T(0)`` (``None`` when it never does on the grid).
     """
 
     w: np.ndarray
@@ -249,7 +249,7 @@ def _analyse(plant, num_c, den_c, details: bool) -> LoopFrequency:
         linf = nc[0] * plant.rational_num[0] / (dc[0] * plant.rational_den[0])
         if 1.0 + linf != 0.0 and 1.0 / abs(1.0 + linf) > ms:
             ms, w_peak = 1.0 / abs(1.0 + linf), float(w[-1])
-    bandwidth = _bandwidth(L, w, lw, loop, brentq) if details else None
+    bandwidth = _bandwidth(L, w, lw, loop, brentq, lnum, lden) if details else None
     return LoopFrequency(
         w=w, loop=L, crossover_frequency=wcs[int(np.argmin(pms))] if pms else None,
         phase_margin_deg=min(pms) if pms else None,
@@ -258,13 +258,22 @@ def _analyse(plant, num_c, den_c, details: bool) -> LoopFrequency:
         phase_crossovers=tuple(sorted(wps)), bandwidth=bandwidth)
 
 
-def _bandwidth(L, w, lw, loop, brentq) -> float | None:
-    """First frequency where ``|T| = |L/(1+L)|`` falls below ``1/sqrt(2)`` of its low-end value."""
+def _bandwidth(L, w, lw, loop, brentq, lnum, lden) -> float | None:
+    """First frequency where ``|T| = |L/(1+L)|`` falls below ``1/sqrt(2)`` of its static value.
+
+    The static value ``T(0)`` comes from the loop's constant coefficients (1
+    with an integrator in the loop); where it is zero or infinite, the value
+    at the grid's low end stands in.
+    """
     with np.errstate(divide="ignore", invalid="ignore"):
         tm = np.abs(L / (1.0 + L))
-    if not (np.isfinite(tm[0]) and tm[0] > 0):
+    n0, d0 = float(lnum[-1]), float(lden[-1])
+    t0 = abs(n0 / (n0 + d0)) if n0 + d0 != 0.0 else math.inf
+    if not (math.isfinite(t0) and t0 > 0):
+        t0 = float(tm[0])
+    if not (math.isfinite(t0) and t0 > 0):
         return None
-    ref = tm[0] / math.sqrt(2.0)
+    ref = t0 / math.sqrt(2.0)
     below = np.flatnonzero(np.isfinite(tm) & (tm < ref))
     if not below.size or below[0] == 0:
         return None
