@@ -319,7 +319,9 @@ def prepare_report(problem, doc: dict, explanation=None, top: int = 3):
     if any(d.implementation is None for d in document.designs):
         document = read_design(add_implementation_forms(doc))
     if explanation is None:
-        explanation = _explain(problem)
+        from synth.explain import explain_problem
+
+        explanation = explain_problem(problem)
     figures = []
     plant = document.need_plant() if document.designs else None
     for d in document.designs[:top]:

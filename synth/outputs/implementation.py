@@ -33,6 +33,7 @@ import math
 from synth.errors import InputError
 from synth.outputs.document import CompensatorRecord, read_design
 from synth.outputs.jsonout import clean
+from synth.outputs.text import number as _g
 
 __all__ = [
     "PID_STRUCTURES",
@@ -186,10 +187,6 @@ def add_implementation_forms(doc: dict, sample_time: float | None = None) -> dic
 # ---------------------------------------------------------------------------
 # terminal text
 # ---------------------------------------------------------------------------
-
-def _g(v, digits: int = 4, none: str = "-") -> str:
-    return none if v is None else f"{v:.{digits}g}"
-
 
 def implementation_lines(doc: dict, sample_time: float | None = None, top: int = _TOP) -> list[str]:
     """Short terminal text with the implementation forms of the top designs.

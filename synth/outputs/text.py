@@ -10,11 +10,27 @@ imported inside :func:`show` so that ``synth --help`` stays light.
 
 from __future__ import annotations
 
+import math
 import sys
 from collections.abc import Iterable
 from dataclasses import dataclass, field
 
-__all__ = ["Row", "TextReport", "TextTable", "echo_lines", "plain_lines", "show"]
+__all__ = ["Row", "TextReport", "TextTable", "echo_lines", "number", "plain_lines", "show"]
+
+
+def number(v, digits: int = 4, none: str = "-") -> str:
+    """A value as text: ``digits`` significant digits, ``none`` for None, yes/no, unbounded."""
+    if v is None:
+        return none
+    if isinstance(v, bool):
+        return "yes" if v else "no"
+    try:
+        x = float(v)
+    except (TypeError, ValueError):
+        return str(v)
+    if not math.isfinite(x):
+        return "unbounded" if x > 0 else "-unbounded"
+    return f"{x:.{digits}g}"
 
 
 @dataclass(frozen=True)

@@ -40,6 +40,7 @@ import numpy as np
 from synth.errors import OptionError
 from synth.outputs.cautions import CAUTIONS
 from synth.outputs.document import DesignDocument, DesignRecord
+from synth.outputs.text import number as _g
 from synth.problem.catalogue import METRICS, REQUIREMENTS, requirement_for
 
 __all__ = ["CAUTIONS", "SECTION_TITLES", "FIGURE_KINDS", "DesignFigures", "ReportInput",
@@ -172,20 +173,6 @@ class Section:
 # ---------------------------------------------------------------------------
 # numbers as text
 # ---------------------------------------------------------------------------
-
-def _g(v, digits: int = 4, none: str = "-") -> str:
-    if v is None:
-        return none
-    if isinstance(v, bool):
-        return "yes" if v else "no"
-    try:
-        x = float(v)
-    except (TypeError, ValueError):
-        return str(v)
-    if not math.isfinite(x):
-        return "unbounded" if x > 0 else "-unbounded"
-    return f"{x:.{digits}g}"
-
 
 def _interval(iv) -> str:
     lo, hi = iv
