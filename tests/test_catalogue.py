@@ -195,3 +195,20 @@ def test_shortfall_is_vectorised_for_the_search():
     lo, hi = np.array([0.0, 0.8]), np.array([np.inf, 1.5])
     got = requirement("plant_gain_range").shortfall((lo, hi), (0.5, 2.0))
     assert got[0] == 0.0 and got[1] == pytest.approx(math.log(1.6) + math.log(4.0 / 3.0))
+
+
+def test_the_entry_shape_holds_the_next_requirements():
+    # the coming load-disturbance limit as one entry: judged, penalised and shown by the same
+    # machinery (shortfall worked by hand: (0.6 - 0.5) / 0.5)
+    from synth.problem.catalogue import NumberSpec, Requirement
+
+    entry = Requirement("max_load_peak", "load_peak", "upper", "load", "",
+                        "load peak", "peak |y| at most {} after a unit load step",
+                        "ypk<={:g}", NumberSpec(lo=0, lo_open=True),
+                        violation="load peak {value:.3g} exceeds {limit:g} (model {where})",
+                        undefined="the load response does not settle")
+    short, text = entry.assess(0.6, 0.5, {"where": "low flow"})
+    assert short == pytest.approx(0.2, rel=1e-15)
+    assert text == "load peak 0.6 exceeds 0.5 (model low flow)"
+    assert entry.column(0.5) == "ypk<=0.5" and entry.search_limit(0.5, 0.95, 1.02) == 0.475
+    assert entry.assess(None, 0.5) == (1.0, "the load response does not settle")
