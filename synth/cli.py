@@ -217,11 +217,12 @@ def compare(
     """Rankings and metrics of several design runs side by side."""
     if len(files) < 2:
         raise OptionError("compare needs at least two design JSON files")
-    from synth.outputs.compare import compare_runs, load_design_json
+    from synth.outputs.compare import compare_runs
+    from synth.outputs.document import load_design
 
     _check_output_path(json_out, "--json")
     _check_output_path(plot, "--plot", (".png", ".svg"))
-    runs = [(f, load_design_json(f)) for f in files]
+    runs = [(f, load_design(f)) for f in files]
     result = compare_runs(runs)
     from synth.outputs.text import show
 
