@@ -68,8 +68,6 @@ __all__ = [
     "NumberSpec",
     "RangeSpec",
     "Requirement",
-    "limits_for",
-    "metric",
     "requirement",
     "requirement_for",
 ]
@@ -150,11 +148,6 @@ METRICS: Mapping[str, Metric] = MappingProxyType({m.key: m for m in (
     Metric("in_region", "every pole in the region", "", "in R", None),
     Metric("gain", "compensator gain", "", "K", None),
 )})
-
-
-def metric(key: str) -> Metric:
-    """The :class:`Metric` of a metric key (``KeyError`` when there is none)."""
-    return METRICS[key]
 
 
 # ----------------------------------------------------------------------------------------------
@@ -509,8 +502,3 @@ def requirement_for(metric_key: str) -> Requirement | None:
         if r.metric == metric_key:
             return r
     return None
-
-
-def limits_for(concern: str) -> tuple[Requirement, ...]:
-    """The limiting requirements (not settings) that concern one part of the loop."""
-    return tuple(r for r in REQUIREMENTS.values() if r.kind != "setting" and r.concerns == concern)
