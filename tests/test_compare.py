@@ -200,12 +200,11 @@ def test_two_identical_documents_give_identical_rankings_and_no_moves():
 
 def test_two_design_runs_of_the_same_case_file_rank_identically():
     # the contract: same file + same seed = same ranking; compare must see no move
+    import dataclasses
     from pathlib import Path
 
     from synth.design import run_design
     from synth.problem.requirements import load_problem
-
-    import dataclasses
 
     path = Path(__file__).resolve().parents[1] / "cases" / "needs-unstable-compensator.toml"
     problem = load_problem(path)
