@@ -287,7 +287,7 @@ def run_design(problem, progress: ProgressFn | None = None) -> DesignRun:
 # ----------------------------------------------------------------------------
 
 
-def prepare_report(problem, doc: dict, explanation=None, top: int = 3):
+def prepare_report(problem, doc: dict, explanation=None, top: int | None = None):
     """Gather what the report of a design run shows, so the report only formats.
 
     Parameters
@@ -298,8 +298,9 @@ def prepare_report(problem, doc: dict, explanation=None, top: int = 3):
         Its ``synth.design/1`` document; implementation forms are added when missing.
     explanation : synth.explain.Explanation, optional
         The run's explanation (``DesignRun.explanation``); computed when omitted.
-    top : int
-        How many designs get a full section (curves and root locus).
+    top : int, optional
+        How many designs get a full section (curves and root locus); default
+        :data:`synth.outputs.report.document.TOP`.
 
     Returns
     -------
@@ -312,9 +313,10 @@ def prepare_report(problem, doc: dict, explanation=None, top: int = 3):
     from synth.locus import trace_design_loop
     from synth.outputs.document import read_design
     from synth.outputs.implementation import add_implementation_forms
-    from synth.outputs.report.document import DesignFigures, ReportInput
+    from synth.outputs.report.document import TOP, DesignFigures, ReportInput
     from synth.verify.curves import curves
 
+    top = TOP if top is None else top
     document = read_design(doc)
     if any(d.implementation is None for d in document.designs):
         document = read_design(add_implementation_forms(doc))
