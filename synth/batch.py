@@ -331,10 +331,11 @@ def run_item(item: BatchItem, report: bool = False) -> dict:
     out["design"] = design
     out["exit"] = 0 if run.any_feasible else 3
     if report:
+        from synth.design import prepare_report
         from synth.outputs.report.document import write_report
 
         with tempfile.TemporaryDirectory(prefix="synth-report-") as tmp:
-            written = write_report(problem, design, tmp)
+            written = write_report(prepare_report(problem, design, run.explanation), tmp)
             out["report"] = {Path(w).name: Path(w).read_bytes() for w in written}
     return out
 

@@ -141,10 +141,17 @@ def trace(
 
         if design:
             path, rank = _split_design_ref(design)
-            from synth.outputs.compare import load_design_json
+            from synth.outputs.document import load_design
 
-            result, operating_gain = trace_design_loop(problem, load_design_json(path), rank,
-                                                       source=path)
+            document = load_design(path)
+            chosen, plant = document.design(rank), document.need_plant()
+            try:
+                result, operating_gain = trace_design_loop(
+                    problem, plant.numerator, plant.denominator, chosen.compensator.num,
+                    chosen.compensator.den)
+            except InputError as err:
+                raise InputError(f"design {rank}: {err.message}", path,
+                                 f"designs[{chosen.index}].{err.key}") from None
         else:
             with _about(problem):
                 result, operating_gain = trace_problem(problem), None
@@ -188,7 +195,10 @@ def design(
         with _about(problem), terminal_progress("searching") as progress:
             run = run_design(problem, progress=progress)
         doc = run.to_json()
-        _echo_lines(run.table_lines())
+        from synth.outputs.run import design_text
+        from synth.outputs.text import show
+
+        show(design_text(run))
         if sample_time is not None or doc.get("designs"):
             from synth.outputs.implementation import add_implementation_forms, implementation_lines
 
@@ -197,9 +207,10 @@ def design(
         if json_out:
             _write_json(json_out, doc, written)
         if report:
+            from synth.design import prepare_report
             from synth.outputs.report.document import write_report
 
-            for path in write_report(problem, doc, report):
+            for path in write_report(prepare_report(problem, doc, run.explanation), report):
                 written.append(str(path))
                 typer.echo(f"report written to {path}")
     if not run.any_feasible:
@@ -219,11 +230,13 @@ def compare(
     check_output_file(plot, "--plot", (".png", ".svg"))
     written: list[str] = []
     with _interruptible(written):
-        from synth.outputs.compare import compare_runs, load_design_json
+        from synth.outputs.compare import compare_runs
+        from synth.outputs.document import load_design
+        from synth.outputs.text import show
 
-        runs = [(f, load_design_json(f)) for f in files]
+        runs = [(f, load_design(f)) for f in files]
         result = compare_runs(runs)
-        _echo_lines(result.table_lines())
+        show(result.text())
         if json_out:
             _write_json(json_out, result.to_json(), written)
         if plot:

@@ -5,8 +5,8 @@ or all of them, or the ones passed in), runs every strategy
 (:func:`synth.strategies.default_strategies`, or the ones passed in) on each,
 verifies every candidate with :func:`synth.verify.verify`, ranks them with
 :func:`synth.rank.rank_designs` and keeps ``search.keep``.  The result,
-:class:`DesignRun`, gives the contract's ``synth.design/1`` JSON and the
-terminal table.
+:class:`DesignRun`, is written as the contract's ``synth.design/1`` JSON and
+the terminal table by :mod:`synth.outputs.run`.
 
 Work, not time.  Each family gets ``search.effort`` times
 :func:`synth.strategies.family_work` work units, and each strategy its
@@ -43,20 +43,13 @@ from typing import Any
 import numpy as np
 
 from synth.errors import StrategyDeclined
-from synth.families import FAMILIES, families_for
-from synth.outputs.jsonout import clean, root_pairs
-from synth.problem.plant import describe_factored
+from synth.families import families_for
+from synth.outputs.cautions import CAUTION
+from synth.outputs.run import SCHEMA
 from synth.rank import RankedDesign, rank_designs
-from synth.verify.verdict import METRIC_KEYS, verify
+from synth.verify.verdict import verify
 
-__all__ = ["CAUTION", "DesignRun", "SCHEMA", "run_design"]
-
-SCHEMA = "synth.design/1"
-
-CAUTION = ("These designs rest on a linear model. Verify them against actuator saturation, "
-           "delays, sampling and nonlinearity, commission with reduced gains and hardware "
-           "limits in place, and follow local codes, functional-safety standards and licensed "
-           "engineering practice.")
+__all__ = ["CAUTION", "DesignRun", "SCHEMA", "prepare_report", "run_design"]
 
 ProgressFn = Callable[[float, float, str], None]
 
@@ -96,7 +89,7 @@ def _gain_seeds(problem, explanation) -> tuple[float, ...]:
     groups = [explanation.candidate_gain_intervals, explanation.requirement_in_gain_range,
               explanation.stabilizing_in_gain_range]
     scale = SearchSpace.for_problem(problem).gain_scale * 1e4
-    gr = problem.requirements.gain_range
+    gr = problem.requirements.limit("gain")
     out: list[float] = []
     for ivs in groups:
         for lo, hi in ivs:
@@ -112,31 +105,6 @@ def _gain_seeds(problem, explanation) -> tuple[float, ...]:
 # ----------------------------------------------------------------------------
 # the result
 # ----------------------------------------------------------------------------
-
-#: requirement key -> (column header format, metric key, shortfall key)
-_COLUMNS = (
-    ("max_overshoot_percent", "OS%<={:g}", "overshoot_percent", "overshoot"),
-    ("max_settling_time", "Ts<={:g}s", "settling_time", "settling"),
-    ("max_rise_time", "Tr<={:g}s", "rise_time", "rise"),
-    ("max_steady_state_error", "ess<={:g}", "steady_state_error", "steady_state_error"),
-    ("min_damping_ratio", "zeta>={:g}", "min_damping_ratio", "damping"),
-    ("min_phase_margin_deg", "PM>={:g}", "phase_margin_deg", "phase_margin"),
-    ("min_gain_margin_db", "GM>={:g}dB", "gain_margin_db", "gain_margin"),
-    ("max_peak_sensitivity", "Ms<={:g}", "peak_sensitivity", "peak_sensitivity"),
-    ("max_control_effort", "|u|<={:g}", "peak_control_effort", "control_effort"),
-    ("plant_gain_range", "kG in [{:g},{:g}]", "stable_plant_gain_range", "plant_gain_range"),
-    ("gain_range", "K in [{:g},{:g}]", "gain", "gain_range"),
-)
-
-
-def _num(v, digits: int = 3) -> str:
-    if v is None:
-        return "inf"
-    if isinstance(v, (list, tuple)):
-        a = "-inf" if v[0] is None else f"{v[0]:.{digits}g}"
-        b = "inf" if v[1] is None else f"{v[1]:.{digits}g}"
-        return f"({a},{b})"
-    return f"{v:.{digits}g}"
 
 
 @dataclass(frozen=True)
@@ -155,6 +123,11 @@ class DesignRun:
     stats : dict
         Search bookkeeping (strategies run, candidates, time per family,
         families cut by the time cap).
+
+    Notes
+    -----
+    The JSON and the terminal text are written by :mod:`synth.outputs.run`;
+    the methods here are kept for the documented Python API.
     """
 
     problem: Any
@@ -172,182 +145,17 @@ class DesignRun:
     def best(self) -> RankedDesign | None:
         return self.designs[0] if self.designs else None
 
-    # -- JSON ----------------------------------------------------------------------------
-    def _design_json(self, d: RankedDesign) -> dict:
-        c, v = d.candidate, d.verdict
-        num = np.asarray(c.num, dtype=float)
-        den = np.asarray(c.den, dtype=float)
-        zeros = np.roots(num) if num.size > 1 else []
-        poles = np.roots(den) if den.size > 1 else []
-        family = FAMILIES.get(c.structure)
-        description = f"{c.structure}: C(s) = {describe_factored(num, den)}"
-        params = None
-        if family is not None and c.params:
-            from synth.families.base import SearchSpace
-
-            fam = family(SearchSpace.for_problem(self.problem))
-            description = fam.describe(np.asarray(c.params))
-            params = fam.natural(np.asarray(c.params))
-        metrics = {k: v.metrics.get(k) for k in METRIC_KEYS}
-        metrics.update({k: v.metrics.get(k) for k in ("delay_margin", "crossover_frequency",
-                                                       "final_value", "in_region")})
-        out = {
-            "rank": d.rank,
-            "structure": c.structure,
-            "origin": c.origin,
-            "feasible": v.feasible,
-            "compensator": {"numerator": [float(x) for x in num],
-                            "denominator": [float(x) for x in den],
-                            "zeros": root_pairs(zeros), "poles": root_pairs(poles),
-                            "gain": float(num[0] / den[0])},
-            "closed_loop_poles": root_pairs(v.closed_loop_poles),
-            "metrics": metrics,
-            "violations": list(v.violations),
-            "description": description,
-            "score": d.score,
-            "internally_stable": v.internally_stable,
-            "time_domain": ("exact dead time" if v.exact_delay and self.problem.plant.dead_time
-                            else ("Pade form of the dead time" if self.problem.plant.dead_time
-                                  else "no dead time")),
-            "notes": list(v.notes),
-            "provenance": dict(c.provenance),
-        }
-        if params is not None:
-            out["params"] = params
-        return out
-
     def to_json(self) -> dict:
-        """The contract's ``synth.design/1`` object plus extra fields; no NaN or infinity."""
-        region = self.problem.region
-        s = self.problem.search
-        out = {
-            "schema": SCHEMA,
-            "plant": self.problem.plant.to_json(),
-            "designs": [self._design_json(d) for d in self.designs],
-            "requirements": self.problem.requirements.given(),
-            "region": {"decay_rate": region.sigma, "damping": region.zeta,
-                       "description": region.describe()},
-            "proportional": self.proportional,
-            "caution": CAUTION,
-            "search": {"seed": s.seed, "time_budget": s.time_budget, "keep": s.keep,
-                       "structures": list(s.structures or FAMILIES), **self.stats},
-        }
-        if self.problem.source:
-            out["source"] = self.problem.source
-        return clean(out)
+        """The contract's ``synth.design/1`` object (:func:`synth.outputs.run.design_json`)."""
+        from synth.outputs.run import design_json
 
-    # -- terminal ------------------------------------------------------------------------
-    def _proportional_lines(self) -> list[str]:
-        """The proportional verdict, shown when a plain gain cannot do the job."""
-        p_ok = any(d.verdict.feasible and d.candidate.structure == "P" for d in self.designs)
-        if p_ok:
-            return []
-        if self.explanation is not None:
-            return [*_verdict_sections(self.explanation.text_lines()), ""]
-        ivs = self.proportional.get("requirement_gain_intervals", [])
-        stab = self.proportional.get("stabilizing_gain_intervals", [])
-        return [f"Proportional gain alone: stabilises for {_ivs_text(stab)}; meets the region "
-                f"for {_ivs_text(ivs)}; no plain gain met every requirement.", ""]
+        return design_json(self)
 
     def table_lines(self) -> list[str]:
-        """The terminal account: proportional verdict, ranked table, caution."""
-        pr = self.problem
-        req = pr.requirements
-        lines = self._proportional_lines()
-        title = pr.plant.label or pr.source
-        lines.append(f"Designs for {pr.plant.describe()}" + (f"  ({title})" if title else ""))
-        if not pr.region.is_stability_only:
-            lines.append(f"  requirement region: {pr.region.describe()}")
-        cols = []
-        for key, head, metric, skey in _COLUMNS:
-            val = getattr(req, key)
-            if val is None:
-                continue
-            cols.append((head.format(*val) if isinstance(val, tuple) else head.format(val),
-                         metric, skey))
-        if req.max_peak_sensitivity is None:
-            cols.append(("Ms", "peak_sensitivity", None))
-        if req.max_control_effort is None:
-            cols.append(("|u|max", "peak_control_effort", None))
-        if req.max_settling_time is None:
-            cols.append(("Ts", "settling_time", None))
-        header = ["rank", "structure", "origin", "ok?"] + [c[0] for c in cols]
-        rows = []
-        for d in self.designs:
-            v = d.verdict
-            cells = [str(d.rank), d.candidate.structure, d.candidate.origin,
-                     "yes" if v.feasible else "NO"]
-            for _, metric, skey in cols:
-                if not v.stable and metric != "gain":
-                    cells.append("-")
-                    continue
-                text = _num(v.metrics.get(metric))
-                if skey is not None:
-                    text += " ok" if skey not in v.shortfalls else " FAIL"
-                cells.append(text)
-            rows.append((cells, d))
-        widths = [max(len(header[i]), *(len(r[0][i]) for r in rows)) if rows else len(header[i])
-                  for i in range(len(header))]
-        lines.append("")
-        lines.append("  ".join(h.rjust(w) if i == 0 else h.ljust(w)
-                               for i, (h, w) in enumerate(zip(header, widths, strict=True))))
-        lines.append("  ".join("-" * w for w in widths))
-        for cells, d in rows:
-            lines.append("  ".join(c.rjust(w) if i == 0 else c.ljust(w)
-                                   for i, (c, w) in enumerate(zip(cells, widths, strict=True))))
-            num, den = np.asarray(d.candidate.num), np.asarray(d.candidate.den)
-            lines.append(f"{'':>{widths[0]}}  C(s) = {describe_factored(num, den)}")
-            for text in d.verdict.violations:
-                lines.append(f"{'':>{widths[0]}}  fails: {text}")
-            for text in d.verdict.notes:
-                if text.startswith("slow closed-loop pole"):  # worth an engineer's eye
-                    lines.append(f"{'':>{widths[0]}}  note: {text}")
-        if not self.designs:
-            lines.append("  no candidate was proposed")
-        n_ok = sum(d.verdict.feasible for d in self.designs)
-        st = self.stats
-        lines.append("")
-        lines.append(f"{n_ok} of {len(self.designs)} listed designs meet every requirement "
-                     f"({st.get('candidates', 0)} candidates verified, search "
-                     f"{st.get('search_seconds', 0.0):.1f} s).")
-        if st.get("time_capped"):
-            lines.append("  time cap reached for: " + ", ".join(st["time_capped"])
-                         + " (the ranking may differ between runs; raise search.time_budget)")
-        lines.append("")
-        lines.append("Caution: " + CAUTION)
-        return lines
+        """The terminal account as plain lines (:func:`synth.outputs.run.design_text`)."""
+        from synth.outputs.run import design_lines
 
-
-def _verdict_sections(lines: list[str]) -> list[str]:
-    """The proportional block (and any warnings) of the explain account.
-
-    The account's sections are separated by blank lines; the one that starts
-    with "Proportional" holds the verdict.  Falls back to the first lines.
-    """
-    sections: list[list[str]] = [[]]
-    for line in lines:
-        if line.strip():
-            sections[-1].append(line)
-        elif sections[-1]:
-            sections.append([])
-    keep = [sec for sec in sections if sec and (sec[0].startswith("Proportional")
-                                                or sec[0].startswith("Warnings"))]
-    if not keep:
-        return lines[:8]
-    out: list[str] = []
-    for sec in keep:
-        out.extend(sec)
-    return out
-
-
-def _ivs_text(ivs) -> str:
-    if not ivs:
-        return "no gain"
-    parts = []
-    for a, b in ivs:
-        parts.append(f"({'-inf' if a is None else format(a, '.4g')}, "
-                     f"{'inf' if b is None else format(b, '.4g')})")
-    return " U ".join(parts)
+        return design_lines(self)
 
 
 # ----------------------------------------------------------------------------
@@ -471,3 +279,61 @@ def run_design(problem, strategies=None, families=None,
              "time_budget_reached": bool(capped), "declined": declined}
     return DesignRun(problem=problem, designs=tuple(ranked), proportional=proportional,
                      explanation=explanation, stats=stats)
+
+
+# ----------------------------------------------------------------------------
+# what a report of a run shows
+# ----------------------------------------------------------------------------
+
+
+def prepare_report(problem, doc: dict, explanation=None, top: int | None = None):
+    """Gather what the report of a design run shows, so the report only formats.
+
+    Parameters
+    ----------
+    problem : synth.requirements.Problem
+        The problem the run solved.
+    doc : dict
+        Its ``synth.design/1`` document; implementation forms are added when missing.
+    explanation : synth.explain.Explanation, optional
+        The run's explanation (``DesignRun.explanation``); computed when omitted.
+    top : int, optional
+        How many designs get a full section (curves and root locus); default
+        :data:`synth.outputs.report.document.TOP`.
+
+    Returns
+    -------
+    synth.outputs.report.document.ReportInput
+        The document, the explanation and, per top design, the verifier's
+        curves (:func:`synth.verify.curves.curves`) and the design loop's root
+        locus (:func:`synth.locus.trace_design_loop`).
+    """
+    from synth.errors import InputError
+    from synth.locus import trace_design_loop
+    from synth.outputs.document import read_design
+    from synth.outputs.implementation import add_implementation_forms
+    from synth.outputs.report.document import TOP, DesignFigures, ReportInput
+    from synth.verify.curves import curves
+
+    top = TOP if top is None else top
+    document = read_design(doc)
+    if any(d.implementation is None for d in document.designs):
+        document = read_design(add_implementation_forms(doc))
+    if explanation is None:
+        from synth.explain import explain_problem
+
+        explanation = explain_problem(problem)
+    figures = []
+    plant = document.need_plant() if document.designs else None
+    for d in document.designs[:top]:
+        c = d.compensator
+        try:
+            trace, gain = trace_design_loop(problem, plant.numerator, plant.denominator,
+                                            c.num, c.den)
+            note = ""
+        except InputError as err:  # a zero gain: the loop has no locus to draw
+            trace, gain, note = None, None, err.message
+        figures.append(DesignFigures(rank=d.rank, curves=curves(problem, c.num, c.den),
+                                     locus=trace, locus_gain=gain, locus_note=note))
+    return ReportInput(problem=problem, document=document, explanation=explanation,
+                       figures=tuple(figures))

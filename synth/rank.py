@@ -12,37 +12,38 @@ and deterministic.
 Score.  A weighted sum of six terms, each in [0, 1], lower is better; the
 weights add up to 1:
 
-============  ======  ==================================================
-term          weight  value
-============  ======  ==================================================
-sensitivity   0.27    ``1 - 1/Ms`` (Ms the peak sensitivity)
-gain range    0.13    ``1 / (1 + g)``, ``g = min(ln hi, ln(1/lo))`` over the
-                      stable plant-gain range ``(lo, hi)`` (``lo <= 0``
-                      counts as unbounded below)
-speed         0.22    ``Ts / (Ts + T_ref)`` (Ts the settling time)
-effort        0.13    ``min(1, log10(1 + U / U_ref) / 4)`` (U the peak
-                      control effort: logarithmic, so a thousandfold effort
-                      still costs more than a hundredfold)
-simplicity    0.13    ``n_params / 8``
-tracking      0.12    ``clip(1 - y_ss, 0, 1)`` (y_ss the step's final
-                      value): even where no error limit is set, a loop
-                      that barely moves its output toward the reference
-                      (or moves it the wrong way) is no design; a final
-                      value at or above 1 costs nothing, since a prefilter
-                      gain can scale it down
-============  ======  ==================================================
+================  ======  ================================================
+term              weight  value
+================  ======  ================================================
+sensitivity       0.27    ``1 - 1/Ms`` (Ms the peak sensitivity)
+gain_tolerance    0.13    ``1 / (1 + g)``, ``g = min(ln hi, ln(1/lo))`` over
+                          the stable plant-gain range ``(lo, hi)``
+                          (``lo <= 0`` counts as unbounded below)
+speed             0.22    ``Ts / (Ts + T_ref)`` (Ts the settling time)
+effort            0.13    ``min(1, log10(1 + U / U_ref) / 4)`` (U the peak
+                          control effort: logarithmic, so a thousandfold
+                          effort still costs more than a hundredfold)
+simplicity        0.13    ``n_params / 8``
+tracking          0.12    ``clip(1 - y_ss, 0, 1)`` (y_ss the step's final
+                          value): even where no error limit is set, a loop
+                          that barely moves its output toward the
+                          reference (or moves it the wrong way) is no
+                          design; a final value at or above 1 costs
+                          nothing, since a prefilter gain can scale it down
+================  ======  ================================================
 
 The references ``T_ref`` and ``U_ref`` depend on the problem only (the
 requirement limits when given, else scales of the plant; see
 :func:`reference_scales`), never on the other candidates, so adding a
 candidate never changes the order of the others.
 
-Near duplicates.  Two designs whose compensator frequency responses agree
-within 0.5 % over the design band (40 points from ``w_min`` to ``w_max`` of
-:class:`synth.families.SearchSpace`) are the same controller for every
-practical purpose; only the better ranked one is kept.  Between two designs
-of the same structure the tolerance is 10 %, so the list shows alternatives
-rather than small variations of one design.
+Near duplicates.  synth's one "same design" rule (:mod:`synth.verify.same`,
+:data:`~synth.verify.same.RANK_RULE`) is applied over the design band (40
+points from ``w_min`` to ``w_max`` of :class:`synth.families.SearchSpace`):
+compensator frequency responses that agree within 0.5 % are the same
+controller for every practical purpose, and only the better ranked one is
+kept.  Between two designs of the same structure the tolerance is 10 %, so
+the list shows alternatives rather than small variations of one design.
 """
 
 from __future__ import annotations
@@ -55,17 +56,14 @@ import numpy as np
 
 from synth.problem.requirements import STRUCTURES
 from synth.strategies import ORIGINS, Candidate
+from synth.verify.same import RANK_RULE, compensator_responses, response_gap
 from synth.verify.verdict import Verdict
 
 __all__ = ["RankedDesign", "Refs", "rank_designs", "reference_scales", "score", "score_arrays"]
 
 #: Weights of the score terms (read-only).
-WEIGHTS = MappingProxyType({"sensitivity": 0.27, "gain_range": 0.13, "speed": 0.22,
+WEIGHTS = MappingProxyType({"sensitivity": 0.27, "gain_tolerance": 0.13, "speed": 0.22,
                             "effort": 0.13, "simplicity": 0.13, "tracking": 0.12})
-#: Relative agreement of compensator frequency responses that counts as a duplicate
-#: (looser between designs of one structure, so the list shows real alternatives).
-_DUPLICATE_RTOL = 5e-3
-_SAME_STRUCTURE_RTOL = 0.1
 
 
 @dataclass(frozen=True)
@@ -90,19 +88,20 @@ class RankedDesign:
 def reference_scales(problem) -> Refs:
     """``T_ref`` and ``U_ref`` of the score.
 
-    ``T_ref`` is ``max_settling_time`` when given, else ``4 / w_char`` with
+    ``T_ref`` is the settling-time limit when given, else ``4 / w_char`` with
     ``w_char`` the problem's characteristic frequency
-    (:class:`synth.families.SearchSpace`).  ``U_ref`` is
-    ``max_control_effort`` when given, else ``1 / |G(j 4 / T_ref)|``, the
+    (:class:`synth.families.SearchSpace`).  ``U_ref`` is the control-effort
+    limit when given, else ``1 / |G(j 4 / T_ref)|``, the
     gain that brings the plant to unit loop gain at the speed asked for.
     """
     from synth.families.base import SearchSpace
 
     req = problem.requirements
     space = SearchSpace.for_problem(problem)
-    t_ref = req.max_settling_time if req.max_settling_time is not None else 4.0 / space.w_char
-    if req.max_control_effort is not None:
-        u_ref = req.max_control_effort
+    ts, effort = req.limit("settling_time"), req.limit("peak_control_effort")
+    t_ref = ts if ts is not None else 4.0 / space.w_char
+    if effort is not None:
+        u_ref = effort
     else:
         g = abs(complex(problem.plant.evaluate(np.array([4j / t_ref]), exact_delay=False)[0]))
         u_ref = 1.0 / g if np.isfinite(g) and g > 0 else 1.0
@@ -129,7 +128,7 @@ def score_arrays(ms, lo, hi, ts, effort, n_params, refs: Refs, final_value=1.0) 
         t_track = np.where(np.isfinite(fv), np.clip(1.0 - fv, 0.0, 1.0), 1.0)
     t_simple = float(n_params) / 8.0
     w = WEIGHTS
-    return (w["sensitivity"] * t_sens + w["gain_range"] * t_gain + w["speed"] * t_speed
+    return (w["sensitivity"] * t_sens + w["gain_tolerance"] * t_gain + w["speed"] * t_speed
             + w["effort"] * t_eff + w["simplicity"] * t_simple + w["tracking"] * t_track)
 
 
@@ -166,15 +165,6 @@ def _sort_key(item):
             tuple(round(v, 12) for v in cand.num), tuple(round(v, 12) for v in cand.den))
 
 
-def _responses(cands, w) -> np.ndarray:
-    s = 1j * w
-    out = np.empty((len(cands), w.size), dtype=complex)
-    for i, c in enumerate(cands):
-        with np.errstate(all="ignore"):
-            out[i] = np.polyval(c.num, s) / np.polyval(c.den, s)
-    return out
-
-
 def rank_designs(pairs, problem, keep: int | None = None) -> list[RankedDesign]:
     """Order verified candidates, drop near duplicates, number them from 1.
 
@@ -200,20 +190,16 @@ def rank_designs(pairs, problem, keep: int | None = None) -> list[RankedDesign]:
     keep = problem.search.keep if keep is None else keep
     space = SearchSpace.for_problem(problem)
     w = np.geomspace(space.w_min, space.w_max, 40)
-    resp = _responses([it[0] for it in items], w)
+    resp = compensator_responses([(it[0].num, it[0].den) for it in items], w)
     kept: list[int] = []
     for i in range(len(items)):
         if len(kept) >= keep:
             break
         if kept:
-            other = resp[kept]
-            ri = resp[i][None, :]
-            with np.errstate(all="ignore"):
-                rel = np.abs(other - ri) / np.maximum(np.abs(other), np.abs(ri))
-            rel = np.max(np.where(np.isfinite(rel), rel, 1.0), axis=1)
-            same = np.array([items[j][0].structure == items[i][0].structure for j in kept])
-            tol = np.where(same, _SAME_STRUCTURE_RTOL, _DUPLICATE_RTOL)
-            if np.any(rel < tol):
+            gaps = response_gap(resp[kept], resp[i])
+            mine = items[i][0].structure
+            if any(RANK_RULE.same(g, items[j][0].structure, mine)
+                   for g, j in zip(gaps, kept, strict=True)):
                 continue
         kept.append(i)
     return [RankedDesign(rank=j + 1, candidate=items[i][0], verdict=items[i][1],

@@ -296,3 +296,18 @@ def test_terminal_lines_show_forms_of_top_designs():
     # the printed gains are the textbook ones (Astrom and Hagglund, from memory)
     assert f"Kp={kc:.6g}" in text and f"Ki={kc / ti:.6g}" in text and f"Kd={kc * td:.6g}" in text
     assert "u[k] =" in text and "sampled loop stable" in text
+
+
+def test_sampled_loop_says_when_it_is_numerically_marginal():
+    # PI 2 + 0.05/s on 1/(100 s + 1): integral action puts the closed loop's static gain at
+    # exactly 1 (common practice). While the check does not call itself marginal its final
+    # value must be 1 to a millionth; sampled 1e5 times faster than the slow mode, the poles
+    # crowd z = 1 and it must say so.
+    from synth.outputs.forms import discrete_implementation
+
+    for T in (1.0, 0.1, 0.01):
+        loop = discrete_implementation([2.0, 0.05], [1.0, 0.0], [1.0], [100.0, 1.0], T).loop
+        assert loop.stable and not loop.marginal
+        assert loop.final_value == pytest.approx(1.0, rel=1e-6)
+    loop = discrete_implementation([2.0, 0.05], [1.0, 0.0], [1.0], [100.0, 1.0], 0.001).loop
+    assert loop.stable and loop.marginal

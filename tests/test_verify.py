@@ -364,3 +364,61 @@ def test_slow_pole_hidden_by_a_loop_zero_is_noted():
     # a design without such a pair gets no note
     v2 = verify(prob, [0.6, 0.6 * 0.5], [1.0, 8.0])
     assert not any("slow closed-loop pole" in n for n in v2.notes)
+
+
+# ----------------------------------------------------------------------------
+# what outputs draw: loop_frequency and curves
+# ----------------------------------------------------------------------------
+
+
+def test_bandwidth_and_crossovers_of_textbook_loops():
+    from synth.verify.frequency import loop_frequency
+
+    # L = 3/s: T = 3/(s + 3), bandwidth exactly 3 rad/s, crossover 3, margin 90 deg (by hand)
+    p = _problem([3.0], [1.0, 0.0])
+    f = loop_frequency(p.plant, [1.0], [1.0])
+    assert f.bandwidth == pytest.approx(3.0, rel=1e-9)
+    assert f.crossover_frequency == pytest.approx(3.0, rel=1e-9)
+    assert f.phase_margin_deg == pytest.approx(90.0, rel=1e-9)
+    # K/(s (s+1) (s+2)): phase crossover at sqrt(2) rad/s where |L| = K/6 (Ogata, from memory)
+    f = loop_frequency(TYPE1.plant, [2.0], [1.0])
+    assert f.phase_crossovers == pytest.approx((math.sqrt(2.0),), rel=1e-9)
+    assert f.gain_margin_db == pytest.approx(20.0 * math.log10(3.0), rel=1e-9)
+    # standard second order T = wn^2 / (s^2 + 2 zeta wn s + wn^2): bandwidth
+    # wn sqrt(1 - 2 zeta^2 + sqrt(4 zeta^4 - 4 zeta^2 + 2)) (Ogata, from memory)
+    zeta, wn = 0.4, 5.0
+    p = _problem([wn * wn], [1.0, 2.0 * zeta * wn, 0.0])
+    f = loop_frequency(p.plant, [1.0], [1.0])
+    ref = wn * math.sqrt(1 - 2 * zeta**2 + math.sqrt(4 * zeta**4 - 4 * zeta**2 + 2))
+    assert f.bandwidth == pytest.approx(ref, rel=1e-9)
+    # the sensitivity peak and where it is, against scipy.signal.freqresp on a dense grid
+    w = np.geomspace(0.1, 100.0, 400001)
+    _, L = signal.freqresp(signal.TransferFunction([wn * wn], [1.0, 2.0 * zeta * wn, 0.0]), w)
+    S = np.abs(1.0 / (1.0 + L))
+    assert f.peak_sensitivity == pytest.approx(float(np.max(S)), rel=1e-6)
+    assert f.peak_frequency == pytest.approx(float(w[np.argmax(S)]), rel=1e-3)
+    # the curve itself is L(jw) on the verifier's grid (scipy.signal.freqresp at those points)
+    _, Lref = signal.freqresp(signal.TransferFunction([wn * wn], [1.0, 2.0 * zeta * wn, 0.0]),
+                              f.w)
+    assert np.allclose(f.loop, Lref, rtol=1e-12, atol=0)
+
+
+def test_curves_hold_the_verdicts_step_and_margins():
+    from synth.verify.curves import curves
+
+    # lead 4 (s+1)/(s+8) around 1/(s(s+1)(s+2)): the curves' step is the verifier's own
+    # simulation, checked here against scipy.signal.TransferFunction.output
+    num_c, den_c = [4.0, 4.0], [1.0, 8.0]
+    c = curves(TYPE1, num_c, den_c)
+    assert c.stable and c.step is not None
+    ol_num = np.polymul(num_c, [1.0])
+    cl = signal.TransferFunction(ol_num, np.polyadd(np.polymul(den_c, [1.0, 3.0, 2.0, 0.0]),
+                                                    ol_num))
+    keep = c.step.t < 20
+    _, y, _ = cl.output(np.ones(np.count_nonzero(keep)), c.step.t[keep])
+    assert np.allclose(c.step.y[keep], y, rtol=0, atol=1e-8)
+    v = verify(TYPE1, num_c, den_c)
+    assert c.frequency.phase_margin_deg == v.metrics["phase_margin_deg"]
+    assert c.frequency.peak_sensitivity == v.metrics["peak_sensitivity"]
+    # an ideal derivative has no step response to draw (its effort to a step is an impulse)
+    assert curves(TYPE1, [1.0, 1.0, 0.0], [1.0]).step is None

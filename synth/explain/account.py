@@ -63,6 +63,7 @@ from synth.explain.structure import StructuralFacts, structural_facts
 from synth.locus.core import marginal_intervals, region_gain_intervals, stable_gain_intervals
 from synth.numerics.scaling import LoopScaling
 from synth.outputs.jsonout import clean, finite_or_none, interval_lists
+from synth.problem.catalogue import requirement_for
 from synth.problem.plant import Plant
 from synth.problem.region import Region, overshoot_from_damping
 
@@ -78,7 +79,7 @@ class BestAccount:
     Attributes
     ----------
     over : tuple of intervals
-        The gains searched (stabilising, within ``gain_range`` when any is).
+        The gains searched (stabilising, within the allowed gain range when there is one).
     sigma, zeta : float
         The region's decay rate and damping.
     decay, damping : Optimum or None
@@ -144,18 +145,19 @@ def best_account(num, den, region: Region, req, over,
             width = hi - lo if lo is not None and hi is not None else gscale
             for e in (lo, hi):
                 if e is not None and abs(opt.gain - e) <= 1e-5 * max(abs(e), width):
-                    edge = "stable range" if e in stable_ends else "allowed gain_range"
+                    edge = ("stable range" if e in stable_ends
+                            else f"allowed {requirement_for('gain').key}")
                     return f"as K approaches {f.num(e)}, the edge of the {edge}"
         return f"at K = {f.num(opt.gain)}"
 
     if sigma > 0 and not decay_ok:
         dec = maximise_over(lambda g: decay_and_damping(num, den, g)[0], over, gscale)
         if dec is not None:
-            band = req.settling_band_percent
+            band = req.settling_band
             ts = math.log(100.0 / band) / dec.value if dec.value > 0 else math.inf
             reasons.append(Reason(
                 "best_decay", 0,
-                f"Settling within {f.num(req.max_settling_time)} s ({f.num(band)} % band) needs every "
+                f"Settling within {f.num(req.limit('settling_time'))} s ({f.num(band)} % band) needs every "
                 f"closed-loop pole at Re s <= -{f.num(sigma)}; over the {scope} gains the slowest pole "
                 f"decays at best at rate {f.num(dec.value)} ({at(dec)}), short by "
                 f"{f.num(sigma - dec.value)}, which means settling in about {f.num(ts)} s.",
@@ -203,11 +205,13 @@ def best_account(num, den, region: Region, req, over,
 def _damping_source(req, zeta: float) -> str:
     from synth.problem.region import damping_from_overshoot
 
-    if req.max_overshoot_percent is not None:
-        z_os = damping_from_overshoot(req.max_overshoot_percent)
-        if req.min_damping_ratio is None or z_os >= req.min_damping_ratio:
-            return f"from the {f.num(req.max_overshoot_percent)} % overshoot limit"
-    return "min_damping_ratio"
+    limits = {entry.region: (entry, value) for entry, value in req.limits() if entry.region}
+    overshoot, damping = limits.get("overshoot"), limits.get("damping")
+    if overshoot is not None:
+        z_os = damping_from_overshoot(overshoot[1])
+        if damping is None or z_os >= damping[1]:
+            return f"from the {f.num(overshoot[1])} % overshoot limit"
+    return damping[0].key if damping is not None else "the damping limit"
 
 
 def sse_gain_intervals(g0: float | None, plant_type: int, origin_zeros: int,
@@ -288,11 +292,12 @@ class Explanation:
             "proportional": {
                 "stabilizing_gain_intervals": ivs(self.stabilizing_gain_intervals),
                 "requirement_gain_intervals": ivs(self.requirement_gain_intervals),
-                "gain_range": None if self.gain_range is None else list(self.gain_range),
+                requirement_for("gain").key: (None if self.gain_range is None
+                                              else list(self.gain_range)),
                 "stabilizing_in_gain_range": ivs(self.stabilizing_in_gain_range),
                 "requirement_in_gain_range": ivs(self.requirement_in_gain_range),
-                "plant_gain_range": (None if self.plant_gain_range is None
-                                     else list(self.plant_gain_range)),
+                requirement_for("stable_plant_gain_range").key: (
+                    None if self.plant_gain_range is None else list(self.plant_gain_range)),
                 "robust_stabilizing_gain_intervals": (None if self.robust_stabilizing is None
                                                       else ivs(self.robust_stabilizing)),
                 "robust_requirement_gain_intervals": (None if self.robust_requirement is None
@@ -339,7 +344,8 @@ class Explanation:
             lines.append(f"  meets the region  {f.intervals(self.requirement_gain_intervals)}")
         if self.gain_range is not None:
             lo, hi = self.gain_range
-            lines.append(f"  within gain_range [{f.num(lo)}, {f.num(hi)}]: stabilising "
+            lines.append(f"  within {requirement_for('gain').key} [{f.num(lo)}, {f.num(hi)}]: "
+                         "stabilising "
                          f"{f.intervals(self.stabilizing_in_gain_range, none='none')}; region "
                          f"{f.intervals(self.requirement_in_gain_range, none='none')}")
         if self.plant_gain_range is not None and self.robust_stabilizing is not None:
@@ -481,18 +487,19 @@ def explain_problem(problem) -> Explanation:
             reasons.append(Reason("region", 0, f"No real gain puts every closed-loop pole in the "
                                   f"requirement region ({region.describe()}).", {"intervals": []}))
 
-    gr = req.gain_range
+    gain_key = requirement_for("gain").key
+    gr = req.limit("gain")
     stab_in = intersect(stab, *gr) if gr else list(stab)
     reg_in = intersect(reg, *gr) if gr else list(reg)
     if gr:
-        txt = (f"Within the allowed gain_range [{f.num(gr[0])}, {f.num(gr[1])}] the stabilising "
+        txt = (f"Within the allowed {gain_key} [{f.num(gr[0])}, {f.num(gr[1])}] the stabilising "
                f"gains are {f.intervals(stab_in, none='none')}")
         if not region.is_stability_only:
             txt += f" and those meeting the region {f.intervals(reg_in, none='none')}"
         txt += "."
         if stab and not stab_in:
             txt += f" None of the stabilising gains ({f.intervals(stab)}) is allowed."
-        reasons.append(Reason("gain_range", 0, txt, {"gain_range": list(gr),
+        reasons.append(Reason(gain_key, 0, txt, {gain_key: list(gr),
                                                    "stabilizing": [list(iv) for iv in stab_in],
                                                    "requirement": [list(iv) for iv in reg_in]}))
 
@@ -502,7 +509,8 @@ def explain_problem(problem) -> Explanation:
         best, more = best_account(n, d, region, req, over, stab)
         reasons.extend(more)
 
-    pgr = req.plant_gain_range
+    robust_key = requirement_for("stable_plant_gain_range").key
+    pgr = req.limit("stable_plant_gain_range")
     rob_stab = rob_reg = None
     if pgr:
         rob_stab = tuple(robust_intervals(stab, *pgr))
@@ -515,28 +523,28 @@ def explain_problem(problem) -> Explanation:
         if not region.is_stability_only:
             txt += (f"; to stay in the region, {f.intervals(rob_reg)}" if rob_reg else
                     "; no gain keeps it in the region")
-        reasons.append(Reason("plant_gain_range", 0, txt + ".",
-                              {"plant_gain_range": list(pgr),
+        reasons.append(Reason(robust_key, 0, txt + ".",
+                              {robust_key: list(pgr),
                                "stabilizing": [list(iv) for iv in rob_stab],
                                "requirement": [list(iv) for iv in rob_reg]}))
 
     cand = list(reg_in)
     if rob_stab is not None:
-        # the contract's plant_gain_range asks for stability at every factor (the region
+        # the plant-gain tolerance asks for stability at every factor (the region
         # is asked at the nominal plant), as the design verifier judges it
         cand = intersect_all(cand, rob_stab)
-    if req.max_control_effort is not None and facts.relative_degree > 0:
-        u = req.max_control_effort
+    u = req.limit("peak_control_effort")
+    if u is not None and facts.relative_degree > 0:
         cand = intersect(cand, -u, u)
         reasons.append(Reason(
             "control_effort", 0,
             f"For a unit step the controller output jumps to K at t = 0 (the plant is strictly "
             f"proper, so the output starts at 0), so a peak effort of at most {f.num(u)} needs "
-            f"|K| <= {f.num(u)}.", {"max_control_effort": u}))
+            f"|K| <= {f.num(u)}.", {requirement_for("peak_control_effort").key: u}))
     sse_needs_integral = False
     lag_ratio = None
-    if req.max_steady_state_error is not None:
-        emax = req.max_steady_state_error
+    emax = req.limit("steady_state_error")
+    if emax is not None:
         sse = sse_gain_intervals(facts.dc_gain, facts.plant_type, facts.origin_zeros, emax)
         before = list(cand)
         cand = intersect_all(cand, sse)
@@ -575,7 +583,8 @@ def _snap(ivs, scale: float) -> list[Interval]:
 
 
 def _sse_reason(facts: StructuralFacts, emax: float, sse, cand) -> Reason:
-    data = {"max_steady_state_error": emax, "gain_intervals": [list(iv) for iv in sse],
+    data = {requirement_for("steady_state_error").key: emax,
+            "gain_intervals": [list(iv) for iv in sse],
             "dc_gain": facts.dc_gain, "plant_type": facts.plant_type}
     if facts.plant_type > 0:
         text = (f"The plant has {f.plural(facts.plant_type, 'integrator')}, so every stabilising "

@@ -21,6 +21,7 @@ from typing import NamedTuple
 from synth.explain import _fmt as f
 from synth.explain.gain import AsymptoteFacts, Trap
 from synth.explain.structure import StructuralFacts, is_real
+from synth.problem.catalogue import requirement_for
 
 #: order in which suggestions are listed when several apply
 _ORDER = ("general", "P", "PD", "lead", "PID", "PI", "lag", "lead-lag")
@@ -133,31 +134,34 @@ def requirement_warnings(facts: StructuralFacts, req, region, search) -> list[Ca
                             f"No controller can stabilise this model: the unstable factor at s = "
                             f"{f.points(facts.hidden_unstable)} is common to numerator and denominator."))
     lb = facts.peak_sensitivity_lower_bound
-    if req.max_peak_sensitivity is not None and lb is not None and lb > req.max_peak_sensitivity:
-        out.append(Caution("max_peak_sensitivity", True,
-                            f"max_peak_sensitivity = {f.num(req.max_peak_sensitivity)} is unattainable: "
+    ms, ms_key = req.limit("peak_sensitivity"), requirement_for("peak_sensitivity").key
+    if ms is not None and lb is not None and lb > ms:
+        out.append(Caution(ms_key, True,
+                            f"{ms_key} = {f.num(ms)} is unattainable: "
                             f"the plant's RHP zeros, poles and dead time force a peak sensitivity of "
                             f"at least {f.num(lb)} on every stabilising loop."))
-    if (req.max_steady_state_error is not None and req.max_steady_state_error < 1.0
-            and facts.origin_zeros > 0):
-        out.append(Caution("max_steady_state_error", True,
-                            f"max_steady_state_error = {f.num(req.max_steady_state_error)} is "
+    emax, emax_key = req.limit("steady_state_error"), requirement_for("steady_state_error").key
+    if emax is not None and emax < 1.0 and facts.origin_zeros > 0:
+        out.append(Caution(emax_key, True,
+                            f"{emax_key} = {f.num(emax)} is "
                             "unattainable: the plant has a zero at s = 0, so its static gain is 0 and "
                             "every stable loop leaves the full step as steady-state error."))
     bw = facts.bandwidth
     upper = bw.upper
     src = ("the RHP zero at " + f.num(bw.zero) if upper == bw.upper_from_zero
            else f"the dead time of {f.num(facts.dead_time)} s") if upper is not None else ""
-    if upper is not None and req.max_settling_time is not None and region.sigma > upper:
-        out.append(Caution("max_settling_time", False,
-                            f"Settling within {f.num(req.max_settling_time)} s needs every closed-loop "
+    ts = req.limit("settling_time")
+    if upper is not None and ts is not None and region.sigma > upper:
+        out.append(Caution(requirement_for("settling_time").key, False,
+                            f"Settling within {f.num(ts)} s needs every closed-loop "
                             f"pole at Re s <= -{f.num(region.sigma)}, a bandwidth of at least about "
                             f"{f.num(region.sigma)} rad/s, but {src} limits it to about "
                             f"{f.num(upper)} rad/s: this requirement looks unattainable."))
-    if upper is not None and req.max_rise_time is not None and 1.8 / req.max_rise_time > upper:
-        out.append(Caution("max_rise_time", False,
-                            f"A rise time of {f.num(req.max_rise_time)} s needs a bandwidth of about "
-                            f"1.8/tr = {f.num(1.8 / req.max_rise_time)} rad/s, but {src} limits it to "
+    tr = req.limit("rise_time")
+    if upper is not None and tr is not None and 1.8 / tr > upper:
+        out.append(Caution(requirement_for("rise_time").key, False,
+                            f"A rise time of {f.num(tr)} s needs a bandwidth of about "
+                            f"1.8/tr = {f.num(1.8 / tr)} rad/s, but {src} limits it to "
                             f"about {f.num(upper)} rad/s: this requirement looks unattainable."))
     if upper is not None and bw.lower_from_pole is not None and bw.lower_from_pole > upper:
         out.append(Caution("plant", False,
@@ -230,12 +234,13 @@ def suggest(facts: StructuralFacts, *, req, region, stab, reg, candidates, traps
                               f"{f.plural(par.min_unstable_compensator_poles, 'unstable pole')}); only "
                               "the general structure places poles there"))
         return out
-    gr = req.gain_range
+    gr = req.limit("gain")
     allowed = {1: gr is None or gr[1] > 0, -1: gr is None or gr[0] < 0}
     if not any(allowed[s] and not traps[s] for s in (1, -1)):
         segs = "; ".join(_trap_text(t) for s in (1, -1) if allowed[s] for t in traps[s])
         signs = ("both signs of gain" if allowed[1] and allowed[-1] else
-                 f"the {'positive' if allowed[1] else 'negative'} gains that gain_range allows")
+                 f"the {'positive' if allowed[1] else 'negative'} gains that "
+                 f"{requirement_for('gain').key} allows")
         out.append(Suggestion("general", f"real-axis segments trap a closed-loop pole in the right "
                               f"half-plane for {signs} ({segs}); compensator poles and zeros in "
                               "the left half-plane do not change the real-axis count there, so the "

@@ -5,7 +5,7 @@ compensator
 
     C(s) = K * monic_num(s) / monic_den(s),
 
-``K`` being the root-locus gain that ``requirements.gain_range`` bounds (the
+``K`` being the root-locus gain that the allowed gain range bounds (the
 ``gain`` of the design JSON).  All families share the same methods, in the
 spirit of scikit-learn's estimators, so a strategy written against one works
 with every other:
@@ -118,8 +118,9 @@ class SearchSpace:
         region = problem.region
         if region.sigma > 0:
             mags.append(region.sigma)
-        if req.max_rise_time is not None:
-            mags.append(1.8 / req.max_rise_time)
+        rise = req.limit("rise_time")
+        if rise is not None:
+            mags.append(1.8 / rise)
         if mags:
             w_char = float(np.exp(np.mean(np.log(mags))))
             w_low = min(mags)
@@ -130,8 +131,9 @@ class SearchSpace:
         w_min = min(1e-3 * w_char, 2e-2 * w_low)
         w_min = min(max(w_min, w_max * 1e-7), w_max * 1e-2)
 
-        if req.gain_range is not None:
-            lo, hi = (float(v) for v in req.gain_range)
+        gain_limits = req.limit("gain")
+        if gain_limits is not None:
+            lo, hi = (float(v) for v in gain_limits)
             scale = 1e-4 * max(abs(lo), abs(hi))
         else:
             # magnitudes that make |C G| about one near the characteristic

@@ -39,40 +39,43 @@ def trace_problem(problem):
     return trace_locus(problem.plant.num, problem.plant.den, region=region)
 
 
-def design_loop(doc: dict, rank: int = 1, source: str = "<design>"):
-    """Loop polynomials of design ``rank`` of a synth.design/1 document.
+def design_loop(plant_num, plant_den, comp_num, comp_den):
+    """Loop polynomials of a compensator around a plant, with the compensator gain as locus variable.
 
-    Returns ``(num, den, gain, design)`` where the locus variable is the
-    compensator gain: ``num = monic_num_C * num_G``, ``den = den_C * den_G`` and
-    the design operates at ``gain``.
+    Parameters
+    ----------
+    plant_num, plant_den : array_like
+        The plant (engine form).
+    comp_num, comp_den : array_like
+        The compensator ``K * monic num / monic den``.
+
+    Returns
+    -------
+    num, den : ndarray
+        ``num = (comp_num / K) * plant_num``, ``den = comp_den * plant_den``.
+    gain : float
+        ``K``, where the design operates on the locus.
+
+    Raises
+    ------
+    InputError
+        When ``K`` is zero or not finite (the loop has no locus).
     """
-    designs = doc.get("designs") or []
-    chosen = [d for d in designs if d.get("rank") == rank]
-    if not chosen:
-        have = ", ".join(str(d.get("rank")) for d in designs) or "none"
-        raise InputError(f"has no design of rank {rank} (ranks present: {have})", source, "designs")
-    d = chosen[0]
-    try:
-        comp = d["compensator"]
-        plant = doc["plant"]
-        k = float(comp["gain"])
-        cn = np.asarray(comp["numerator"], dtype=float)
-        cd = np.asarray(comp["denominator"], dtype=float)
-        gn = np.asarray(plant["numerator"], dtype=float)
-        gd = np.asarray(plant["denominator"], dtype=float)
-    except (KeyError, TypeError, ValueError) as err:
-        raise InputError(f"design {rank} is malformed ({err})", source, "designs") from None
+    cn = np.trim_zeros(np.asarray(comp_num, dtype=float), "f")
+    cd = np.trim_zeros(np.asarray(comp_den, dtype=float), "f")
+    k = float(cn[0] / cd[0]) if cn.size and cd.size else 0.0
     if k == 0.0 or not np.isfinite(k):
-        raise InputError(f"design {rank} has gain {k}, so its loop has no locus", source,
-                         "designs.compensator.gain")
+        raise InputError(f"the compensator gain is {k}, so its loop has no locus",
+                         key="compensator.gain")
     # the compensator numerator carries the gain; divide it out so K is the locus variable
-    return np.polymul(cn / k, gn), np.polymul(cd, gd), k, d
+    return (np.polymul(cn / k, np.asarray(plant_num, dtype=float)),
+            np.polymul(cd, np.asarray(plant_den, dtype=float)), k)
 
 
-def trace_design_loop(problem, doc: dict, rank: int = 1, source: str = "<design>"):
-    """Root locus of a chosen design's loop; returns ``(trace, operating_gain)``."""
+def trace_design_loop(problem, plant_num, plant_den, comp_num, comp_den):
+    """Root locus of a design's loop (see :func:`design_loop`); returns ``(trace, operating_gain)``."""
     from synth.locus.trace import trace_locus
 
-    num, den, k, _ = design_loop(doc, rank, source)
+    num, den, k = design_loop(plant_num, plant_den, comp_num, comp_den)
     region = None if problem.region.is_stability_only else problem.region
     return trace_locus(num, den, region=region, negative=k < 0), k

@@ -11,46 +11,52 @@ requirement set changes:
 4. which requirements became binding (met with little room, or violated) at
    each run's top feasible design.
 
-Matching rule.  Two designs are *the same design* when they have the same
-``structure``, the same number of compensator zeros and poles, and, after
-pairing the zeros (and separately the poles) by a minimum-distance
-assignment, every pair satisfies ``|a - b| <= rtol * max(|a|, |b|) + atol``,
-and so does the gain (same sign required). Defaults: ``rtol = 0.05``
-(5 %), ``atol = 1e-9`` (only so that roots at the origin, such as an
-integrator's pole, match exactly). Designs are matched against the first
-occurrence of each design (no chaining), in run order and within a run in
-rank order; a design matches at most one design of each run.
+Matching rule.  synth's one "same design" rule (:mod:`synth.verify.same`):
+two designs of runs are the same design when they have the same
+``structure`` and their compensator frequency responses agree within
+``rtol`` (default 5 %) relative to the larger at every frequency of the band
+spanned by their zeros and poles, a decade beyond each end.  Designs are
+matched against the first occurrence of each design (no chaining), in run
+order and within a run in rank order; a design matches at most one design
+of each run, the closest one.
 
 Binding rule.  For each run the *reference design* is its best-ranked
-feasible design (or, when no design is feasible, its rank-1 design). A
-requirement with limit ``L`` is *violated* at that design when its metric is
-on the wrong side of ``L`` (a tolerance of ``1e-9 * max(1, |L|)`` absorbs
-rounding), *binding* when it is met with a margin of at most
-``binding_margin * |L|`` (default 5 %), and *slack* otherwise. For
-``plant_gain_range`` the design's ``stable_plant_gain_range`` must contain
-the required interval, and each end counts separately; for ``gain_range``
-the margin is measured as a fraction of the range's width. A metric that is
-``null`` in the JSON is unbounded: an unbounded settling time violates an
-upper limit, an infinite gain margin is slack for a lower limit.
+feasible design (or, when no design is feasible, its rank-1 design). Each
+requirement of the run's ``requirements`` object is judged at that design by
+its catalogue entry (:mod:`synth.problem.catalogue`): *violated* when the
+verifier's own rule says so, *binding* when it is met with a room of at most
+``binding_margin`` (default 5 %) of the limit (of the range's width for a
+range the value must lie in; each end separately for a range that must be
+contained, see :meth:`synth.problem.catalogue.Requirement.room`), and *slack*
+otherwise.  A metric that is ``null`` in the JSON is unbounded: an unbounded
+settling time violates an upper limit, an infinite gain margin is slack for a
+lower limit.
 """
 
 from __future__ import annotations
 
-import json
 import math
+from collections.abc import Mapping
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
-import numpy as np
-
 from synth.errors import InputError
+from synth.outputs.document import DesignDocument, DesignRecord, load_design, read_design, thaw
+from synth.outputs.text import Row, TextReport, TextTable, plain_lines
+from synth.problem.catalogue import METRICS, REQUIREMENTS, NumberSpec
+from synth.verify.same import (
+    COMPARE_RULE,
+    SameDesignRule,
+    comparison_band,
+    compensator_responses,
+    response_gap,
+)
 
 __all__ = [
     "BINDING_MARGIN",
     "Binding",
     "Comparison",
-    "DEFAULT_ATOL",
     "DEFAULT_RTOL",
     "MetricChange",
     "Move",
@@ -64,31 +70,13 @@ __all__ = [
 ]
 
 SCHEMA = "synth.compare/1"
-DESIGN_SCHEMA = "synth.design/1"
 
-DEFAULT_RTOL = 0.05
-DEFAULT_ATOL = 1e-9
+DEFAULT_RTOL = COMPARE_RULE.rtol
 BINDING_MARGIN = 0.05
 
-# requirement key -> (metric key in the design JSON, kind of limit)
-REQUIREMENT_METRICS: dict[str, tuple[str, str]] = {
-    "max_overshoot_percent": ("overshoot_percent", "max"),
-    "max_settling_time": ("settling_time", "max"),
-    "min_damping_ratio": ("min_damping_ratio", "min"),
-    "max_rise_time": ("rise_time", "max"),
-    "max_steady_state_error": ("steady_state_error", "max"),
-    "plant_gain_range": ("stable_plant_gain_range", "range"),
-    "gain_range": ("gain", "gain"),
-    "min_phase_margin_deg": ("phase_margin_deg", "min"),
-    "min_gain_margin_db": ("gain_margin_db", "min"),
-    "max_peak_sensitivity": ("peak_sensitivity", "max"),
-    "max_control_effort": ("peak_control_effort", "max"),
-}
-
-# the contract's scalar metrics first, in its order; other numeric extras follow sorted
-_METRIC_ORDER = ("overshoot_percent", "settling_time", "rise_time", "steady_state_error",
-                 "min_damping_ratio", "phase_margin_deg", "gain_margin_db",
-                 "peak_sensitivity", "peak_control_effort")
+# the contract's scalar metrics, in the catalogue's order; other numeric extras follow sorted
+_METRIC_ORDER = tuple(k for k, m in METRICS.items()
+                      if m.contract and m.better in ("lower", "higher"))
 
 _TIGHT = ("binding", "violated")
 _TABLE_CHANGES = 5  # designs per pair of runs whose metric changes the table shows
@@ -100,7 +88,7 @@ _TABLE_CHANGES = 5  # designs per pair of runs whose metric changes the table sh
 
 
 def load_design_json(path: str | Path) -> dict:
-    """Read a ``synth.design/1`` document written by ``synth design --json``.
+    """Read and check a ``synth.design/1`` document written by ``synth design --json``.
 
     Parameters
     ----------
@@ -110,110 +98,16 @@ def load_design_json(path: str | Path) -> dict:
     Returns
     -------
     dict
-        The parsed document, unchanged.
+        The parsed document, unchanged (it has passed
+        :func:`synth.outputs.document.load_design`).
 
     Raises
     ------
     InputError
-        Naming the file when it cannot be read, is not valid JSON, is not a
-        JSON object, has a ``schema`` other than ``"synth.design/1"`` or a
-        malformed ``designs`` list.
+        Naming the file when it cannot be read, is not valid JSON or is not a
+        valid ``synth.design/1`` document.
     """
-    from synth.problem.source import read_input_text
-
-    source = str(path)
-    # regular files only, never blocking; a design run of 64 MiB is far beyond any real one
-    text = read_input_text(path, max_bytes=64 << 20, kind="design JSON file")
-    try:
-        doc = json.loads(text)
-    except json.JSONDecodeError as err:
-        raise InputError(f"not valid JSON: {err.msg} at line {err.lineno}, column {err.colno}",
-                         source=source) from None
-    except RecursionError:
-        raise InputError("not a design JSON file: nested too deeply", source=source) from None
-    except ValueError:  # an integer beyond Python's digit limit
-        raise InputError("not a design JSON file: a number has too many digits",
-                         source=source) from None
-    _check_document(doc, source)
-    return doc
-
-
-def _check_document(doc: Any, source: str) -> None:
-    """Raise InputError unless ``doc`` looks like a synth.design/1 document."""
-    if not isinstance(doc, dict):
-        raise InputError("expected a JSON object (a synth.design/1 document)", source=source)
-    schema = doc.get("schema")
-    if schema != DESIGN_SCHEMA:
-        raise InputError(f"schema is {schema!r}, expected {DESIGN_SCHEMA!r}",
-                         source=source, key="schema")
-    designs = doc.get("designs")
-    if not isinstance(designs, list):
-        raise InputError("must be a list of designs", source=source, key="designs")
-    for i, d in enumerate(designs):
-        key = f"designs[{i}]"
-        if not isinstance(d, dict):
-            raise InputError("must be an object", source=source, key=key)
-        if not isinstance(d.get("structure"), str):
-            raise InputError("needs a text 'structure'", source=source, key=f"{key}.structure")
-        rank = d.get("rank")
-        if isinstance(rank, bool) or not isinstance(rank, int):
-            raise InputError("needs an integer 'rank'", source=source, key=f"{key}.rank")
-        comp = d.get("compensator")
-        if not isinstance(comp, dict):
-            raise InputError("needs a 'compensator' object", source=source,
-                             key=f"{key}.compensator")
-        _compensator_roots(comp, source, f"{key}.compensator")
-        if "metrics" in d and not isinstance(d["metrics"], dict):
-            raise InputError("must be an object", source=source, key=f"{key}.metrics")
-    req = doc.get("requirements")
-    if req is not None and not isinstance(req, dict):
-        raise InputError("must be an object", source=source, key="requirements")
-
-
-def _pairs_to_complex(value: Any, source: str, key: str) -> np.ndarray:
-    if not isinstance(value, list):
-        raise InputError("must be a list of [re, im] pairs", source=source, key=key)
-    out = []
-    for v in value:
-        if (not isinstance(v, list) or len(v) != 2
-                or not all(isinstance(x, (int, float)) and not isinstance(x, bool) for x in v)
-                or not all(math.isfinite(x) for x in v)):
-            raise InputError("must be a list of finite [re, im] pairs", source=source, key=key)
-        out.append(complex(v[0], v[1]))
-    return np.array(out, dtype=complex)
-
-
-def _poly(value: Any, source: str, key: str) -> np.ndarray:
-    if (not isinstance(value, list) or not value
-            or not all(isinstance(x, (int, float)) and not isinstance(x, bool) for x in value)):
-        raise InputError("must be a non-empty list of numbers", source=source, key=key)
-    p = np.trim_zeros(np.asarray(value, dtype=float), "f")
-    if p.size == 0 or not np.all(np.isfinite(p)):
-        raise InputError("must be finite and not all zero", source=source, key=key)
-    return p
-
-
-def _compensator_roots(comp: dict, source: str, key: str) -> tuple[np.ndarray, np.ndarray, float]:
-    """Zeros, poles and root-locus gain of a compensator object.
-
-    ``zeros``/``poles``/``gain`` are used when present; otherwise they are
-    computed from ``numerator``/``denominator`` with numpy.roots.
-    """
-    if all(k in comp for k in ("zeros", "poles", "gain")):
-        zeros = _pairs_to_complex(comp["zeros"], source, f"{key}.zeros")
-        poles = _pairs_to_complex(comp["poles"], source, f"{key}.poles")
-        gain = comp["gain"]
-        if isinstance(gain, bool) or not isinstance(gain, (int, float)) or not math.isfinite(gain):
-            raise InputError("must be a finite number", source=source, key=f"{key}.gain")
-        return zeros, poles, float(gain)
-    if "numerator" in comp and "denominator" in comp:
-        num = _poly(comp["numerator"], source, f"{key}.numerator")
-        den = _poly(comp["denominator"], source, f"{key}.denominator")
-        zeros = np.roots(num) if num.size > 1 else np.zeros(0, dtype=complex)
-        poles = np.roots(den) if den.size > 1 else np.zeros(0, dtype=complex)
-        return zeros.astype(complex), poles.astype(complex), float(num[0] / den[0])
-    raise InputError("needs zeros, poles and gain (or numerator and denominator)",
-                     source=source, key=key)
+    return load_design(path).to_json()
 
 
 # ----------------------------------------------------------------------------------------------
@@ -299,9 +193,9 @@ class Move:
     maps each scalar metric present in both runs to (before, after, after -
     before), the difference None where either value is unbounded. For a
     ``"new"`` design, ``nearest`` is the closest design of the same structure
-    and order in the earlier run (None if there is none) and
-    ``nearest_difference`` the largest relative difference of its paired
-    zeros, poles and gain (so 0.3 means 30 % apart).
+    that the earlier run had and the later one lost (None if there is none)
+    and ``nearest_difference`` the largest relative difference of their
+    frequency responses (so 0.3 means 30 % apart).
     """
 
     design: str
@@ -360,93 +254,39 @@ class Binding:
 # ----------------------------------------------------------------------------------------------
 
 
-def _close(a: complex | float, b: complex | float, rtol: float, atol: float) -> bool:
-    if math.isinf(rtol):  # no tolerance: only measuring the difference
-        return True
-    return abs(a - b) <= rtol * max(abs(a), abs(b)) + atol
-
-
-def _roots_close(a: np.ndarray, b: np.ndarray, rtol: float, atol: float) -> float | None:
-    """Largest relative pairing error if the root sets match, else None."""
-    if a.size != b.size:
-        return None
-    if a.size == 0:
-        return 0.0
-    from scipy.optimize import linear_sum_assignment
-
-    cost = np.abs(a[:, None] - b[None, :])
-    rows, cols = linear_sum_assignment(cost)
-    worst = 0.0
-    for i, j in zip(rows, cols, strict=True):
-        if not _close(a[i], b[j], rtol, atol):
-            return None
-        scale = max(abs(a[i]), abs(b[j]))
-        worst = max(worst, abs(a[i] - b[j]) / scale if scale > 0 else 0.0)
-    return worst
-
-
-def same_design(first: tuple[str, np.ndarray, np.ndarray, float],
-                second: tuple[str, np.ndarray, np.ndarray, float],
-                rtol: float = DEFAULT_RTOL, atol: float = DEFAULT_ATOL) -> float | None:
-    """Whether two compensators are the same design under the matching rule.
+def same_design(first: DesignRecord, second: DesignRecord,
+                rtol: float = DEFAULT_RTOL) -> float | None:
+    """Whether two designs are the same design under the matching rule.
 
     Parameters
     ----------
-    first, second : tuple
-        ``(structure, zeros, poles, gain)`` with complex zero and pole arrays.
-    rtol, atol : float
-        Relative and absolute tolerance (see the module docstring).
+    first, second : DesignRecord
+        Designs of a document (:mod:`synth.outputs.document`).
+    rtol : float
+        Relative tolerance on the frequency responses (module docstring).
 
     Returns
     -------
     float or None
-        None when they differ; otherwise the largest relative difference
-        among the paired zeros, poles and the gain (0.0 for identical ones),
+        None when they differ; otherwise the largest relative difference of
+        their frequency responses over the band (0.0 for identical ones),
         used to pick the closest of several matches.
     """
-    s1, z1, p1, k1 = first
-    s2, z2, p2, k2 = second
-    if s1 != s2 or np.sign(k1) != np.sign(k2) or not _close(k1, k2, rtol, atol):
-        return None
-    dz = _roots_close(z1, z2, rtol, atol)
-    dp = _roots_close(p1, p2, rtol, atol)
-    if dz is None or dp is None:
-        return None
-    kscale = max(abs(k1), abs(k2))
-    dk = abs(k1 - k2) / kscale if kscale > 0 else 0.0
-    return max(dz, dp, dk)
+    gap = _response_gap(first, second)
+    rule = SameDesignRule(rtol=rtol, other_rtol=0.0)
+    return gap if rule.same(gap, first.structure, second.structure) else None
 
 
-def _relative_difference(first, second) -> float | None:
-    """Largest relative difference of paired zeros, poles and gain; None if not comparable."""
-    s1, z1, p1, k1 = first
-    s2, z2, p2, k2 = second
-    if s1 != s2 or z1.size != z2.size or p1.size != p2.size or np.sign(k1) != np.sign(k2):
-        return None
-    return same_design(first, second, rtol=math.inf, atol=0.0)
+def _response_gap(first: DesignRecord, second: DesignRecord) -> float:
+    """Largest relative difference of the two compensators' responses over their band."""
+    comps = [(first.compensator.num, first.compensator.den),
+             (second.compensator.num, second.compensator.den)]
+    resp = compensator_responses(comps, comparison_band(comps))
+    return float(response_gap(resp[:1], resp[1])[0])
 
 
 def _tag(i: int) -> str:
     return chr(ord("A") + i) if i < 26 else f"R{i + 1}"
-
-
-def _fmt_root(r: complex) -> str:
-    if abs(r.imag) < 1e-12 * max(1.0, abs(r)):
-        return f"{r.real:.4g}"
-    return f"{r.real:.4g}{r.imag:+.4g}j"
-
-
-def _describe(structure: str, zeros: np.ndarray, poles: np.ndarray, gain: float) -> str:
-    # show one root of each conjugate pair
-    def keep(rs):
-        return [r for r in rs if r.imag >= -1e-12 * max(1.0, abs(r))]
-
-    parts = [f"{structure}: gain {gain:.4g}"]
-    if zeros.size:
-        parts.append("zeros " + ", ".join(_fmt_root(r) for r in keep(zeros)))
-    if poles.size:
-        parts.append("poles " + ", ".join(_fmt_root(r) for r in keep(poles)))
-    return ", ".join(parts)
 
 
 def _is_number(v: Any) -> bool:
@@ -473,50 +313,28 @@ def _metric_changes(before: dict, after: dict) -> dict:
 # ----------------------------------------------------------------------------------------------
 
 
-def _num_or_inf(v: Any, default: float) -> float:
-    return float(v) if _is_number(v) else default
+def _limit_ok(entry, limit: Any) -> bool:
+    """Whether a limit read from a document has the shape its catalogue entry asks for."""
+    if isinstance(entry.value, NumberSpec):
+        return _is_number(limit)
+    return (isinstance(limit, (list, tuple)) and len(limit) == 2
+            and all(_is_number(x) for x in limit) and limit[0] < limit[1])
 
 
-def _status(kind: str, limit: Any, value: Any, margin: float) -> str:
+def _status(entry, limit: Any, value: Any, margin: float) -> str:
     """Slack, binding or violated for one requirement at one design (module docstring)."""
-    if kind in ("max", "min"):
-        if not _is_number(limit):
-            return "unknown"
-        L = float(limit)
-        tol = 1e-9 * max(1.0, abs(L))
-        room = margin * abs(L)
-        if kind == "max":
-            v = _num_or_inf(value, math.inf)  # null = unbounded: violates an upper limit
-            if v > L + tol:
-                return "violated"
-            return "binding" if v >= L - room else "slack"
-        v = _num_or_inf(value, math.inf)  # null = unbounded: satisfies a lower limit
-        if v < L - tol:
-            return "violated"
-        return "binding" if v <= L + room else "slack"
-    if not (isinstance(limit, (list, tuple)) and len(limit) == 2
-            and all(_is_number(x) for x in limit)):
+    if not _limit_ok(entry, limit):
         return "unknown"
-    a, b = float(limit[0]), float(limit[1])
-    tol = 1e-9 * max(1.0, abs(a), abs(b))
-    if kind == "range":
-        if not (isinstance(value, (list, tuple)) and len(value) == 2):
-            return "unknown"
-        c = _num_or_inf(value[0], -math.inf)
-        d = _num_or_inf(value[1], math.inf)
-        if c > a + tol or d < b - tol:
-            return "violated"
-        if c >= a - margin * abs(a) or d <= b + margin * abs(b):
-            return "binding"
-        return "slack"
-    # compensator gain inside gain_range
-    if not _is_number(value):
+    if isinstance(limit, list):
+        limit = tuple(limit)
+    if entry.kind == "within" and not _is_number(value):
         return "unknown"
-    k = float(value)
-    if k < a - tol or k > b + tol:
+    if entry.kind == "contain" and value is not None and not (
+            isinstance(value, (list, tuple)) and len(value) == 2):
+        return "unknown"
+    if entry.assess(value, limit, {k: r.default for k, r in REQUIREMENTS.items()}) is not None:
         return "violated"
-    room = margin * (b - a)
-    return "binding" if (k - a <= room or b - k <= room) else "slack"
+    return "binding" if entry.room(value, limit) <= margin else "slack"
 
 
 # ----------------------------------------------------------------------------------------------
@@ -541,7 +359,7 @@ class Comparison:
     metric_changes : tuple of MetricChange
         Every design found in two consecutive runs, moved or not, in run
         order, then by the later run's rank.
-    rtol, atol, binding_margin : float
+    rtol, binding_margin : float
         The tolerances used.
     """
 
@@ -551,7 +369,6 @@ class Comparison:
     binding: tuple[Binding, ...]
     metric_changes: tuple[MetricChange, ...] = ()
     rtol: float = DEFAULT_RTOL
-    atol: float = DEFAULT_ATOL
     binding_margin: float = BINDING_MARGIN
 
     # -- derived -----------------------------------------------------------------------------
@@ -575,8 +392,8 @@ class Comparison:
         Fields
         ------
         schema : ``"synth.compare/1"``
-        settings : ``relative_tolerance``, ``absolute_tolerance`` (design
-            matching) and ``binding_margin`` (fraction of a limit).
+        settings : ``relative_tolerance`` (design matching: frequency
+            responses) and ``binding_margin`` (fraction of a limit).
         runs : list, one per run: ``name``, ``tag``, ``plant``, ``requirements``
             (null when the run's JSON has none), ``designs`` and ``feasible``
             (counts), ``reference`` (id of the design the binding verdicts
@@ -595,7 +412,8 @@ class Comparison:
             change}}; change null where a value is unbounded), ``nearest`` and
             ``nearest_difference`` (for a new design: the closest design of the
             same structure among those the earlier run had and this one lost,
-            and how far apart, as a fraction; else null).
+            and how far apart their frequency responses are, as a fraction;
+            else null).
         metric_changes : list, one per design found in two consecutive runs
             (moved or not): ``design``, ``from_run``, ``to_run``,
             ``from_rank``, ``to_rank``, ``changes`` (as in ``moves``).
@@ -607,7 +425,7 @@ class Comparison:
         """
         return {
             "schema": SCHEMA,
-            "settings": {"relative_tolerance": self.rtol, "absolute_tolerance": self.atol,
+            "settings": {"relative_tolerance": self.rtol,
                          "binding_margin": self.binding_margin},
             "runs": [{"name": r.name, "tag": r.tag, "plant": r.plant,
                       "requirements": r.requirements, "designs": r.n_designs,
@@ -646,35 +464,40 @@ class Comparison:
 
     # -- terminal ----------------------------------------------------------------------------
     def table_lines(self) -> list[str]:
+        """The terminal account as plain lines (see :meth:`text`)."""
+        return plain_lines(self.text())
+
+    def text(self) -> TextReport:
         """The terminal account: runs, the design-by-run rank grid, moves, requirements."""
         runs = self.runs
-        lines = [f"Comparing {len(runs)} design runs "
-                 f"(same design: same structure, parameters within {self.rtol:.0%})"]
+        before = [f"Comparing {len(runs)} design runs "
+                  f"(same design: same structure, responses within {self.rtol:.0%})"]
         for r in runs:
             label = r.plant.get("label") if isinstance(r.plant, dict) else None
             extra = f"  plant: {label}" if label else ""
-            lines.append(f"  [{r.tag}] {r.name}: {r.n_designs} designs, "
-                         f"{r.n_feasible} feasible{extra}")
-        lines.append("")
+            before.append(f"  [{r.tag}] {r.name}: {r.n_designs} designs, "
+                          f"{r.n_feasible} feasible{extra}")
+        before.append("")
         if not self.designs:
-            lines.append("No designs in any run.")
-            return lines
+            before.append("No designs in any run.")
+            return TextReport(before=tuple(before))
 
         # rank grid: one row per design, one column per run; '*' marks an infeasible design
-        width = max(len(r.tag) for r in runs) + 2
+        before.append("Ranks (* = misses a requirement, - = absent)")
         desc_w = min(60, max(len(d.description) for d in self.designs))
-        head = f"  {'id':<4} {'design':<{desc_w}} " + " ".join(f"{r.tag:>{width}} " for r in runs)
-        lines.append("Ranks (* = misses a requirement, - = absent)")
-        lines.append(head)
+        rows = []
         for d in self.designs:
-            cells = []
+            cells, marks = [d.id], ["", ""]
+            desc = d.description if len(d.description) <= desc_w else \
+                d.description[:desc_w - 3] + "..."
+            cells.append(desc)
             for e in d.entries:
-                mark = " " if e is None or e.feasible else "*"
-                cells.append(f"{'-' if e is None else str(e.rank):>{width}}{mark}")
-            desc = d.description if len(d.description) <= desc_w else d.description[:desc_w - 3] + "..."
-            lines.append(f"  {d.id:<4} {desc:<{desc_w}} " + " ".join(cells))
-        lines.append("")
+                cells.append("-" if e is None else f"{e.rank}{'' if e.feasible else '*'}")
+                marks.append("" if e is None else ("good" if e.feasible else "bad"))
+            rows.append(Row(tuple(cells), marks=tuple(marks)))
+        table = TextTable(("id", "design", *(r.tag for r in runs)), tuple(rows))
 
+        lines = [""]
         if self.identical_rankings:
             lines.append("Rankings are identical in every run; no design moved.")
         elif not self.moves:
@@ -686,7 +509,7 @@ class Comparison:
                 if m.kind == "new":
                     what = f"new in {b} at rank {m.to_rank}"
                     if m.nearest is not None:
-                        what += (f" (closest in {a}: {m.nearest}, parameters "
+                        what += (f" (closest in {a}: {m.nearest}, responses "
                                  f"{m.nearest_difference:.0%} apart)")
                 elif m.kind == "dropped":
                     what = f"dropped in {b} (was rank {m.from_rank} in {a})"
@@ -734,7 +557,7 @@ class Comparison:
                     line += "  (became binding in " + ", ".join(
                         runs[i].tag for i in b.became_binding) + ")"
                 lines.append(line)
-        return lines
+        return TextReport(before=tuple(before), table=table, after=tuple(lines))
 
 
 def _changed(a: Any, b: Any) -> bool:
@@ -753,19 +576,19 @@ def _short(v: Any) -> str:
     return str(v)
 
 
-def compare_runs(runs: list[tuple[str, dict]], rtol: float = DEFAULT_RTOL,
-                 atol: float = DEFAULT_ATOL,
+def compare_runs(runs: list[tuple[str, Any]], rtol: float = DEFAULT_RTOL,
                  binding_margin: float = BINDING_MARGIN) -> Comparison:
     """Compare several design runs side by side.
 
     Parameters
     ----------
-    runs : list of (str, dict)
+    runs : list of (str, dict or DesignDocument)
         ``(name, document)`` pairs; each document a ``synth.design/1`` object
-        (as returned by :func:`load_design_json` or ``DesignRun.to_json()``).
-        Order matters: moves are reported from each run to the next.
-    rtol, atol : float
-        Tolerances of the design matching rule (module docstring).
+        (as returned by :func:`load_design_json` or ``DesignRun.to_json()``)
+        or its :class:`~synth.outputs.document.DesignDocument`.  Order
+        matters: moves are reported from each run to the next.
+    rtol : float
+        Tolerance of the design matching rule (module docstring).
     binding_margin : float
         Fraction of a limit within which a met requirement counts as binding.
 
@@ -781,47 +604,40 @@ def compare_runs(runs: list[tuple[str, dict]], rtol: float = DEFAULT_RTOL,
     """
     if not runs:
         raise InputError("nothing to compare: no design runs given")
-    if not (rtol >= 0 and atol >= 0 and binding_margin >= 0):
+    if not (rtol >= 0 and binding_margin >= 0):
         raise InputError("tolerances must be non-negative")
-    parsed = []
-    for name, doc in runs:
-        _check_document(doc, str(name))
-        designs = []
-        for i, d in enumerate(doc["designs"]):
-            z, p, k = _compensator_roots(d["compensator"], str(name), f"designs[{i}].compensator")
-            designs.append((d, z, p, k))
-        designs.sort(key=lambda item: item[0]["rank"])
-        parsed.append((str(name), doc, designs))
+    docs: list[DesignDocument] = [
+        doc if isinstance(doc, DesignDocument) else read_design(doc, str(name))
+        for name, doc in runs]
+    names = [str(name) for name, _ in runs]
+    rule = SameDesignRule(rtol=rtol, other_rtol=0.0)
 
-    n_runs = len(parsed)
-    # families: [structure, zeros, poles, gain, description, {run: RunEntry}]
+    n_runs = len(docs)
+    # families: [first DesignRecord, {run: RunEntry}]
     families: list[list] = []
-    for r, (_, _, designs) in enumerate(parsed):
-        for d, z, p, k in designs:
-            key = (d["structure"], z, p, k)
-            best, best_err = None, math.inf
+    for r, doc in enumerate(docs):
+        for d in doc.designs:
+            best, best_gap = None, math.inf
             for fam in families:
-                if r in fam[5]:
+                if r in fam[1]:
                     continue
-                err = same_design((fam[0], fam[1], fam[2], fam[3]), key, rtol, atol)
-                if err is not None and err < best_err:
-                    best, best_err = fam, err
-            entry = RunEntry(rank=int(d["rank"]), feasible=bool(d.get("feasible", False)),
-                             metrics=dict(d.get("metrics") or {}),
-                             violations=tuple(str(v) for v in d.get("violations") or ()))
+                gap = _response_gap(fam[0], d)
+                if rule.same(gap, fam[0].structure, d.structure) and gap < best_gap:
+                    best, best_gap = fam, gap
+            entry = RunEntry(rank=d.rank, feasible=d.feasible, metrics=thaw(d.metrics),
+                             violations=d.violations)
             if best is None:
-                desc = d.get("description")
-                if not isinstance(desc, str) or not desc:
-                    desc = _describe(d["structure"], z, p, k)
-                families.append([d["structure"], z, p, k, desc, {r: entry}])
+                families.append([d, {r: entry}])
             else:
-                best[5][r] = entry
+                best[1][r] = entry
 
     shared = tuple(
-        SharedDesign(id=f"D{i + 1}", structure=f[0], description=f[4],
-                     zeros=tuple(complex(x) for x in f[1]), poles=tuple(complex(x) for x in f[2]),
-                     gain=float(f[3]), entries=tuple(f[5].get(r) for r in range(n_runs)))
+        SharedDesign(id=f"D{i + 1}", structure=f[0].structure, description=f[0].description,
+                     zeros=f[0].compensator.zeros, poles=f[0].compensator.poles,
+                     gain=f[0].compensator.gain,
+                     entries=tuple(f[1].get(r) for r in range(n_runs)))
         for i, f in enumerate(families))
+    firsts = {s.id: f[0] for s, f in zip(shared, families, strict=True)}
 
     moves: list[Move] = []
     metric_changes: list[MetricChange] = []
@@ -846,14 +662,13 @@ def compare_runs(runs: list[tuple[str, dict]], rtol: float = DEFAULT_RTOL,
             changes = _metric_changes(a.metrics, b.metrics) if (a and b) else {}
             nearest, nearest_diff = None, None
             if kind == "new":
-                me = (d.structure, np.array(d.zeros), np.array(d.poles), d.gain)
+                # the closest design of the same structure that the earlier run had and lost
                 for other in shared:
-                    if other.entries[r - 1] is None or other.entries[r] is not None:
+                    if (other.entries[r - 1] is None or other.entries[r] is not None
+                            or other.structure != d.structure):
                         continue
-                    diff = _relative_difference(
-                        me, (other.structure, np.array(other.zeros), np.array(other.poles),
-                             other.gain))
-                    if diff is not None and (nearest_diff is None or diff < nearest_diff):
+                    diff = _response_gap(firsts[d.id], firsts[other.id])
+                    if nearest_diff is None or diff < nearest_diff:
                         nearest, nearest_diff = other.id, diff
             here.append(Move(design=d.id, from_run=r - 1, to_run=r, kind=kind,
                              from_rank=a.rank if a else None, to_rank=b.rank if b else None,
@@ -873,28 +688,29 @@ def compare_runs(runs: list[tuple[str, dict]], rtol: float = DEFAULT_RTOL,
 
     # reference design of each run: best-ranked feasible one, else rank 1
     summaries = []
-    references: list[tuple[dict, float] | None] = []
-    for r, (name, doc, designs) in enumerate(parsed):
-        ref = next((item for item in designs if item[0].get("feasible")), None)
-        if ref is None and designs:
-            ref = designs[0]
+    references: list[DesignRecord | None] = []
+    for r, (name, doc) in enumerate(zip(names, docs, strict=True)):
+        ref = next((d for d in doc.designs if d.feasible), None)
+        if ref is None and doc.designs:
+            ref = doc.designs[0]
         ref_id = None
         if ref is not None:
             ref_id = next(d.id for d in shared if d.entries[r] is not None
-                          and d.entries[r].rank == ref[0]["rank"])
-        references.append(None if ref is None else (ref[0], ref[3]))
-        req = doc.get("requirements")
+                          and d.entries[r].rank == ref.rank)
+        references.append(ref)
+        req = doc.requirements
         summaries.append(RunSummary(
-            name=name, tag=_tag(r), plant=doc.get("plant") if isinstance(doc.get("plant"), dict)
-            else {}, requirements=dict(req) if isinstance(req, dict) else None,
-            n_designs=len(designs), n_feasible=sum(bool(d.get("feasible")) for d, *_ in designs),
-            reference=ref_id, reference_feasible=bool(ref and ref[0].get("feasible"))))
+            name=name, tag=_tag(r), plant=thaw(doc.raw["plant"])
+            if isinstance(doc.raw.get("plant"), Mapping) else {},
+            requirements=thaw(req) if req is not None else None,
+            n_designs=len(doc.designs), n_feasible=sum(d.feasible for d in doc.designs),
+            reference=ref_id, reference_feasible=bool(ref is not None and ref.feasible)))
 
     binding = []
-    used = [k for k in REQUIREMENT_METRICS
-            if any(s.requirements and k in s.requirements for s in summaries)]
-    for key in used:
-        metric, kind = REQUIREMENT_METRICS[key]
+    used = [entry for key, entry in REQUIREMENTS.items() if entry.kind != "setting"
+            and any(s.requirements and key in s.requirements for s in summaries)]
+    for entry in used:
+        key = entry.key
         limits, values, statuses = [], [], []
         for s, ref in zip(summaries, references, strict=True):
             if s.requirements is None or ref is None:
@@ -908,23 +724,19 @@ def compare_runs(runs: list[tuple[str, dict]], rtol: float = DEFAULT_RTOL,
                 statuses.append("not set")
                 continue
             limit = s.requirements[key]
-            design, gain = ref
-            mets = design.get("metrics") or {}
-            if kind == "gain":
-                value, present = gain, True
-            else:
-                value, present = mets.get(metric), metric in mets
+            value = ref.metric(entry.metric)
             limits.append(limit)
             values.append(value)
-            statuses.append(_status(kind, limit, value, binding_margin) if present else "unknown")
+            statuses.append(_status(entry, limit, value, binding_margin)
+                            if ref.has_metric(entry.metric) else "unknown")
         became = tuple(i for i in range(1, len(statuses))
                        if statuses[i] in _TIGHT and statuses[i - 1] not in _TIGHT)
         released = tuple(i for i in range(1, len(statuses))
                          if statuses[i] in ("slack", "not set") and statuses[i - 1] in _TIGHT)
-        binding.append(Binding(requirement=key, metric=metric, limits=tuple(limits),
+        binding.append(Binding(requirement=key, metric=entry.metric, limits=tuple(limits),
                                values=tuple(values), statuses=tuple(statuses),
                                became_binding=became, released=released))
 
     return Comparison(runs=tuple(summaries), designs=shared, moves=tuple(moves),
-                      binding=tuple(binding), metric_changes=tuple(metric_changes), rtol=rtol, atol=atol,
+                      binding=tuple(binding), metric_changes=tuple(metric_changes), rtol=rtol,
                       binding_margin=binding_margin)

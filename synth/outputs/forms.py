@@ -9,12 +9,13 @@ it in a drive, a PLC or firmware wants it in one of a few shapes:
   (:func:`pid_parallel_from_tf`, :func:`tf_from_pid_parallel`) and the
   standard form ``Kc (1 + 1/(Ti s) + Td s/((Td/N) s + 1))``
   (:func:`pid_standard_from_parallel`, :func:`pid_parallel_from_standard`);
-* discrete time: Tustin's method with pre-warping (:func:`tustin_prewarp`),
-  the difference equation (:func:`difference_equation`), and a check of the
-  sampled loop with the plant discretised by a zero-order hold
-  (:func:`zoh_discretise`, :func:`sampled_loop_check`,
-  :func:`sample_rate_warning`); :func:`discrete_implementation` does all of
-  it in one call.
+* discrete time: Tustin's method with pre-warping (:func:`tustin_prewarp`,
+  by :func:`scipy.signal.bilinear`), the difference equation
+  (:func:`difference_equation`), and the sample-rate rule of thumb
+  (:func:`sample_rate_warning`); :func:`discrete_implementation` adds the
+  verifier's check of the sampled loop with the plant discretised by a
+  zero-order hold (:mod:`synth.verify.sampled`, re-exported here as
+  :func:`zoh_discretise` and :func:`sampled_loop_check`).
 
 All polynomials are 1-D float arrays in descending powers (of ``s`` or of
 ``z``). Everything here is a linear-model computation: a design converted
@@ -32,6 +33,7 @@ import numpy as np
 
 from synth.errors import InputError
 from synth.numerics.poly import coefficients
+from synth.verify.sampled import SampledLoopCheck, sampled_loop_check, zoh_discretise
 
 __all__ = [
     "PidParallel",
@@ -56,9 +58,6 @@ __all__ = [
 # A denominator coefficient this small relative to the largest one is read as
 # an exact zero when recognising an integrator in a PID-type design.
 _PID_ZERO_RTOL = 1e-10
-# A closed-loop root this close to the unit circle counts as on it (not stable):
-# rounding cannot then turn a marginal loop into a "stable" verdict.
-_UNIT_CIRCLE_TOL = 1e-10
 
 
 # ---------------------------------------------------------------------------
@@ -424,7 +423,8 @@ def tustin_prewarp(num, den, T: float, w_warp: float | None = None
     Substitutes ``s = c (z - 1)/(z + 1)`` with ``c = w / tan(w T / 2)`` for
     ``w = w_warp``, or the plain ``c = 2/T`` when ``w_warp`` is ``None`` or
     0. With pre-warping the discrete response equals the continuous one
-    exactly at ``w_warp``: ``Cd(exp(j w T)) = C(j w)``.
+    exactly at ``w_warp``: ``Cd(exp(j w T)) = C(j w)``.  The substitution is
+    :func:`scipy.signal.bilinear` with the sampling rate ``fs = c / 2``.
 
     Parameters
     ----------
@@ -456,6 +456,10 @@ def tustin_prewarp(num, den, T: float, w_warp: float | None = None
        Dynamic Systems*, 3rd ed., Addison-Wesley, 1998, ch. 6 (Tustin's
        method with frequency pre-warping), from memory.
     """
+    import warnings
+
+    from scipy.signal import BadCoefficients, bilinear
+
     T = _positive_time(T)
     n = coefficients(num, "the compensator numerator")
     d = coefficients(den, "the compensator denominator", allow_zero=False)
@@ -472,25 +476,22 @@ def tustin_prewarp(num, den, T: float, w_warp: float | None = None
                 f"pi/T = {nyquist:g} rad/s; sample faster"
             )
         c = float(w_warp) / math.tan(float(w_warp) * T / 2.0)
+    # the leading z coefficient of the mapped denominator is den(c): a pole at s = c
+    # goes to z = infinity (compared with the coefficients' own size, so scale-free)
     order = max(n.size, d.size) - 1
-    # Row i holds (z - 1)^i (z + 1)^(order - i), descending powers of z.
-    basis = np.empty((order + 1, order + 1))
-    for i in range(order + 1):
-        basis[i] = np.polymul(np.poly(np.ones(i)), np.poly(-np.ones(order - i)))
-    powers = c ** np.arange(order + 1)
-
-    def mapped(p: np.ndarray) -> np.ndarray:
-        asc = np.zeros(order + 1)
-        asc[: p.size] = p[::-1]
-        return (asc * powers) @ basis
-
-    numd, dend = mapped(n), mapped(d)
-    if abs(dend[0]) <= 1e-12 * np.max(np.abs(dend)):
+    size = float(np.max(np.abs(d) * np.abs(c) ** np.arange(d.size - 1, -1, -1)))
+    if abs(np.polyval(d, c)) <= 1e-12 * size:
         raise InputError(
             f"the compensator has a pole at s = {c:g} where Tustin's map is singular; "
             "change the sample time"
         )
-    return numd / dend[0], dend / dend[0]
+    with warnings.catch_warnings():
+        # a compensator zero at s = c gives a leading zero in z; it is padded back below
+        warnings.simplefilter("ignore", BadCoefficients)
+        # bilinear substitutes s = 2 fs (z - 1)/(z + 1): fs = c / 2 gives the pre-warped map
+        numd, dend = bilinear(n, d, fs=c / 2.0)
+    numd = np.concatenate([np.zeros(order + 1 - numd.size), numd])
+    return numd.astype(float), dend.astype(float)
 
 
 @dataclass(frozen=True)
@@ -560,235 +561,6 @@ def difference_equation(numd, dend, digits: int = 8) -> DifferenceEquation:
             parts.append(f" {'-' if coef < 0 else '+'} {mag} {sym}")
     text = "u[k] = " + ("".join(parts) if parts else "0")
     return DifferenceEquation(b=tuple(float(x) for x in b), a=tuple(float(x) for x in a), text=text)
-
-
-def _realise(num: np.ndarray, den: np.ndarray):
-    """Controllable companion realisation (A, B, C, D) of a proper num/den."""
-    a = den / den[0]
-    n = a.size - 1
-    b = np.concatenate([np.zeros(a.size - num.size), num / den[0]])
-    D = b[0]
-    cvec = b[1:] - D * a[1:]
-    A = np.zeros((n, n))
-    A[0, :] = -a[1:]
-    A[1:, :-1] = np.eye(n - 1) if n > 1 else A[1:, :-1]
-    B = np.zeros(n)
-    B[0] = 1.0
-    return A, B, cvec, D
-
-
-def _hold_integrals(A: np.ndarray, B: np.ndarray, h: float):
-    """``(expm(A h), int_0^h expm(A t) dt B)`` from one augmented exponential."""
-    from scipy.linalg import expm
-
-    n = A.shape[0]
-    M = np.zeros((n + 1, n + 1))
-    M[:n, :n] = A * h
-    M[:n, n] = B * h
-    E = expm(M)
-    return E[:n, :n], E[:n, n]
-
-
-def zoh_discretise(num, den, T: float, dead_time: float = 0.0
-                   ) -> tuple[np.ndarray, np.ndarray]:
-    """Discretise a plant driven through a zero-order hold.
-
-    Parameters
-    ----------
-    num, den : array_like
-        Proper ``G(s)``, descending powers of ``s``.
-    T : float
-        Sample time in seconds, ``> 0``.
-    dead_time : float, optional
-        Exact input delay in seconds, ``>= 0``. Whole sample periods become
-        poles at ``z = 0``; a fractional part is handled exactly by splitting
-        the hold interval (modified z-transform).
-
-    Returns
-    -------
-    numd, dend : numpy.ndarray
-        ``G(z)`` in descending powers of ``z``, ``dend`` monic; the numerator
-        has leading exact zeros trimmed. No factor is cancelled.
-
-    Notes
-    -----
-    A companion realisation ``(A, B, C, D)`` is built and
-    ``Phi = expm(A T)``, ``Gamma = int_0^T expm(A t) dt B`` are read from the
-    exponential of the augmented matrix ``[[A, B], [0, 0]] T``. The poles map
-    as ``z = exp(s T)``; the numerator follows from the Markov parameters
-    ``h_k = C Phi^(k-1) Gamma`` by ``b_j = sum_i a_i h_(j-i)``
-    (Cayley-Hamilton), which avoids subtracting two nearly equal
-    characteristic polynomials when ``T`` is small.
-
-    References
-    ----------
-    .. [1] G. F. Franklin, J. D. Powell and M. L. Workman, *Digital Control of
-       Dynamic Systems*, 3rd ed., Addison-Wesley, 1998, ch. 4 (zero-order-hold
-       equivalent, fractional delay), from memory.
-    .. [2] C. F. Van Loan, "Computing integrals involving the matrix
-       exponential", IEEE Trans. Automatic Control, 23(3), 1978.
-    """
-    T = _positive_time(T)
-    if isinstance(dead_time, bool) or not isinstance(dead_time, numbers.Real) or not math.isfinite(
-            dead_time) or dead_time < 0:
-        raise InputError(f"the dead time must be a finite number >= 0, got {dead_time!r}")
-    n = coefficients(num, "the plant numerator")
-    d = coefficients(den, "the plant denominator", allow_zero=False)
-    if n.size > d.size:
-        raise InputError("the plant is improper (numerator degree above denominator)")
-    whole = math.floor(dead_time / T + 1e-12)
-    frac = dead_time - whole * T
-    if frac <= 1e-12 * T:
-        frac = 0.0
-    order = d.size - 1
-    if order == 0:
-        gain = n[0] / d[0]
-        bcoef = np.array([gain]) if frac == 0 else np.array([0.0, gain])
-        acoef = np.array([1.0]) if frac == 0 else np.array([1.0, 0.0])
-    else:
-        A, B, C, D = _realise(n, d)
-        a_poly = np.real(np.poly(np.exp(np.roots(d) * T)))
-        if frac == 0.0:
-            Phi, G0 = _hold_integrals(A, B, T)
-            G1 = np.zeros(order)
-            acoef = a_poly
-        else:
-            Phi_a, G0 = _hold_integrals(A, B, T - frac)
-            Phi_b, gb = _hold_integrals(A, B, frac)
-            G1 = Phi_a @ gb
-            Phi = Phi_a @ Phi_b
-            acoef = np.append(a_poly, 0.0)  # the held sample one period back
-        length = acoef.size
-        # Markov parameters h_0..h_(length-1) of C (zI - Phi)^-1 (G0 + G1/z) (+ D)
-        h = np.zeros(length)
-        v0, v1 = G0.copy(), G1.copy()
-        for k in range(1, length):
-            h[k] = C @ v0 + (C @ v1 if k >= 2 else 0.0)
-            if k >= 2:
-                v1 = Phi @ v1
-            v0 = Phi @ v0
-        # feedthrough arrives undelayed, or one sample late with a fractional delay
-        if frac == 0.0:
-            h[0] += D
-        else:
-            h[1] += D
-        bcoef = np.convolve(acoef, h)[:length]
-    numd = coefficients(bcoef, "numerator")
-    dend = np.concatenate([acoef, np.zeros(whole)])
-    return numd, dend
-
-
-
-@dataclass(frozen=True)
-class SampledLoopCheck:
-    """Verdict on the sampled loop ``Cd(z) G(z)`` under unity negative feedback.
-
-    Attributes
-    ----------
-    stable : bool
-        Every root of the unreduced characteristic polynomial lies strictly
-        inside the unit circle (a root within 1e-10 of it counts as on it).
-    spectral_radius : float
-        Largest root magnitude.
-    overshoot_percent : float or None
-        Unit-step overshoot at the sampling instants, against the final
-        value; ``None`` when the loop is unstable or its final value is 0.
-        Ripple between samples is not seen here.
-    final_value : float or None
-        Closed-loop static gain ``T(1)``; ``None`` when unstable.
-    characteristic : tuple of float
-        ``den_C den_G + num_C num_G`` in descending powers of ``z``.
-    sample_time : float
-        The sample time in seconds.
-    """
-
-    stable: bool
-    spectral_radius: float
-    overshoot_percent: float | None
-    final_value: float | None
-    characteristic: tuple[float, ...]
-    sample_time: float
-
-    def to_json(self) -> dict:
-        """Mapping with the same names; ``characteristic`` as a list."""
-        return {"stable": self.stable, "spectral_radius": self.spectral_radius,
-                "overshoot_percent": self.overshoot_percent, "final_value": self.final_value,
-                "characteristic": list(self.characteristic), "sample_time": self.sample_time}
-
-
-def _pad_add(p: np.ndarray, q: np.ndarray) -> np.ndarray:
-    n = max(p.size, q.size)
-    return np.pad(p, (n - p.size, 0)) + np.pad(q, (n - q.size, 0))
-
-
-def sampled_loop_check(plant_numd, plant_dend, c_numd, c_dend, T: float) -> SampledLoopCheck:
-    """Stability and step overshoot of the sampled loop.
-
-    Parameters
-    ----------
-    plant_numd, plant_dend : array_like
-        The plant discretised by a zero-order hold (:func:`zoh_discretise`),
-        descending powers of ``z``.
-    c_numd, c_dend : array_like
-        The discrete compensator (:func:`tustin_prewarp`).
-    T : float
-        Sample time in seconds, ``> 0``.
-
-    Returns
-    -------
-    SampledLoopCheck
-
-    Notes
-    -----
-    The characteristic polynomial ``den_C den_G + num_C num_G`` is formed
-    without cancelling common factors (the loop convention of the contract),
-    and its roots come from :func:`numpy.roots`. The step response of
-    ``num_C num_G / characteristic`` is computed by the recursion of
-    :func:`scipy.signal.lfilter` for as many samples as the slowest mode
-    needs to decay to 1e-9 (at most 200 000).
-
-    References
-    ----------
-    .. [1] G. F. Franklin, J. D. Powell and M. L. Workman, *Digital Control of
-       Dynamic Systems*, 3rd ed., Addison-Wesley, 1998, ch. 4 (stability of
-       sampled systems), from memory.
-    """
-    from scipy.signal import lfilter
-
-    T = _positive_time(T)
-    gn = coefficients(plant_numd, "the discrete plant numerator")
-    gd = coefficients(plant_dend, "the discrete plant denominator", allow_zero=False)
-    cn = coefficients(c_numd, "the discrete compensator numerator")
-    cd = coefficients(c_dend, "the discrete compensator denominator", allow_zero=False)
-    open_den = np.convolve(cd, gd)
-    open_num = np.convolve(cn, gn)
-    if open_num.size > open_den.size:
-        raise InputError("the sampled loop is not causal (loop numerator degree above denominator)")
-    char = _pad_add(open_den, open_num)
-    # leading terms that cancel to rounding level are exact zeros
-    terms = _pad_add(np.abs(open_den), np.abs(open_num))
-    char[np.abs(char) <= 1e-13 * terms] = 0.0
-    if char[0] == 0:
-        raise InputError("the sampled loop is ill-posed: 1 + C(z) G(z) vanishes at z = infinity")
-    roots = np.roots(char)
-    rho = float(np.max(np.abs(roots))) if roots.size else 0.0
-    stable = rho < 1.0 - _UNIT_CIRCLE_TOL
-    overshoot = final = None
-    if stable:
-        b = np.pad(open_num, (char.size - open_num.size, 0))
-        final = float(np.sum(b) / np.sum(char))
-        if rho > 0:
-            steps = int(np.clip(math.ceil(math.log(1e-9) / math.log(rho)), 0, 200_000))
-        else:
-            steps = 0
-        steps += 4 * char.size + 20
-        y = lfilter(b, char, np.ones(steps))
-        if final != 0:
-            excess = np.max(y * math.copysign(1.0, final)) - abs(final)
-            overshoot = float(max(0.0, excess) / abs(final) * 100.0)
-    return SampledLoopCheck(stable=bool(stable), spectral_radius=rho,
-                            overshoot_percent=overshoot, final_value=final,
-                            characteristic=tuple(float(x) for x in char), sample_time=T)
 
 
 def sample_rate_warning(T: float, bandwidth_rad_s: float) -> str | None:

@@ -1,42 +1,53 @@
-"""A small progress bar for long runs: drawn on a terminal, silent when piped."""
+"""A progress bar for long runs: drawn by rich on a terminal, silent when piped.
+
+The library reports progress through a plain callback, ``progress(done,
+total, label)`` (``synth.design.run_design(problem, progress=...)``); this
+module turns it into a bar.  rich is imported only when there is a terminal
+to draw on, so ``synth --help`` and piped runs never load it.
+"""
 
 from __future__ import annotations
 
 import sys
-import time
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
+
+__all__ = ["ProgressFn", "terminal_progress"]
 
 ProgressFn = Callable[[float, float, str], None]
 
 
 @contextmanager
-def terminal_progress(title: str, stream=None, width: int = 28) -> Iterator[ProgressFn | None]:
+def terminal_progress(title: str, stream=None) -> Iterator[ProgressFn | None]:
     """Yield a ``progress(done, total, label)`` callback, or ``None`` when not on a terminal.
 
-    The bar redraws at most ten times a second on standard error and is wiped
-    when the block ends, so the printed results start on a clean line.
+    Parameters
+    ----------
+    title : str
+        Shown before the bar.
+    stream : file, optional
+        Where to draw (default standard error); nothing is drawn unless it is a
+        terminal, so piped output never holds control codes.
+
+    Notes
+    -----
+    The bar is transient: it is wiped when the block ends, so the printed
+    results start on a clean line.  The elapsed time it shows is for the eye
+    only; no result depends on it.
     """
     out = stream if stream is not None else sys.stderr
     if not (hasattr(out, "isatty") and out.isatty()):
         yield None
         return
-    last = [0.0]
-    start = time.monotonic()
+    from rich.console import Console
+    from rich.progress import BarColumn, Progress, TaskProgressColumn, TextColumn, TimeElapsedColumn
 
-    def progress(done: float, total: float, label: str = "") -> None:
-        now = time.monotonic()
-        if now - last[0] < 0.1 and done < total:
-            return
-        last[0] = now
-        frac = 0.0 if total <= 0 else min(1.0, max(0.0, done / total))
-        filled = int(round(frac * width))
-        bar = "#" * filled + "." * (width - filled)
-        out.write(f"\r{title} [{bar}] {100 * frac:3.0f}% {now - start:5.1f}s {label[:30]:<30}")
-        out.flush()
+    bar = Progress(TextColumn(title), BarColumn(), TaskProgressColumn(), TimeElapsedColumn(),
+                   TextColumn("{task.description}"), console=Console(file=out), transient=True)
+    with bar:
+        task = bar.add_task("", total=None)
 
-    try:
+        def progress(done: float, total: float, label: str = "") -> None:
+            bar.update(task, completed=done, total=total, description=label[:30])
+
         yield progress
-    finally:
-        out.write("\r" + " " * (width + 80) + "\r")
-        out.flush()

@@ -4,6 +4,9 @@ A requirements file (format 1, see ``docs/requirements-file.md``) has three
 tables: ``[plant]``, ``[requirements]`` and ``[search]``.  Everything is
 validated strictly: unknown keys, wrong types, non-finite numbers and values
 out of range raise :class:`synth.errors.InputError` naming the file and key.
+The ``[requirements]`` keys, their allowed values and their meaning come from
+the requirement catalogue (:mod:`synth.problem.catalogue`); this module only
+applies its value specs.
 
 Time-domain requirements map to a region of the s-plane
 ``R = {Re s <= -sigma} ∩ {damping >= zeta}``:
@@ -33,6 +36,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from synth.errors import InputError
+from synth.problem.catalogue import REQUIREMENTS, RangeSpec, Requirement, requirement_for
 from synth.problem.limits import (
     MAX_MAGNITUDE,
     MAX_NESTING,
@@ -66,50 +70,99 @@ _PLANT_KEYS = {"label", "numerator", "denominator", "zeros", "poles", "gain", "e
                "dead_time", "dead_time_order", "step_test"}
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, init=False)
 class Requirements:
-    """The ``[requirements]`` table; ``None`` means "not required"."""
+    """The ``[requirements]`` table: the keys the file set, by the catalogue.
 
-    max_overshoot_percent: float | None = None
-    max_settling_time: float | None = None
-    settling_band_percent: float = 2.0
-    min_damping_ratio: float | None = None
-    max_rise_time: float | None = None
-    max_steady_state_error: float | None = None
-    plant_gain_range: tuple[float, float] | None = None
-    gain_range: tuple[float, float] | None = None
-    min_phase_margin_deg: float | None = None
-    min_gain_margin_db: float | None = None
-    max_peak_sensitivity: float | None = None
-    max_control_effort: float | None = None
+    Build it with keyword arguments named by file key
+    (``Requirements(max_overshoot_percent=10.0)``); read a value by key as an
+    attribute (``None`` when not required; a setting gives its default) or,
+    in code that is about a metric rather than a key, with :meth:`limit`.
+    Which keys exist and what they mean is :data:`synth.problem.catalogue.REQUIREMENTS`.
+
+    Attributes
+    ----------
+    items : tuple of (str, object)
+        The given keys and values, in catalogue order.
+    """
+
+    items: tuple[tuple[str, Any], ...]
+
+    def __init__(self, **values: Any) -> None:
+        unknown = [k for k in values if k not in REQUIREMENTS]
+        if unknown:
+            raise TypeError(f"Requirements got unknown keys {unknown}")
+        items = tuple((k, values[k]) for k in REQUIREMENTS if values.get(k) is not None)
+        object.__setattr__(self, "items", items)
+
+    def __getattr__(self, name: str) -> Any:
+        # only catalogue keys; anything else (including pickling's probes) is missing
+        entry = REQUIREMENTS.get(name)
+        if entry is None or name.startswith("_"):
+            raise AttributeError(name)
+        return self.value(name)
+
+    def value(self, key: str) -> Any:
+        """The file's value of ``key`` (a setting's default when not given; else ``None``)."""
+        for k, v in self.__dict__.get("items", ()):
+            if k == key:
+                return v
+        return REQUIREMENTS[key].default
+
+    def limit(self, metric: str) -> Any:
+        """The limit the file sets on a metric (by metric key), ``None`` when there is none."""
+        entry = requirement_for(metric)
+        return None if entry is None else self.value(entry.key)
+
+    def limits(self) -> tuple[tuple[Requirement, Any], ...]:
+        """``(entry, value)`` of every limit the file sets (settings left out), in catalogue order."""
+        return tuple((REQUIREMENTS[k], v) for k, v in self.items
+                     if REQUIREMENTS[k].kind != "setting")
+
+    @property
+    def settling_band(self) -> float:
+        """The settling band in percent (the setting that belongs to the settling-time limit)."""
+        (entry,) = (r for r in REQUIREMENTS.values() if r.setting_of
+                    and REQUIREMENTS[r.setting_of].metric == "settling_time")
+        return float(self.value(entry.key))
 
     def region(self) -> Region:
-        """The s-plane region implied by the overshoot, damping and settling limits."""
+        """The s-plane region implied by the limits that shape it (the catalogue's ``region``).
+
+        The least damping is the largest that any overshoot or damping limit
+        asks for; the least decay rate comes from the settling-time limit.
+        """
         zeta = 0.0
-        if self.max_overshoot_percent is not None:
-            zeta = max(zeta, damping_from_overshoot(self.max_overshoot_percent))
-        if self.min_damping_ratio is not None:
-            zeta = max(zeta, self.min_damping_ratio)
         sigma = 0.0
-        if self.max_settling_time is not None:
-            sigma = decay_rate_from_settling(self.max_settling_time, self.settling_band_percent)
+        for entry, limit in self.limits():
+            if entry.region == "overshoot":
+                zeta = max(zeta, damping_from_overshoot(limit))
+            elif entry.region == "damping":
+                zeta = max(zeta, limit)
+            elif entry.region == "settling":
+                sigma = decay_rate_from_settling(limit, self.settling_band)
         return Region(sigma=sigma, zeta=min(zeta, 0.999999))
 
     def given(self) -> dict[str, Any]:
-        """The keys the file set (band only when another key needs it), as plain JSON values."""
+        """The limits the file set, with the settings that shape them, as plain JSON values.
+
+        A setting appears (with its default when the file leaves it out)
+        exactly when the requirement it belongs to is set.
+        """
+        keys = {k for k, _ in self.items}
         out = {}
-        for name in _REQ_SPEC:
-            v = getattr(self, name)
-            if name == "settling_band_percent" and self.max_settling_time is None:
-                continue
+        for key, entry in REQUIREMENTS.items():
+            if entry.setting_of is not None:
+                v = self.value(key) if entry.setting_of in keys else None
+            else:
+                v = self.value(key)
             if v is not None:
-                out[name] = list(v) if isinstance(v, tuple) else v
+                out[key] = list(v) if isinstance(v, tuple) else v
         return out
 
     @property
     def is_empty(self) -> bool:
-        return not any(getattr(self, n) is not None for n in _REQ_SPEC
-                       if n != "settling_band_percent")
+        return not self.limits()
 
 
 @dataclass(frozen=True)
@@ -198,22 +251,12 @@ def _range(v, src, key, *, positive=False):
     return (lo, hi)
 
 
-# name -> validator(value, src, key)
-_REQ_SPEC = {
-    # 0 is a real requirement ("no overshoot"): the region then asks for real poles
-    "max_overshoot_percent": lambda v, s, k: _num(v, s, k, lo=0, hi=100, hi_open=True),
-    "max_settling_time": lambda v, s, k: _num(v, s, k, lo=0, lo_open=True),
-    "settling_band_percent": lambda v, s, k: _num(v, s, k, lo=0, lo_open=True, hi=50),
-    "min_damping_ratio": lambda v, s, k: _num(v, s, k, lo=0, lo_open=True, hi=1, hi_open=True),
-    "max_rise_time": lambda v, s, k: _num(v, s, k, lo=0, lo_open=True),
-    "max_steady_state_error": lambda v, s, k: _num(v, s, k, lo=0, hi=1),
-    "plant_gain_range": lambda v, s, k: _range(v, s, k, positive=True),
-    "gain_range": lambda v, s, k: _range(v, s, k),
-    "min_phase_margin_deg": lambda v, s, k: _num(v, s, k, lo=0, lo_open=True, hi=180, hi_open=True),
-    "min_gain_margin_db": lambda v, s, k: _num(v, s, k, lo=0, lo_open=True),
-    "max_peak_sensitivity": lambda v, s, k: _num(v, s, k, lo=1),
-    "max_control_effort": lambda v, s, k: _num(v, s, k, lo=0, lo_open=True),
-}
+def _check_value(spec, v, src, key):
+    """Validate one requirement value by its catalogue spec."""
+    if isinstance(spec, RangeSpec):
+        return _range(v, src, key, positive=spec.positive)
+    return _num(v, src, key, lo=spec.lo, hi=spec.hi, lo_open=spec.lo_open,
+                hi_open=spec.hi_open, integer=spec.integer)
 
 
 def _structures(v, src, key):
@@ -345,12 +388,12 @@ def _rates(plant: Plant, req: Requirements) -> dict[str, float]:
         # the Pade poles of exp(-sT) are those of exp(-s) divided by T (no powers of T formed)
         unit = np.abs(np.roots(pade(1.0, plant.pade_order)[1]))
         put("plant.dead_time", unit / plant.dead_time)
-    if req.max_settling_time is not None:
-        put("requirements.max_settling_time",
-            [math.log(100.0 / req.settling_band_percent) / req.max_settling_time])
-    if req.max_rise_time is not None:
-        # 10-90 % rise time of a first-order lag is ln(9) times its time constant
-        put("requirements.max_rise_time", [math.log(9.0) / req.max_rise_time])
+    for metric, rate in (("settling_time", lambda ts: math.log(100.0 / req.settling_band) / ts),
+                         # 10-90 % rise time of a first-order lag is ln(9) times its time constant
+                         ("rise_time", lambda tr: math.log(9.0) / tr)):
+        limit = req.limit(metric)
+        if limit is not None:
+            put(f"requirements.{requirement_for(metric).key}", [rate(limit)])
     return rates
 
 
@@ -397,8 +440,9 @@ def parse_problem(doc: dict, source: str = "<string>", *, read_data=None) -> Pro
     plant = _parse_plant(_table(doc, "plant", src), src, read_data)
 
     rt = _table(doc, "requirements", src)
-    _unknown(rt, set(_REQ_SPEC), src, "requirements.")
-    req = Requirements(**{k: _REQ_SPEC[k](v, src, f"requirements.{k}") for k, v in rt.items()})
+    _unknown(rt, set(REQUIREMENTS), src, "requirements.")
+    req = Requirements(**{k: _check_value(REQUIREMENTS[k].value, v, src, f"requirements.{k}")
+                          for k, v in rt.items()})
 
     st = _table(doc, "search", src)
     _unknown(st, set(_SEARCH_SPEC), src, "search.")

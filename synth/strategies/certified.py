@@ -174,7 +174,7 @@ def affine_loop(problem, family, fixed, sign: int = 1) -> AffineLoop:
     form = family.conic_form(tuple(fixed), w)
     if isinstance(form, NotSupported):
         raise StrategyDeclined(form.reason)
-    gr = problem.requirements.gain_range
+    gr = problem.requirements.limit("gain")
     gmax = None
     if gr is not None:
         gmax = float(gr[1]) if sign > 0 else -float(gr[0])

@@ -68,8 +68,10 @@ __all__ = ["ORIGIN", "STRATEGY", "EvolveStrategy", "SearchObjective"]
 ORIGIN = "search"
 
 #: Safety factors applied to the limits inside the search, so that designs
-#: estimated feasible on the coarse grids survive the exact verification.
+#: estimated feasible on the coarse grids survive the exact verification
+#: (:meth:`synth.problem.catalogue.Requirement.search_limit`).
 _TIGHTEN = 0.95
+_WIDEN = 1.02
 #: Points of the modal step-response grid and of the frequency grid.
 _T_POINTS = 240
 _W_POINTS = 160
@@ -87,6 +89,12 @@ _N_POLISH = 2
 _N_PRIOR_POLISH = 3
 _POLISH_ITERATIONS = 30
 _POLISH_STEP = 0.02
+
+
+#: The scalar metrics the objective estimates (metric keys of the design JSON).
+_ESTIMATED = ("overshoot_percent", "settling_time", "rise_time", "steady_state_error",
+              "peak_control_effort", "peak_sensitivity", "phase_margin_deg", "gain_margin_db",
+              "min_damping_ratio")
 
 
 def _pad_to(P, width):
@@ -128,20 +136,6 @@ def _first_crossing(t, z, level):
     return np.where(any_hit, tt, np.inf)
 
 
-@dataclass(frozen=True)
-class _Limits:
-    overshoot: float | None
-    settling: float | None
-    rise: float | None
-    sse: float | None
-    zeta: float | None
-    pm: float | None
-    gm_db: float | None
-    ms: float | None
-    effort: float | None
-    plant_range: tuple[float, float] | None
-
-
 class SearchObjective:
     """Vectorised objective of one family for one problem (see the module docstring).
 
@@ -159,21 +153,12 @@ class SearchObjective:
         self.gden = plant.den
         self.region = problem.region
         req = problem.requirements
-        self.band = req.settling_band_percent / 100.0
-        t = _TIGHTEN
-        self.lim = _Limits(
-            overshoot=None if req.max_overshoot_percent is None else t * req.max_overshoot_percent,
-            settling=None if req.max_settling_time is None else t * req.max_settling_time,
-            rise=None if req.max_rise_time is None else t * req.max_rise_time,
-            sse=None if req.max_steady_state_error is None else t * req.max_steady_state_error,
-            zeta=None if req.min_damping_ratio is None else min(0.9999, req.min_damping_ratio / t),
-            pm=None if req.min_phase_margin_deg is None else min(179.0, req.min_phase_margin_deg / t),
-            gm_db=None if req.min_gain_margin_db is None else req.min_gain_margin_db / t,
-            ms=None if req.max_peak_sensitivity is None else 1.0 + t * (req.max_peak_sensitivity - 1.0),
-            effort=None if req.max_control_effort is None else t * req.max_control_effort,
-            plant_range=None if req.plant_gain_range is None else
-            (req.plant_gain_range[0] / 1.02, req.plant_gain_range[1] * 1.02),
-        )
+        self.band = req.settling_band / 100.0
+        # the limits the search aims for: the file's, tightened by the catalogue's rule so
+        # that designs estimated feasible on the coarse grids survive the exact verification;
+        # a structure's own limits (the gain range) are the family's bounds already
+        self.targets = tuple((entry, entry.search_limit(limit, _TIGHTEN, _WIDEN))
+                             for entry, limit in req.limits() if entry.concerns != "structure")
         sp = family.space
         self.w_char = sp.w_char
         lo = max(sp.w_min, sp.w_char * 1e-3)
@@ -194,9 +179,9 @@ class SearchObjective:
         self.g_jw = plant.evaluate(1j * self.w, exact_delay=True)
         self.tau = np.linspace(0.0, 1.0, _T_POINTS) ** 2
         self.refs = reference_scales(problem)
-        self.ts_floor = req.max_settling_time
-        self.range_factors = (None if self.lim.plant_range is None
-                              else np.geomspace(*self.lim.plant_range, 3))
+        self.ts_floor = req.limit("settling_time")
+        ranges = [aim for entry, aim in self.targets if entry.kind == "contain"]
+        self.range_factors = np.geomspace(*ranges[0], 3) if ranges else None
 
     # -- the pieces ---------------------------------------------------------------
     def _loop(self, X):
@@ -223,8 +208,8 @@ class SearchObjective:
         stable = finite & np.all(re < 0, axis=1) & _in_region(char, Region())
         unstable_part = np.sum(np.maximum(np.nan_to_num(re, posinf=1e6), 0.0), axis=1)
 
-        out = {k: np.full(B, np.nan) for k in ("overshoot", "settling", "rise", "sse", "effort",
-                                               "ms", "pm", "gm_db", "zeta", "lo", "hi")}
+        out = {k: np.full(B, np.nan) for k in _ESTIMATED}
+        out["stable_plant_gain_range"] = np.full((B, 2), np.nan)
         short = np.zeros(B)
         idx = np.flatnonzero(stable)
         if idx.size:
@@ -234,7 +219,7 @@ class SearchObjective:
             # closed-loop damping and region shaping
             mag = np.abs(r)
             zeta = np.min(-r.real / np.maximum(mag, 1e-300), axis=1, initial=1.0)
-            out["zeta"][idx] = zeta
+            out["min_damping_ratio"][idx] = zeta
             reg_short = np.sum(np.maximum(-self.region.margin(r), 0.0), axis=1) / self.w_char
             # modal step response of y and u
             n = ch.shape[1] - 1
@@ -292,46 +277,29 @@ class SearchObjective:
                 hi = np.min(np.where(pcross & (lmag < 1), inv, np.inf), axis=1)
                 lo = np.max(np.where(pcross & (lmag > 1), inv, 0.0), axis=1)
                 gm_db = 20 * np.log10(hi)
-            out["overshoot"][idx] = os_
-            out["settling"][idx] = ts
-            out["rise"][idx] = tr
-            out["sse"][idx] = sse
-            out["effort"][idx] = eff
-            out["ms"][idx] = ms
-            out["pm"][idx] = pm
-            out["gm_db"][idx] = gm_db
-            out["lo"][idx] = lo
-            out["hi"][idx] = hi
+            est = {"overshoot_percent": os_, "settling_time": ts, "rise_time": tr,
+                   "steady_state_error": sse, "peak_control_effort": eff,
+                   "peak_sensitivity": ms, "phase_margin_deg": pm, "gain_margin_db": gm_db,
+                   "min_damping_ratio": zeta, "stable_plant_gain_range": (lo, hi)}
+            for key in _ESTIMATED:
+                out[key][idx] = est[key]
+            out["stable_plant_gain_range"][idx] = np.column_stack([lo, hi])
 
-            lim = self.lim
+            # penalties: the catalogue's normalised shortfall of each estimate against
+            # its tightened limit, in catalogue order
             sh = np.zeros(idx.size)
-            if lim.overshoot is not None:
-                sh += np.maximum(os_ - lim.overshoot, 0) / max(lim.overshoot, 1.0)
-            if lim.settling is not None:
-                sh += np.maximum(ts - lim.settling, 0) / lim.settling
-            if lim.rise is not None:
-                sh += np.minimum(np.maximum(tr - lim.rise, 0) / lim.rise, 10.0)
-            if lim.sse is not None:
-                sh += np.maximum(sse - lim.sse, 0) / max(lim.sse, 0.01)
-            if lim.zeta is not None:
-                sh += np.maximum(lim.zeta - zeta, 0) / lim.zeta
-            if lim.pm is not None:
-                sh += np.maximum(lim.pm - np.minimum(pm, 180.0), 0) / lim.pm
-            if lim.gm_db is not None:
-                sh += np.maximum(lim.gm_db - np.minimum(gm_db, 1e3), 0) / lim.gm_db
-            if lim.ms is not None:
-                sh += np.maximum(ms - lim.ms, 0) / lim.ms
-            if lim.effort is not None:
-                sh += np.maximum(eff - lim.effort, 0) / lim.effort
-            if lim.plant_range is not None:
-                fails = np.zeros(idx.size)
-                for k in self.range_factors:
-                    fails += ~_in_region(dl + k * nl, Region())
-                a, b = lim.plant_range
-                with np.errstate(all="ignore"):
+            for entry, aim in self.targets:
+                if entry.kind == "contain":
+                    # the estimated interval comes from crossings on a coarse grid: also
+                    # count the test factors at which the eigenvalue-free kernel fails
+                    fails = np.zeros(idx.size)
+                    for k in self.range_factors:
+                        fails += ~_in_region(dl + k * nl, Region())
                     sh += fails / self.range_factors.size
-                    sh += np.maximum(np.log(b / hi), 0) + np.where(lo > 0, np.maximum(
-                        np.log(np.maximum(lo, 1e-300) / a), 0), 0)
+                pen = entry.shortfall(est[entry.metric], aim)
+                if entry.cap is not None:
+                    pen = np.minimum(pen, entry.cap)
+                sh += pen
             sh = np.where(ok, sh, 5.0)
             feas = sh <= 0
             sc = score_arrays(ms, lo, hi, ts, eff, self.family.n_params, self.refs,

@@ -18,7 +18,9 @@ section with its derivative filter).  Which construction makes which
 structure lives with the family (``synth/families/<name>.py``).
 
 The gain sign is the one that can make the closed loop's constant term
-positive (Routh's necessary condition), unless ``gain_range`` excludes it.
+positive (Routh's necessary condition), unless the allowed gain range excludes it.
+Lead sections read the deficiency modulo 360 deg (a wrapped -165 deg is
+195 deg of lead, beyond one section).
 
 Work.  One work unit is one construction (a compensator whose gain comes
 from the magnitude condition); a family gets ``context.work`` of them, far
@@ -200,8 +202,8 @@ def target_points(problem) -> list[Target]:
     for zt in dampings:
         sig = region.sigma
         basis = "settling time" if sig > 0 else ""
-        if req.max_rise_time is not None and zt * 1.8 / req.max_rise_time > sig:
-            sig = zt * 1.8 / req.max_rise_time
+        if req.limit("rise_time") is not None and zt * 1.8 / req.limit("rise_time") > sig:
+            sig = zt * 1.8 / req.limit("rise_time")
             basis = "rise time"
         if sig > 0:
             wns = [k * sig / zt for k in _SPEED_STEPS]
@@ -256,7 +258,7 @@ def static_gain_need(problem, num, den) -> tuple[float | None, str]:
     why : str
         Why it is None ("" otherwise).
     """
-    e = problem.requirements.max_steady_state_error
+    e = problem.requirements.limit("steady_state_error")
     if e is None:
         return None, "no steady-state error requirement"
     if _loop_type(den) >= 1:
@@ -273,7 +275,7 @@ def _dc(num, den) -> float:
 
 
 def _limits(problem):
-    gr = problem.requirements.gain_range
+    gr = problem.requirements.limit("gain")
     lo, hi = (None, None) if gr is None else (float(gr[0]), float(gr[1]))
     return lo, hi, float(problem.search.max_frequency)
 
@@ -296,7 +298,7 @@ def gain_signs(problem) -> tuple[int, ...]:
     """Gain signs to try: the one giving negative feedback at low frequency (common
     practice), the other only when the gain range excludes it."""
     want = _static_sign(problem.plant.num, problem.plant.den)
-    gr = problem.requirements.gain_range
+    gr = problem.requirements.limit("gain")
     if gr is None:
         return (want,)
     allowed = [sg for sg in (1, -1) if (gr[1] > 0 if sg > 0 else gr[0] < 0)]
@@ -698,7 +700,7 @@ def shortlist(problem, designs, limit: int = MAX_CANDIDATES) -> list[Placement]:
     Screened with the eigenvalue-free kernel (:func:`synth.verify.screen_batch`):
     designs with every closed-loop pole in the region and stable over the
     plant-gain range come first, then stable ones, then the rest (with the
-    designs whose gain alone exceeds ``max_control_effort``); inside a
+    designs whose gain alone exceeds the effort limit); inside a
     class the targets take turns (each target's first construction before
     any target's second), so the list covers the targets evenly.
     """
@@ -714,7 +716,7 @@ def shortlist(problem, designs, limit: int = MAX_CANDIDATES) -> list[Placement]:
     scr = screen_batch(problem, nums, dens)
     klass = np.where(scr.in_region & scr.plant_range_ok, 0,
                      np.where(scr.stable & scr.plant_range_ok, 1, np.where(scr.stable, 2, 3)))
-    u_max = problem.requirements.max_control_effort
+    u_max = problem.requirements.limit("peak_control_effort")
     if u_max is not None:
         # a biproper compensator's output jumps to K at the step: |K| bounds the peak
         klass = np.where(np.array([abs(d.gain) > u_max for d in designs]), 3, klass)

@@ -4,27 +4,33 @@ The package splits the work the way the data flows:
 
 * :mod:`synth.verify.loop` - the unreduced loop and characteristic polynomials;
 * :mod:`synth.verify.screening` - cheap batched screens for searches;
-* :mod:`synth.verify.simulation` - time responses (exact dead time);
-* :mod:`synth.verify.frequency` - margins and sensitivity peaks;
-* :mod:`synth.verify.verdict` - :func:`verify` and the :class:`Verdict`.
+* :mod:`synth.verify.simulation` - the one step simulation (exact dead time) and realisation;
+* :mod:`synth.verify.frequency` - the one frequency grid, margins, sensitivity peak, bandwidth;
+* :mod:`synth.verify.verdict` - :func:`verify` and the :class:`Verdict` (limits by the catalogue);
+* :mod:`synth.verify.curves` - what outputs draw (:func:`~synth.verify.curves.curves`);
+* :mod:`synth.verify.sampled` - the sampled loop behind a zero-order hold;
+* :mod:`synth.verify.same` - the one "same design" rule.
 """
 
 from synth.numerics.poly import batch_polymul
-from synth.verify.frequency import frequency_metrics
+from synth.verify.frequency import LoopFrequency, frequency_metrics, loop_frequency
 from synth.verify.loop import loop_polynomials
 from synth.verify.screening import ScreenResult, screen_batch
-from synth.verify.simulation import StepResponse, step_metrics, step_response
+from synth.verify.simulation import StepResponse, simulate_step, step_metrics, step_response
 from synth.verify.verdict import METRIC_KEYS, Verdict, verify
 
 __all__ = [
     "METRIC_KEYS",
+    "LoopFrequency",
     "ScreenResult",
     "StepResponse",
     "Verdict",
     "batch_polymul",
     "frequency_metrics",
+    "loop_frequency",
     "loop_polynomials",
     "screen_batch",
+    "simulate_step",
     "step_metrics",
     "step_response",
     "verify",

@@ -1,27 +1,84 @@
-"""Frequency-domain verdicts: gain, phase and delay margins and the peak sensitivity.
+"""Frequency-domain verdicts and curves: margins, sensitivity peak, crossovers, bandwidth.
 
-Computed on ``L(jw)`` with the exact dead time, on a logarithmic grid over the
-loop's corner frequencies refined at every crossing (see :func:`frequency_metrics`).
+Computed on ``L(jw)`` with the exact dead time, on :func:`frequency_grid`
+(logarithmic over the loop's corner frequencies, dense around lightly damped
+roots) refined at every crossing by :func:`scipy.optimize.brentq`.
+:func:`frequency_metrics` gives the verdict's numbers;
+:func:`loop_frequency` adds what outputs draw (the curve ``L(jw)``, the phase
+crossovers, the closed-loop bandwidth, the frequency of the sensitivity peak).
 
 References
 ----------
 K. J. Astrom and R. M. Murray, *Feedback Systems*, Princeton University Press,
-2008, ch. 9-10 (Nyquist criterion, stability margins, sensitivity peak).
+2008, ch. 9-10 (Nyquist criterion, stability margins, sensitivity peak,
+bandwidth).
 """
 
 from __future__ import annotations
 
 import cmath
 import math
+from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
 
 from synth.numerics.poly import scaled_roots, trim
 
+__all__ = ["LoopFrequency", "frequency_grid", "frequency_metrics", "loop_frequency"]
 
-def _frequency_grid(plant, num_c, den_c) -> np.ndarray:
-    """Log grid over the loop's corner frequencies, dense around lightly damped roots.
+
+@dataclass(frozen=True)
+class LoopFrequency:
+    """The loop's frequency response and the facts read from it (exact dead time).
+
+    Attributes
+    ----------
+    w : ndarray
+        The grid (rad/s), :func:`frequency_grid`.
+    loop : ndarray of complex
+        ``L(jw) = C(jw) G(jw)`` on ``w`` (non-finite at a pole on the axis).
+    crossover_frequency : float or None
+        Gain crossover where the phase margin is read (``None``: no crossover).
+    phase_margin_deg, gain_margin_db, delay_margin : float or None
+        As in the verdict (``None`` = unbounded or undefined).
+    peak_sensitivity : float
+        Largest ``|1/(1+L(jw))|``.
+    peak_frequency : float
+        Where it occurs (rad/s).
+    phase_crossovers : tuple of float
+        Frequencies where ``L(jw)`` is real and negative with ``|L| < 1``
+        (where gain margins are read), ascending.
+    bandwidth : float or None
+        Closed-loop bandwidth: the lowest frequency at which
+        ``|T(jw)| = |L/(1+L)|`` falls below ``1/sqrt(2)`` of its static value
+        ``T(0)`` (``None`` when it never does on the grid).
+    """
+
+    w: np.ndarray
+    loop: np.ndarray
+    crossover_frequency: float | None
+    phase_margin_deg: float | None
+    gain_margin_db: float | None
+    delay_margin: float | None
+    peak_sensitivity: float
+    peak_frequency: float
+    phase_crossovers: tuple[float, ...]
+    bandwidth: float | None
+
+    def metrics(self) -> dict[str, Any]:
+        """The verdict's frequency metrics (see :func:`frequency_metrics`)."""
+        return {"gain_margin_db": self.gain_margin_db, "phase_margin_deg": self.phase_margin_deg,
+                "delay_margin": self.delay_margin,
+                "crossover_frequency": self.crossover_frequency,
+                "peak_sensitivity": self.peak_sensitivity}
+
+
+def frequency_grid(plant, num_c, den_c) -> np.ndarray:
+    """synth's one frequency grid for a loop: log-spaced over its corners, dense at resonances.
+
+    From a thousandth of the lowest corner (pole, zero or ``1/dead_time``) to
+    a thousand times the highest, 200 points a decade (400 to 6000 points).
 
     A lightly damped pole or zero (damping zeta) changes |L| and its phase over
     a relative width of about 2 zeta, narrower than the base grid's step, so
@@ -62,11 +119,37 @@ def frequency_metrics(problem, num_c, den_c) -> dict[str, Any]:
     Returns a dict with ``gain_margin_db``, ``phase_margin_deg``,
     ``delay_margin``, ``crossover_frequency`` and ``peak_sensitivity``
     (``None`` where unbounded: no phase crossover below unit gain, no gain
-    crossover).  See the module docstring for the definitions.
+    crossover).  See :mod:`synth.verify.verdict` for the definitions.
+    """
+    return _analyse(problem.plant, num_c, den_c, details=False).metrics()
+
+
+def loop_frequency(plant, num_c, den_c) -> LoopFrequency:
+    """The loop's frequency response with its margins, crossovers, peak and bandwidth.
+
+    Parameters
+    ----------
+    plant : synth.problem.plant.Plant
+        Its delay-free part and exact dead time are used.
+    num_c, den_c : array_like
+        Compensator polynomials.
+
+    Returns
+    -------
+    LoopFrequency
+        The margins and the peak are the verdict's own numbers.
+    """
+    return _analyse(plant, num_c, den_c, details=True)
+
+
+def _analyse(plant, num_c, den_c, details: bool) -> LoopFrequency:
+    """The frequency analysis behind :func:`frequency_metrics` and :func:`loop_frequency`.
+
+    ``details`` adds the bandwidth (refined by brentq) and keeps the curve;
+    the verdict's numbers do not depend on it.
     """
     from scipy.optimize import brentq, minimize_scalar
 
-    plant = problem.plant
     nc, dc = trim(num_c), trim(den_c)
 
     lnum = np.polymul(nc, plant.rational_num)
@@ -92,7 +175,7 @@ def frequency_metrics(problem, num_c, den_c) -> dict[str, Any]:
         val = a / b if b != 0 else complex(math.inf, 0.0)
         return val * cmath.exp(-s * delay) if delay else val
 
-    w = _frequency_grid(plant, nc, dc)
+    w = frequency_grid(plant, nc, dc)
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         L = loop_grid(w)
     finite = np.isfinite(L)
@@ -119,7 +202,7 @@ def frequency_metrics(problem, num_c, den_c) -> dict[str, Any]:
         dms.append(lag / wc)
         wcs.append(wc)
     # phase crossovers: L real negative
-    gms = []
+    gms, wps = [], []
     im = L.imag
     pc = np.flatnonzero(finite[:-1] & finite[1:] & (np.sign(im[:-1]) != np.sign(im[1:]))
                         & (L.real[:-1] < 0) & (np.abs(L[:-1]) < 2.0))
@@ -143,32 +226,64 @@ def frequency_metrics(problem, num_c, den_c) -> dict[str, Any]:
         val = complex(loop(math.exp(x)))
         if val.real < 0 and abs(val) < 1.0:
             gms.append(1.0 / abs(val))
+            wps.append(math.exp(x))
     d0 = lden[-1]
     if d0 != 0.0:  # the Nyquist plot may start on the negative real axis
         L0 = float(lnum[-1] / d0)
         if -1.0 < L0 < 0.0:
             gms.append(-1.0 / L0)
-    out: dict[str, Any] = {
-        "gain_margin_db": 20.0 * math.log10(min(gms)) if gms else None,
-        "phase_margin_deg": min(pms) if pms else None,
-        "delay_margin": min(dms) if dms else None,
-        "crossover_frequency": wcs[int(np.argmin(pms))] if pms else None,
-    }
     # peak sensitivity, refined around the grid maximum
     with np.errstate(divide="ignore", invalid="ignore"):
         S = np.where(finite, 1.0 / np.abs(1.0 + L), 0.0)
     i = int(np.argmax(S))
     ms = float(S[i])
+    w_peak = float(w[i])
     if 0 < i < w.size - 1:
         res = minimize_scalar(lambda x: -1.0 / abs(1.0 + loop(math.exp(x))),
                               bounds=(lw[i - 1], lw[i + 1]), method="bounded",
                               options={"xatol": 1e-10})
-        if res.success:
-            ms = max(ms, float(-res.fun))
+        if res.success and float(-res.fun) > ms:
+            ms, w_peak = float(-res.fun), math.exp(float(res.x))
     if plant.dead_time == 0 and trim(nc).size + plant.rational_num.size == \
             trim(dc).size + plant.rational_den.size:  # biproper loop: the high-frequency end
         linf = nc[0] * plant.rational_num[0] / (dc[0] * plant.rational_den[0])
-        if 1.0 + linf != 0.0:
-            ms = max(ms, 1.0 / abs(1.0 + linf))
-    out["peak_sensitivity"] = ms
-    return out
+        if 1.0 + linf != 0.0 and 1.0 / abs(1.0 + linf) > ms:
+            ms, w_peak = 1.0 / abs(1.0 + linf), float(w[-1])
+    bandwidth = _bandwidth(L, w, lw, loop, brentq, lnum, lden) if details else None
+    return LoopFrequency(
+        w=w, loop=L, crossover_frequency=wcs[int(np.argmin(pms))] if pms else None,
+        phase_margin_deg=min(pms) if pms else None,
+        gain_margin_db=20.0 * math.log10(min(gms)) if gms else None,
+        delay_margin=min(dms) if dms else None, peak_sensitivity=ms, peak_frequency=w_peak,
+        phase_crossovers=tuple(sorted(wps)), bandwidth=bandwidth)
+
+
+def _bandwidth(L, w, lw, loop, brentq, lnum, lden) -> float | None:
+    """First frequency where ``|T| = |L/(1+L)|`` falls below ``1/sqrt(2)`` of its static value.
+
+    The static value ``T(0)`` comes from the loop's constant coefficients (1
+    with an integrator in the loop); where it is zero or infinite, the value
+    at the grid's low end stands in.
+    """
+    with np.errstate(divide="ignore", invalid="ignore"):
+        tm = np.abs(L / (1.0 + L))
+    n0, d0 = float(lnum[-1]), float(lden[-1])
+    t0 = abs(n0 / (n0 + d0)) if n0 + d0 != 0.0 else math.inf
+    if not (math.isfinite(t0) and t0 > 0):
+        t0 = float(tm[0])
+    if not (math.isfinite(t0) and t0 > 0):
+        return None
+    ref = t0 / math.sqrt(2.0)
+    below = np.flatnonzero(np.isfinite(tm) & (tm < ref))
+    if not below.size or below[0] == 0:
+        return None
+    i = int(below[0]) - 1
+
+    def excess(x):
+        v = loop(math.exp(x))
+        return abs(v / (1.0 + v)) - ref
+
+    try:
+        return math.exp(brentq(excess, lw[i], lw[i + 1], xtol=1e-12))
+    except ValueError:
+        return float(w[i + 1])

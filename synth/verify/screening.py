@@ -53,7 +53,7 @@ def screen_batch(problem, nums, dens, range_points: int = 3) -> ScreenResult:
     nums, dens : ndarray, shape (B, k)
         Compensator numerators and denominators (one per row, padded).
     range_points : int
-        Plant-gain factors tested across ``plant_gain_range`` (both ends and
+        Plant-gain factors tested across the required plant-gain range (both ends and
         geometrically spaced interior points).  A necessary check only; the
         full verifier decides the range exactly.
 
@@ -78,7 +78,7 @@ def screen_batch(problem, nums, dens, range_points: int = 3) -> ScreenResult:
     region = problem.region
     in_region = _in_region(char, region, w0) if not region.is_stability_only else stable.copy()
     ok = stable.copy()
-    pgr = problem.requirements.plant_gain_range
+    pgr = problem.requirements.limit("stable_plant_gain_range")
     if pgr is not None:
         ks = np.geomspace(pgr[0], pgr[1], max(2, range_points))
         for k in ks:

@@ -12,8 +12,8 @@ never hide a mode, and decides:
   guide, not a requirement of its own: overshoot and settling time are judged
   by the simulation, damping by every pole);
 * the exact interval of plant-gain factors around 1 that keeps the loop stable
-  (:func:`synth.locus.core.stable_gain_intervals`), against ``plant_gain_range``;
-* the compensator gain against ``gain_range``;
+  (:func:`synth.locus.core.stable_gain_intervals`), against the required range;
+* the compensator gain against the allowed range;
 * a unit-step simulation (overshoot against the final value, settling time as
   the last time outside the band, 10-90 % rise time, steady-state error, peak
   compensator output) -- with the EXACT dead time, see :func:`step_response`;
@@ -51,7 +51,6 @@ References
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -59,14 +58,13 @@ import numpy as np
 
 from synth.numerics.poly import common_roots, format_complex, scaled_roots, trim
 from synth.numerics.scaling import EPS
+from synth.problem.catalogue import METRICS, REQUIREMENTS
 from synth.verify.frequency import frequency_metrics
 from synth.verify.loop import loop_polynomials
 from synth.verify.simulation import step_metrics, step_response
 
 #: The contract's metric names, in order.
-METRIC_KEYS = ("overshoot_percent", "settling_time", "rise_time", "steady_state_error",
-               "min_damping_ratio", "phase_margin_deg", "gain_margin_db", "peak_sensitivity",
-               "peak_control_effort", "stable_plant_gain_range")
+METRIC_KEYS = tuple(k for k, m in METRICS.items() if m.contract)
 
 #: Relative distance under which a compensator root and a plant root count as cancelling.
 _CANCEL_RTOL = 1e-5
@@ -97,6 +95,13 @@ class Verdict:
         Sum of the normalised excesses over the violated requirements (0 when
         feasible; at least 100 for an unstable loop), used to order the
         nearest designs when none is feasible.
+    shortfalls : dict
+        The excess per violated requirement, keyed by its file key (see
+        :mod:`synth.problem.catalogue`), plus ``"stability"`` and
+        ``"internal_stability"``.
+    witnesses : dict
+        Where a metric's value occurs, by metric key, in words (the least
+        damped pole for ``min_damping_ratio``).
     notes : tuple of str
         Facts worth showing that are not violations (stable cancellations, ...).
     exact_delay : bool
@@ -114,6 +119,7 @@ class Verdict:
     notes: tuple[str, ...] = ()
     exact_delay: bool = True
     shortfalls: dict[str, float] = field(default_factory=dict)
+    witnesses: dict[str, str] = field(default_factory=dict)
 
 
 def _cancellations(plant, nc, dc) -> list[tuple[str, complex]]:
@@ -130,12 +136,6 @@ def _cancellations(plant, nc, dc) -> list[tuple[str, complex]]:
 
 def _fmt(v: float, digits: int = 3) -> str:
     return f"{v:.{digits}g}"
-
-
-def _range_text(lo, hi) -> str:
-    a = "-inf" if lo is None else _fmt(lo)
-    b = "inf" if hi is None else _fmt(hi)
-    return f"({a}, {b})"
 
 
 def verify(problem, num_c, den_c, exact_delay: bool = True) -> Verdict:
@@ -212,39 +212,19 @@ def verify(problem, num_c, den_c, exact_delay: bool = True) -> Verdict:
                           "non-negative real part")
         short["stability"] = _UNSTABLE_SHORTFALL + max(0.0, float(worst.real))
 
-    if req.gain_range is not None:
-        lo, hi = req.gain_range
-        if not (lo <= gain <= hi):
-            violations.append(f"gain {_fmt(gain, 4)} is outside the allowed gain range "
-                              f"[{_fmt(lo)}, {_fmt(hi)}]")
-            span = max(abs(lo), abs(hi), 1e-12)
-            short["gain_range"] = (lo - gain if gain < lo else gain - hi) / span
-
+    witnesses: dict[str, str] = {}
+    if poles.size and metrics["min_damping_ratio"] is not None:
+        witnesses["min_damping_ratio"] = format_complex(poles[int(np.argmin(zeta))])
     exact = True
     if stable:
         iv = interval_containing(stable_gain_intervals(num_l, den_l), 1.0)
         if iv is not None:
             metrics["stable_plant_gain_range"] = [iv[0], iv[1]]
-            pgr = req.plant_gain_range
-            if pgr is not None:
-                lo_ok = iv[0] is None or iv[0] < pgr[0]
-                hi_ok = iv[1] is None or iv[1] > pgr[1]
-                if not (lo_ok and hi_ok):
-                    violations.append(
-                        f"stable only for plant-gain factors in {_range_text(*iv)}; required "
-                        f"[{_fmt(pgr[0])}, {_fmt(pgr[1])}]")
-                    s = 0.0
-                    if not lo_ok:
-                        s += math.log(iv[0] / pgr[0]) if iv[0] > 0 else 1.0
-                    if not hi_ok:
-                        s += math.log(pgr[1] / iv[1]) if iv[1] > 0 else 1.0
-                    short["plant_gain_range"] = max(s, 1e-6)
-
         resp = step_response(problem, nc, dc, exact_delay=exact_delay)
         exact = resp.exact_delay
-        metrics.update(step_metrics(resp, req.settling_band_percent))
+        metrics.update(step_metrics(resp, req.settling_band))
         metrics.update(frequency_metrics(problem, nc, dc))
-        _check_limits(req, metrics, poles, violations, short)
+    _check_limits(req, metrics, witnesses, stable, violations, short)
     if stable:
         notes.extend(_slow_hidden_poles(poles, num_l, region))
     if plant.dead_time > 0 and not exact and exact_delay:
@@ -254,7 +234,7 @@ def verify(problem, num_c, den_c, exact_delay: bool = True) -> Verdict:
                    closed_loop_poles=tuple(complex(p) for p in poles), stable=stable,
                    internally_stable=internally_stable, shortfall=float(sum(short.values())),
                    notes=tuple(notes), exact_delay=exact or plant.dead_time == 0,
-                   shortfalls=short)
+                   shortfalls=short, witnesses=witnesses)
 
 
 def _slow_hidden_poles(poles, num_l, region) -> list[str]:
@@ -283,66 +263,18 @@ def _slow_hidden_poles(poles, num_l, region) -> list[str]:
     return out
 
 
-def _check_limits(req, m, poles, violations, short) -> None:
-    """Compare the metrics of a stable loop with the requirement limits."""
-    def over(key, limit, value, text, floor=1e-12):
-        short[key] = (value - limit) / max(abs(limit), floor)
-        violations.append(text)
+def _check_limits(req, metrics, witnesses, stable, violations, short) -> None:
+    """Judge every limit of the file by its catalogue entry.
 
-    if req.max_overshoot_percent is not None:
-        v = m["overshoot_percent"]
-        if v is None:
-            over("overshoot", 1.0, 2.0, "overshoot undefined: the final value is zero")
-        elif v > req.max_overshoot_percent:
-            over("overshoot", req.max_overshoot_percent, v,
-                 f"overshoot {v:.3g} % exceeds {req.max_overshoot_percent:g} %", 1.0)
-    if req.max_settling_time is not None:
-        v = m["settling_time"]
-        band = req.settling_band_percent
-        if v is None:
-            over("settling", 1.0, 2.0, f"does not settle within the {band:g} % band in the "
-                 "simulated horizon")
-        elif v > req.max_settling_time:
-            over("settling", req.max_settling_time, v,
-                 f"settling time {v:.3g} s exceeds {req.max_settling_time:g} s ({band:g} % band)")
-    if req.max_rise_time is not None:
-        v = m["rise_time"]
-        if v is None:
-            over("rise", 1.0, 2.0, "the response never reaches 90 % of its final value")
-        elif v > req.max_rise_time:
-            over("rise", req.max_rise_time, v,
-                 f"rise time {v:.3g} s exceeds {req.max_rise_time:g} s")
-    if req.max_steady_state_error is not None:
-        v = m["steady_state_error"]
-        lim = req.max_steady_state_error
-        if v > lim + 1e-9:
-            over("steady_state_error", lim, v,
-                 f"steady-state error {v:.3g} exceeds {lim:g}", 0.01)
-    if req.min_damping_ratio is not None:
-        v = m["min_damping_ratio"]
-        if v is not None and v < req.min_damping_ratio:
-            zeta = -poles.real / np.abs(poles)
-            p = poles[int(np.argmin(zeta))]
-            short["damping"] = (req.min_damping_ratio - v) / req.min_damping_ratio
-            violations.append(f"damping ratio {v:.3g} of the pole at {format_complex(p)} is "
-                              f"below {req.min_damping_ratio:g}")
-    if req.min_phase_margin_deg is not None:
-        v = m["phase_margin_deg"]
-        if v is not None and v < req.min_phase_margin_deg:
-            short["phase_margin"] = (req.min_phase_margin_deg - v) / req.min_phase_margin_deg
-            violations.append(f"phase margin {v:.3g} deg is below {req.min_phase_margin_deg:g} deg")
-    if req.min_gain_margin_db is not None:
-        v = m["gain_margin_db"]
-        if v is not None and v < req.min_gain_margin_db:
-            short["gain_margin"] = (req.min_gain_margin_db - v) / req.min_gain_margin_db
-            violations.append(f"gain margin {v:.3g} dB is below {req.min_gain_margin_db:g} dB")
-    if req.max_peak_sensitivity is not None:
-        v = m["peak_sensitivity"]
-        if v is not None and v > req.max_peak_sensitivity:
-            over("peak_sensitivity", req.max_peak_sensitivity, v,
-                 f"peak sensitivity {v:.3g} exceeds {req.max_peak_sensitivity:g}")
-    if req.max_control_effort is not None:
-        v = m["peak_control_effort"]
-        if v > req.max_control_effort:
-            over("control_effort", req.max_control_effort, v,
-                 f"peak control effort {v:.3g} exceeds {req.max_control_effort:g}")
+    A ``structure`` requirement (the compensator gain) is judged for every
+    loop; the others only for a stable one, whose metrics exist.
+    """
+    context = {k: req.value(k) for k in REQUIREMENTS}
+    for entry, limit in req.limits():
+        if not stable and entry.concerns != "structure":
+            continue
+        found = entry.assess(metrics.get(entry.metric), limit,
+                             {**context, "where": witnesses.get(entry.metric, "")})
+        if found is not None:
+            short[entry.key], text = found
+            violations.append(text)

@@ -1,15 +1,11 @@
 """Overlay of the unit-step responses of several design runs (``synth compare --plot``).
 
-Each curve is the reference-to-output closed loop of one design, built from
-the polynomials in the design JSON without cancelling anything:
-
-    T(s) = Nc Ng / (Dc Dg + Nc Ng)
-
-(contract loop convention: unity negative feedback). For a plant with dead
-time the JSON plant is the engine's Pade form, so the overlay shows the
-Pade-form response (the design verdicts themselves use the exact delay).
-Responses come from :func:`scipy.signal.step` on a time grid shared by all
-curves, so the runs can be read against each other.
+Each curve is the verifier's own unit-step response of one design
+(:func:`synth.verify.simulation.simulate_step`): the reference-to-output
+closed loop in unity negative feedback, formed without cancelling anything,
+with the plant's EXACT dead time where the document carries it (its
+delay-free part and ``dead_time``).  All curves share one time span, so the
+runs can be read against each other; this module only draws.
 """
 
 from __future__ import annotations
@@ -17,13 +13,13 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any
 
 import numpy as np
 
 from synth.errors import InputError
+from synth.outputs.document import DesignDocument, read_design
 
-__all__ = ["StepCurve", "closed_loop", "overlay_curves", "plot_step_overlay", "step_response"]
+__all__ = ["StepCurve", "overlay_curves", "plot_step_overlay"]
 
 # own palette: one colour per run, one line style per rank within a run
 _RUN_COLOURS = ("#0e7c86", "#c4463a", "#5d7f1f", "#7d4c9e", "#d08a12", "#33506e",
@@ -46,9 +42,12 @@ class StepCurve:
     rank : int
     structure : str
     stable : bool
-        False when the closed loop has a pole with non-negative real part;
-        then ``y`` is empty and the curve is listed but not drawn.
+        False when the closed loop has a pole with non-negative real part (or
+        the compensator is improper); then ``y`` is empty and the curve is
+        listed but not drawn.
     t, y : ndarray
+    exact_delay : bool
+        The dead time (if any) was simulated exactly.
     """
 
     run: int
@@ -58,109 +57,63 @@ class StepCurve:
     stable: bool
     t: np.ndarray
     y: np.ndarray
+    exact_delay: bool = True
 
 
-def _poly(value: Any, source: str, key: str) -> np.ndarray:
-    try:
-        p = np.trim_zeros(np.asarray(value, dtype=float).ravel(), "f")
-    except (TypeError, ValueError):
-        raise InputError("must be a list of numbers", source=source, key=key) from None
-    if p.size == 0 or not np.all(np.isfinite(p)):
-        raise InputError("must be a non-empty list of finite numbers", source=source, key=key)
-    return p
-
-
-def closed_loop(plant_num, plant_den, comp_num, comp_den) -> tuple[np.ndarray, np.ndarray]:
-    """Reference-to-output closed loop T = Nc Ng / (Dc Dg + Nc Ng), unreduced.
-
-    Parameters
-    ----------
-    plant_num, plant_den, comp_num, comp_den : array_like
-        Coefficients in descending powers of s.
-
-    Returns
-    -------
-    num, den : ndarray
-        No common factor is cancelled, so a hidden unstable mode stays in ``den``.
-    """
-    ng, dg = np.asarray(plant_num, float), np.asarray(plant_den, float)
-    nc, dc = np.asarray(comp_num, float), np.asarray(comp_den, float)
-    num = np.polymul(nc, ng)
-    den = np.polyadd(np.polymul(dc, dg), num)
-    return num, den
-
-
-def step_response(num, den, t) -> np.ndarray:
-    """Unit-step response of num/den on the grid ``t`` (scipy.signal.step)."""
-    from scipy import signal
-
-    num = np.trim_zeros(np.asarray(num, float), "f")
-    den = np.trim_zeros(np.asarray(den, float), "f")
-    _, y = signal.step((num, den), T=np.asarray(t, float))
-    return np.asarray(y, float)
-
-
-def _horizon(designs: list[dict], dens: list[np.ndarray]) -> float:
+def _horizon(designs, poles) -> float:
     """A common time span: 1.5 x the longest reported settling time, else from the poles."""
-    ts = [d.get("metrics", {}).get("settling_time") for d in designs]
+    ts = [d.metric("settling_time") for d in designs]
     ts = [float(x) for x in ts if isinstance(x, (int, float)) and math.isfinite(x) and x > 0]
     if ts:
         return 1.5 * max(ts)
-    decay = []
-    for den in dens:
-        r = np.roots(den)
-        if r.size and np.all(r.real < 0):
-            decay.append(float(np.min(-r.real)))
+    decay = [float(np.min(-p.real)) for p in poles if p.size and np.all(p.real < 0)]
     return 8.0 / min(decay) if decay else 10.0
 
 
-def overlay_curves(runs: list[tuple[str, dict]], top: int = 3,
-                   n_points: int = 1500) -> list[StepCurve]:
+def overlay_curves(runs: list[tuple[str, object]], top: int = 3) -> list[StepCurve]:
     """Step responses of the ``top`` best-ranked designs of each run.
 
     Parameters
     ----------
-    runs : list of (str, dict)
+    runs : list of (str, dict or DesignDocument)
         ``(name, synth.design/1 document)`` pairs.
     top : int
         How many designs per run (by rank).
-    n_points : int
-        Points on the shared time grid.
 
     Returns
     -------
     list of StepCurve
+        An unstable loop's curve is empty (listed, not drawn).
     """
+    from synth.verify.loop import loop_polynomials
+    from synth.verify.simulation import simulate_step
+
     if top < 1:
         raise InputError("top must be at least 1")
     picked = []
     for r, (name, doc) in enumerate(runs):
-        plant = doc.get("plant") if isinstance(doc, dict) else None
-        if not isinstance(plant, dict):
-            raise InputError("needs a 'plant' object", source=str(name), key="plant")
-        ng = _poly(plant.get("numerator"), str(name), "plant.numerator")
-        dg = _poly(plant.get("denominator"), str(name), "plant.denominator")
-        designs = sorted((d for d in doc.get("designs", []) if isinstance(d, dict)),
-                         key=lambda d: d.get("rank", 0))[:top]
-        for d in designs:
-            comp = d.get("compensator") or {}
-            key = f"designs[rank {d.get('rank')}].compensator"
-            nc = _poly(comp.get("numerator"), str(name), key + ".numerator")
-            dc = _poly(comp.get("denominator"), str(name), key + ".denominator")
-            num, den = closed_loop(ng, dg, nc, dc)
-            picked.append((r, str(name), d, num, den))
+        document = doc if isinstance(doc, DesignDocument) else read_design(doc, str(name))
+        plant = document.need_plant().plant()
+        for d in document.designs[:top]:
+            c = d.compensator
+            _, _, char = loop_polynomials(plant, c.num, c.den)
+            poles = np.roots(char) if char.size > 1 else np.zeros(0, complex)
+            picked.append((r, str(name), d, plant, poles))
     if not picked:
         return []
     t_end = _horizon([p[2] for p in picked], [p[4] for p in picked])
-    t = np.linspace(0.0, t_end, n_points)
     out = []
-    for r, name, d, num, den in picked:
-        roots = np.roots(den)
-        stable = bool(np.all(roots.real < 0))
-        y = step_response(num, den, t) if stable else np.zeros(0)
-        out.append(StepCurve(run=r, run_name=name, rank=int(d.get("rank", 0)),
-                             structure=str(d.get("structure", "?")), stable=stable,
-                             t=t if stable else np.zeros(0), y=y))
+    for r, name, d, plant, poles in picked:
+        c = d.compensator
+        stable = bool(np.all(poles.real < 0)) and c.num.size <= c.den.size
+        exact = True
+        if stable:
+            resp = simulate_step(plant, c.num, c.den, t_end=t_end)
+            t, y, exact = resp.t, resp.y, resp.exact_delay
+        else:
+            t = y = np.zeros(0)
+        out.append(StepCurve(run=r, run_name=name, rank=d.rank, structure=d.structure,
+                             stable=stable, t=t, y=y, exact_delay=exact))
     return out
 
 
@@ -208,11 +161,9 @@ def plot_step_overlay(runs: list[tuple[str, dict]], path: str | Path, top: int =
                 continue
             ax.plot(c.t, c.y, color=colour, linestyle=style,
                     linewidth=2.0 if c.rank == 1 else 1.3, label=label, zorder=3)
-        delayed = any(isinstance(doc.get("plant"), dict) and doc["plant"].get("dead_time")
-                      for _, doc in runs)
         title = "Unit-step response of each run's top designs"
-        if delayed:
-            title += " (dead time in Pade form)"
+        if any(not c.exact_delay for c in curves):
+            title += " (some dead times in Pade form: too short to resolve)"
         ax.set_title(title, color=_INK, fontsize=10, loc="left")
         ax.set_xlabel("time [s]", color=_INK, fontsize=9)
         ax.set_ylabel("output / reference step", color=_INK, fontsize=9)

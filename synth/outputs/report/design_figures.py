@@ -1,11 +1,12 @@
 """Curves and drawings for one design of a report.
 
-:func:`design_curves` computes what the report shows for a design: the unit
-step response and control effort (exact dead time), the loop's frequency
-response and the sensitivity. The ``draw_*`` functions draw them into a
-matplotlib ``Figure`` or ``SubFigure`` (the root locus is drawn by
-:mod:`synth.report.locus_plot`) so the same drawing serves the HTML
-page (SVG) and the PDF (a region of a page).
+The numbers and curves come from the verifier (:func:`synth.verify.curves.curves`,
+handed to the report in its input); :func:`figure_data` only frames them for
+a page (the part of the step response worth looking at, the frequency window
+around the marked frequencies) and says how they were computed.  The
+``draw_*`` functions draw into a matplotlib ``Figure`` or ``SubFigure`` (the
+root locus is drawn by :mod:`synth.outputs.report.locus_plot`) so the same
+drawing serves the HTML page (SVG) and the PDF (a region of a page).
 
 matplotlib is imported inside the functions only (see ``docs/internal-api.md``).
 """
@@ -17,18 +18,12 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from synth.outputs.implementation import (
-    LoopFrequencyFacts,
-    loop_frequency_facts,
-    loop_parts,
-    loop_response,
-)
-from synth.outputs.jsonout import finite_or_none
+from synth.verify.frequency import LoopFrequency
 
 __all__ = [
     "PALETTE",
-    "DesignCurves",
-    "design_curves",
+    "FigureData",
+    "figure_data",
     "draw_step",
     "draw_bode",
     "draw_sensitivity",
@@ -48,8 +43,8 @@ PALETTE = {
 }
 
 @dataclass(frozen=True)
-class DesignCurves:
-    """Everything plotted for one design.
+class FigureData:
+    """Everything plotted for one design, framed for the page.
 
     Attributes
     ----------
@@ -66,11 +61,11 @@ class DesignCurves:
         Frequencies (rad/s).
     loop : ndarray, complex
         ``L(jw)`` with the exact dead time.
-    facts : LoopFrequencyFacts
-        Crossovers, margins, bandwidth and sensitivity peak.
+    facts : LoopFrequency
+        Crossovers, margins, bandwidth and sensitivity peak (the verifier's).
     notes : tuple of str
         How the curves were computed where it matters (dead time, improper
-        compensator, unstable loop).
+        compensator, unstable loop, a cropped time axis).
     """
 
     t: np.ndarray
@@ -80,15 +75,11 @@ class DesignCurves:
     stable: bool
     w: np.ndarray
     loop: np.ndarray
-    facts: LoopFrequencyFacts
+    facts: LoopFrequency
     notes: tuple[str, ...]
 
 
-def _metric(design: dict, key: str) -> float | None:
-    return finite_or_none((design.get("metrics") or {}).get(key))
-
-
-def _view(t, y, u, design: dict, req, notes: list[str]):
+def _view(t, y, u, design, settling_limit, notes: list[str]):
     """Crop the simulated response to the part worth looking at.
 
     The simulation runs until the slowest closed-loop pole has decayed; a slow,
@@ -96,14 +87,13 @@ def _view(t, y, u, design: dict, req, notes: list[str]):
     squash the transient into the first pixel. Show about twice the settling
     time (or 1.5 times the settling-time limit, or ten rise times) instead.
     """
-    m = design.get("metrics") or {}
     cands = []
     for key, factor in (("settling_time", 2.0), ("rise_time", 10.0)):
-        v = m.get(key)
+        v = design.metric(key)
         if isinstance(v, (int, float)) and math.isfinite(v) and v > 0:
             cands.append(factor * v)
-    if req is not None and req.max_settling_time:
-        cands.append(1.5 * req.max_settling_time)
+    if settling_limit:
+        cands.append(1.5 * settling_limit)
     if not cands or t.size < 3:
         return t, y, u
     t_view = max(cands)
@@ -115,60 +105,51 @@ def _view(t, y, u, design: dict, req, notes: list[str]):
     return t[:keep], y[:keep], (None if u is None else u[:keep])
 
 
-def design_curves(doc: dict, design: dict, problem) -> DesignCurves:
-    """Step response, control effort and frequency responses of one design.
+def figure_data(curves, design, problem) -> FigureData:
+    """Frame the verifier's curves of one design for the report.
 
     Parameters
     ----------
-    doc : dict
-        The synth.design/1 document (the plant is read from it).
-    design : dict
-        One entry of ``doc["designs"]``.
-    problem : synth.requirements.Problem
-        The problem of the run; :func:`synth.verify.step_response` simulates
-        its plant (exact dead time) over a horizon set by its requirements.
+    curves : synth.verify.curves.LoopCurves
+        The verifier's step and frequency responses of the design's loop.
+    design : synth.outputs.document.DesignRecord
+        The design (its settling and rise times frame the time axis).
+    problem : synth.problem.requirements.Problem
+        Its dead time and settling-time limit, for the notes and the frame.
 
     Returns
     -------
-    DesignCurves
+    FigureData
     """
-    from synth.verify.simulation import step_response
-
-    loop = loop_parts(doc, design)
     notes: list[str] = []
-    char = np.polyadd(np.polymul(loop.c_den, loop.engine_den),
-                      np.polymul(loop.c_num, loop.engine_num))
-    char = np.trim_zeros(char, "f")
-    poles = np.roots(char) if char.size > 1 else np.zeros(0, complex)
-    stable = bool(np.all(poles.real < 0))
-    if loop.c_num.size > loop.c_den.size:
+    step = curves.step
+    if step is None:
         # an ideal derivative: the effort to a step is an impulse, no curve to draw
         t, y, u, final = np.array([0.0, 1.0]), np.full(2, np.nan), None, None
         notes.append("the compensator is improper (ideal derivative), so no time response "
                      "is drawn")
     else:
-        resp = step_response(problem, loop.c_num, loop.c_den)
-        t, y, u, final = resp.t, resp.y, resp.u, resp.final_value
+        t, y, u, final = step.t, step.y, step.u, step.final_value
         if problem.plant.dead_time:
             notes.append(f"time responses use the exact dead time of {problem.plant.dead_time:g} s"
-                         if resp.exact_delay else
+                         if step.exact_delay else
                          "the dead time is too short to resolve in the time responses; they use "
                          "its Pade form")
-    if not stable:
+    if not curves.stable:
         final = None
         notes.append("the closed loop is unstable: the response grows without bound")
-    t, y, u = _view(t, y, u, design, problem.requirements, notes)
-    facts = loop_frequency_facts(loop)
-    lo, hi = facts.w_min, facts.w_max
-    marks = [v for v in (facts.crossover, facts.bandwidth, facts.peak_frequency,
-                         *facts.phase_crossovers) if v]
+    t, y, u = _view(t, y, u, design, problem.requirements.limit("settling_time"), notes)
+    f = curves.frequency
+    w, L = f.w, f.loop
+    marks = [v for v in (f.crossover_frequency, f.bandwidth, f.peak_frequency,
+                         *f.phase_crossovers) if v]
     if marks:
         # frame the interesting part: two decades either side of the marked frequencies
-        lo = max(lo, min(marks) / 100.0)
-        hi = min(hi, max(marks) * 100.0)
-    w = np.logspace(math.log10(lo), math.log10(hi), 800)
-    return DesignCurves(t=t, y=y, u=u, final_value=final, stable=stable, w=w,
-                        loop=loop_response(loop, w), facts=facts, notes=tuple(notes))
+        keep = (w >= min(marks) / 100.0) & (w <= max(marks) * 100.0)
+        if np.count_nonzero(keep) >= 2:
+            w, L = w[keep], L[keep]
+    return FigureData(t=t, y=y, u=u, final_value=final, stable=curves.stable, w=w, loop=L,
+                      facts=f, notes=tuple(notes))
 
 
 # ---------------------------------------------------------------------------
@@ -198,7 +179,7 @@ def _clip_limits(values: np.ndarray, pad: float = 0.08) -> tuple[float, float]:
     return lo - pad * span, hi + pad * span
 
 
-def draw_step(target, curves: DesignCurves, requirements=None, title: str | None = None) -> None:
+def draw_step(target, curves: FigureData, requirements=None, title: str | None = None) -> None:
     """Unit-step output and control effort with the requirement bounds.
 
     Draws the overshoot ceiling, the settling band after the settling-time
@@ -212,16 +193,17 @@ def draw_step(target, curves: DesignCurves, requirements=None, title: str | None
     t, y = curves.t, curves.y
     fv = curves.final_value
     req = requirements
+    os_limit = None if req is None else req.limit("overshoot_percent")
     if fv is not None and req is not None:
-        if req.max_overshoot_percent is not None:
-            ceiling = fv * (1.0 + req.max_overshoot_percent / 100.0)
+        if os_limit is not None:
+            ceiling = fv * (1.0 + os_limit / 100.0)
             ax.axhline(ceiling, color=PALETTE["limit"], linestyle="--", linewidth=1.0,
-                       label=f"overshoot limit {req.max_overshoot_percent:g} %")
-        if req.max_settling_time is not None:
-            band = abs(fv) * req.settling_band_percent / 100.0
-            ts = req.max_settling_time
+                       label=f"overshoot limit {os_limit:g} %")
+        ts = req.limit("settling_time")
+        if ts is not None:
+            band = abs(fv) * req.settling_band / 100.0
             ax.fill_between([ts, t[-1]], fv - band, fv + band, color=PALETTE["band"], alpha=0.6,
-                            linewidth=0, label=f"{req.settling_band_percent:g} % band after "
+                            linewidth=0, label=f"{req.settling_band:g} % band after "
                             f"{ts:g} s")
             # edges too: a narrow band hides under the response otherwise
             for edge in (fv - band, fv + band):
@@ -233,8 +215,8 @@ def draw_step(target, curves: DesignCurves, requirements=None, title: str | None
     lo, hi = _clip_limits(y)
     if fv is not None:
         lo, hi = min(lo, 0.0), max(hi, fv * 1.05)
-        if req is not None and req.max_overshoot_percent is not None:
-            hi = max(hi, fv * (1.0 + req.max_overshoot_percent / 100.0) * 1.05)
+        if os_limit is not None:
+            hi = max(hi, fv * (1.0 + os_limit / 100.0) * 1.05)
     ax.set_ylim(lo, hi)
     ax.set_ylabel("output", fontsize=8.5)
     ax.legend(fontsize=7, loc="lower right", framealpha=0.9)
@@ -243,8 +225,8 @@ def draw_step(target, curves: DesignCurves, requirements=None, title: str | None
     if curves.u is not None:
         ax2.plot(t, curves.u, color=PALETTE["effort"], linewidth=1.4, label="effort u(t)")
         ulo, uhi = _clip_limits(curves.u)
-        if req is not None and req.max_control_effort is not None:
-            lim = req.max_control_effort
+        lim = None if req is None else req.limit("peak_control_effort")
+        if lim is not None:
             ax2.axhline(lim, color=PALETTE["limit"], linestyle="--", linewidth=1.0,
                         label=f"effort limit ±{lim:g}")
             ax2.axhline(-lim, color=PALETTE["limit"], linestyle="--", linewidth=1.0)
@@ -260,8 +242,7 @@ def draw_step(target, curves: DesignCurves, requirements=None, title: str | None
     ax2.set_xlim(t[0], t[-1])
 
 
-def draw_bode(target, curves: DesignCurves, design: dict | None = None,
-              title: str | None = None) -> None:
+def draw_bode(target, curves: FigureData, title: str | None = None) -> None:
     """Loop magnitude (dB) and phase (deg) with the gain and phase margins marked."""
     gs = target.add_gridspec(2, 1, left=0.11, right=0.97, bottom=0.13, top=0.9, hspace=0.32)
     axm, axp = gs.subplots(sharex=True)
@@ -274,8 +255,8 @@ def draw_bode(target, curves: DesignCurves, design: dict | None = None,
     # put the phase near -180 where the margins are read
     f = curves.facts
     shift = 0.0
-    if f.crossover is not None:
-        pc = float(np.interp(math.log10(f.crossover), np.log10(w), phase))
+    if f.crossover_frequency is not None:
+        pc = float(np.interp(math.log10(f.crossover_frequency), np.log10(w), phase))
         shift = 360.0 * round((-180.0 + (f.phase_margin_deg or 0.0) - pc) / 360.0)
     phase = phase + shift
     axm.semilogx(w, mag, color=PALETTE["response"], linewidth=1.5, label="|L(jw)|")
@@ -283,8 +264,8 @@ def draw_bode(target, curves: DesignCurves, design: dict | None = None,
     axp.semilogx(w, phase, color=PALETTE["phase"], linewidth=1.5, label="arg L(jw)")
     axp.axhline(-180.0, color=PALETTE["muted"], linewidth=0.8)
     pm_label = gm_label = None
-    if f.crossover is not None and f.phase_margin_deg is not None:
-        wc, pm = f.crossover, f.phase_margin_deg
+    if f.crossover_frequency is not None and f.phase_margin_deg is not None:
+        wc, pm = f.crossover_frequency, f.phase_margin_deg
         axm.axvline(wc, color=PALETTE["operating"], linestyle=":", linewidth=1.0)
         axp.axvline(wc, color=PALETTE["operating"], linestyle=":", linewidth=1.0)
         axp.plot([wc, wc], [-180.0, -180.0 + pm], color=PALETTE["operating"], linewidth=2.6,
@@ -317,7 +298,7 @@ def draw_bode(target, curves: DesignCurves, design: dict | None = None,
         axm.set_title(title, fontsize=9.5, color=PALETTE["ink"], loc="left")
 
 
-def draw_sensitivity(target, curves: DesignCurves, requirements=None,
+def draw_sensitivity(target, curves: FigureData, requirements=None,
                      title: str | None = None) -> None:
     """Sensitivity magnitude ``|1/(1+L(jw))|`` with its peak and the limit."""
     ax = target.add_gridspec(1, 1, left=0.11, right=0.97, bottom=0.19, top=0.88).subplots()
@@ -331,8 +312,8 @@ def draw_sensitivity(target, curves: DesignCurves, requirements=None,
     pk_db = 20.0 * math.log10(f.peak_sensitivity) if f.peak_sensitivity > 0 else 0.0
     ax.plot([f.peak_frequency], [pk_db], "v", color=PALETTE["operating"], markersize=7,
             label=f"peak {f.peak_sensitivity:.3g} ({pk_db:.3g} dB) at {f.peak_frequency:.3g} rad/s")
-    if requirements is not None and requirements.max_peak_sensitivity is not None:
-        lim = requirements.max_peak_sensitivity
+    lim = None if requirements is None else requirements.limit("peak_sensitivity")
+    if lim is not None:
         ax.axhline(20.0 * math.log10(lim), color=PALETTE["limit"], linestyle="--", linewidth=1.0,
                    label=f"limit {lim:g} ({20 * math.log10(lim):.3g} dB)")
     lo, hi = _clip_limits(sdb)

@@ -13,6 +13,13 @@ Both files are written to temporary names first and moved into place only
 when both succeeded, so a failure leaves no partial report.
 
 The safety cautions come first in both.
+
+The report only formats.  Its input, :class:`ReportInput`, carries the
+document (read once, :mod:`synth.outputs.document`), the run's explanation
+and, for each design given a section, the verifier's curves and the design
+loop's root locus (:class:`DesignFigures`); ``synth.design.prepare_report``
+gathers them.  The requirement names and texts come from the catalogue
+(:mod:`synth.problem.catalogue`).
 """
 
 from __future__ import annotations
@@ -25,24 +32,17 @@ import textwrap
 from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 
-from synth.errors import InputError
+from synth.outputs.cautions import CAUTIONS
+from synth.outputs.document import DesignDocument, DesignRecord
+from synth.outputs.text import number as _g
+from synth.problem.catalogue import METRICS, REQUIREMENTS, requirement_for
 
-__all__ = ["CAUTIONS", "SECTION_TITLES", "FIGURE_KINDS", "build_sections", "write_report"]
-
-#: The cautions printed at the top of every report.
-CAUTIONS = (
-    "Every design here comes from a linear model of the plant. The real machine is not that "
-    "model.",
-    "Before any design goes near hardware, verify it against a model with actuator saturation, "
-    "measurement and computation delay, and the plant's nonlinearities.",
-    "Commission with reduced gains first, with hardware limits (current, travel, speed, "
-    "temperature) and an independent way to stop the machine in place.",
-    "Follow local codes, the functional-safety standards that apply to the machine, and licensed "
-    "engineering practice; this report does not replace them.",
-)
+__all__ = ["CAUTIONS", "SECTION_TITLES", "FIGURE_KINDS", "DesignFigures", "ReportInput",
+           "build_sections", "write_report"]
 
 #: Fixed section titles (design sections are titled "Design N: structure").
 SECTION_TITLES = {
@@ -57,8 +57,56 @@ SECTION_TITLES = {
 #: The figures drawn for each top design, in order.
 FIGURE_KINDS = ("locus", "step", "bode", "sensitivity")
 
-#: Designs given a full section.
-_TOP = 3
+#: Designs given a full section (by default, in ``synth.design.prepare_report``).
+TOP = 3
+
+
+@dataclass(frozen=True)
+class DesignFigures:
+    """What the report draws for one design, computed before the report is written.
+
+    Attributes
+    ----------
+    rank : int
+    curves : synth.verify.curves.LoopCurves
+        The verifier's step and frequency responses of the design's loop.
+    locus : synth.locus.trace.LocusTrace or None
+        The root locus of the design's loop (``None``: it has none).
+    locus_gain : float or None
+        The compensator gain at which the design operates on it.
+    locus_note : str
+        Why there is no locus, when there is none.
+    """
+
+    rank: int
+    curves: Any
+    locus: Any = None
+    locus_gain: float | None = None
+    locus_note: str = ""
+
+
+@dataclass(frozen=True)
+class ReportInput:
+    """Everything a report shows.
+
+    Attributes
+    ----------
+    problem : synth.problem.requirements.Problem
+        The problem the run solved (plant, requirements, region).
+    document : DesignDocument
+        Its design document, with implementation forms.
+    explanation : object or None
+        The run's :class:`synth.explain.Explanation` (the proportional
+        verdict's reasons); without it the document's ``proportional`` object
+        is shown.
+    figures : tuple of DesignFigures
+        One per design given a full section, best rank first.
+    """
+
+    problem: Any
+    document: DesignDocument
+    explanation: Any = None
+    figures: tuple[DesignFigures, ...] = ()
 
 
 # ---------------------------------------------------------------------------
@@ -124,20 +172,6 @@ class Section:
 # numbers as text
 # ---------------------------------------------------------------------------
 
-def _g(v, digits: int = 4, none: str = "-") -> str:
-    if v is None:
-        return none
-    if isinstance(v, bool):
-        return "yes" if v else "no"
-    try:
-        x = float(v)
-    except (TypeError, ValueError):
-        return str(v)
-    if not math.isfinite(x):
-        return "unbounded" if x > 0 else "-unbounded"
-    return f"{x:.{digits}g}"
-
-
 def _interval(iv) -> str:
     lo, hi = iv
     return f"({'-inf' if lo is None else _g(lo)}, {'+inf' if hi is None else _g(hi)})"
@@ -175,36 +209,7 @@ def _cplx_list(ps, limit: int = 12) -> str:
 # content
 # ---------------------------------------------------------------------------
 
-_REQ_TEXT = {
-    "max_overshoot_percent": ("overshoot", "at most {} % on a unit step"),
-    "max_settling_time": ("settling time", "at most {} s"),
-    "settling_band_percent": ("settling band", "{} % around the final value"),
-    "min_damping_ratio": ("damping", "every closed-loop pole damped at least {}"),
-    "max_rise_time": ("rise time", "at most {} s (10 % to 90 %)"),
-    "max_steady_state_error": ("steady-state error", "at most {} of the step"),
-    "plant_gain_range": ("plant gain tolerance", "stable for plant gain factors {}"),
-    "gain_range": ("compensator gain", "K within {}"),
-    "min_phase_margin_deg": ("phase margin", "at least {} deg"),
-    "min_gain_margin_db": ("gain margin", "at least {} dB"),
-    "max_peak_sensitivity": ("peak sensitivity", "at most {}"),
-    "max_control_effort": ("control effort", "peak |u| at most {} for a unit step"),
-}
-
-_METRICS = (
-    ("overshoot_percent", "overshoot (%)", "max_overshoot_percent"),
-    ("settling_time", "settling time (s)", "max_settling_time"),
-    ("rise_time", "rise time (s)", "max_rise_time"),
-    ("steady_state_error", "steady-state error", "max_steady_state_error"),
-    ("min_damping_ratio", "least damping ratio", "min_damping_ratio"),
-    ("phase_margin_deg", "phase margin (deg)", "min_phase_margin_deg"),
-    ("gain_margin_db", "gain margin (dB)", "min_gain_margin_db"),
-    ("peak_sensitivity", "peak sensitivity", "max_peak_sensitivity"),
-    ("peak_control_effort", "peak control effort", "max_control_effort"),
-    ("stable_plant_gain_range", "stable plant-gain factors", "plant_gain_range"),
-)
-
-
-def _req_value_text(key: str, value) -> str:
+def _limit_text(value) -> str:
     if isinstance(value, (list, tuple)):
         return f"[{_g(value[0])}, {_g(value[1])}]"
     return _g(value)
@@ -221,7 +226,7 @@ def _metric_text(key: str, value) -> str:
     return _g(value)
 
 
-def _plant_section(problem, doc) -> Section:
+def _plant_section(problem) -> Section:
     plant = problem.plant
     blocks = []
     if plant.label:
@@ -260,8 +265,8 @@ def _requirements_section(problem) -> Section:
     else:
         rows = []
         for key, value in given.items():
-            name, template = _REQ_TEXT.get(key, (key, "{}"))
-            rows.append((name, template.format(_req_value_text(key, value)), key))
+            entry = REQUIREMENTS[key]
+            rows.append((entry.label, entry.asked(value), key))
         blocks.append(Table(("requirement", "asked for", "file key"), tuple(rows)))
     region = problem.region
     blocks.append(Para(
@@ -272,35 +277,17 @@ def _requirements_section(problem) -> Section:
     return Section("requirements", SECTION_TITLES["requirements"], tuple(blocks))
 
 
-def _explain_data(problem, doc) -> dict:
-    """The proportional verdict and its reasons.
-
-    From :func:`synth.explain.explain_problem` (which gives the reasons); while
-    that module is absent, from the document's ``proportional`` object, else
-    from the engine's exact gain intervals.
-    """
-    if isinstance(doc.get("explain"), dict):
-        return doc["explain"]
-    try:
-        from synth.explain import explain_problem
-    except ImportError:
-        explain_problem = None
-    if explain_problem is not None:
-        return explain_problem(problem).to_json()
-    if isinstance(doc.get("proportional"), dict):
-        return {"proportional": doc["proportional"], "reasons": doc.get("reasons") or []}
-    from synth.locus.core import region_gain_intervals, stable_gain_intervals
-
-    num, den = problem.plant.num, problem.plant.den
-    region = problem.region
-    return {"proportional": {
-        "stabilizing_gain_intervals": [list(iv) for iv in stable_gain_intervals(num, den)],
-        "requirement_gain_intervals": [list(iv) for iv in region_gain_intervals(num, den, region)],
-    }, "reasons": []}
+def _explain_data(report: ReportInput) -> dict:
+    """The proportional verdict and its reasons: the run's explanation, else the document's."""
+    if report.explanation is not None:
+        return report.explanation.to_json()
+    prop = report.document.proportional
+    return {"proportional": dict(prop) if prop is not None else {}, "reasons": []}
 
 
-def _proportional_section(problem, doc) -> Section:
-    ex = _explain_data(problem, doc)
+def _proportional_section(report: ReportInput) -> Section:
+    problem = report.problem
+    ex = _explain_data(report)
     prop = ex.get("proportional") or {}
     stab = prop.get("stabilizing_gain_intervals") or []
     reqiv = prop.get("requirement_gain_intervals") or []
@@ -336,58 +323,49 @@ def _proportional_section(problem, doc) -> Section:
     return Section("proportional", SECTION_TITLES["proportional"], tuple(blocks))
 
 
-def _ranking_section(doc) -> Section:
-    designs = sorted(doc.get("designs") or [], key=lambda d: d.get("rank", 0))
+#: The metrics of the ranking table and of each design's performance table.
+_TABLE_METRICS = tuple(k for k, m in METRICS.items() if m.contract)
+
+
+def _ranking_section(document: DesignDocument) -> Section:
+    designs = document.designs
     if not designs:
         return Section("ranking", SECTION_TITLES["ranking"],
                        (Para("The search found no candidate design.", "bad"),))
-    header = ("rank", "structure", "origin", "meets all", "OS %", "Ts s", "Tr s", "ess",
-              "zeta", "PM deg", "GM dB", "Ms", "|u| max")
-    keys = ("overshoot_percent", "settling_time", "rise_time", "steady_state_error",
-            "min_damping_ratio", "phase_margin_deg", "gain_margin_db", "peak_sensitivity",
-            "peak_control_effort")
+    keys = tuple(k for k in _TABLE_METRICS if METRICS[k].better != "wider")
+    header = ("rank", "structure", "origin", "meets all",
+              *(f"{METRICS[k].symbol} {METRICS[k].unit}".strip() for k in keys))
     rows = []
     for d in designs:
-        m = d.get("metrics") or {}
-        rows.append((str(d.get("rank")), str(d.get("structure")), str(d.get("origin", "")),
-                     "yes" if d.get("feasible") else "no",
-                     *(_metric_text(k, m.get(k)) for k in keys)))
-    blocks = [Table(header, tuple(rows), numeric=(True, False, False, False) + (True,) * 9)]
-    blocks.append(Para("OS overshoot, Ts settling time, Tr rise time, ess steady-state error, zeta "
-                       "least closed-loop damping ratio, PM and GM phase and gain margins, Ms peak "
-                       "sensitivity, |u| max peak control effort for a unit step.", "muted"))
-    unmet = [(d, v) for d in designs for v in (d.get("violations") or [])]
+        rows.append((str(d.rank), d.structure, d.origin, "yes" if d.feasible else "no",
+                     *(_metric_text(k, d.metric(k)) for k in keys)))
+    blocks = [Table(header, tuple(rows), numeric=(True, False, False, False)
+                    + (True,) * len(keys))]
+    blocks.append(Para(", ".join(f"{METRICS[k].symbol} {METRICS[k].label}" for k in keys)
+                       + " (effort for a unit-step reference).", "muted"))
+    unmet = [(d, v) for d in designs for v in d.violations]
     if unmet:
         blocks.append(Para("Requirements not met:"))
-        blocks.append(Bullets(tuple(f"design {d.get('rank')} ({d.get('structure')}): {v}"
+        blocks.append(Bullets(tuple(f"design {d.rank} ({d.structure}): {v}"
                                     for d, v in unmet), "bad"))
-    n_ok = sum(1 for d in designs if d.get("feasible"))
+    n_ok = sum(1 for d in designs if d.feasible)
     blocks.insert(0, Para(f"{len(designs)} designs kept, {n_ok} meeting every requirement. "
                           "Feasible designs come first.", "good" if n_ok else "bad"))
     return Section("ranking", SECTION_TITLES["ranking"], tuple(blocks))
 
 
-def _locus_figure(problem, doc, design) -> Figure:
-    """The design's root locus, drawn by :func:`synth.report.locus_plot.plot_locus`."""
-    from synth.locus import trace_design_loop
-
-    _cache: dict = {}  # the trace serves the SVG and the PDF; compute it once
+def _locus_figure(problem, fig: DesignFigures) -> Figure:
+    """The design's root locus, drawn by :func:`synth.outputs.report.locus_plot.plot_locus`."""
 
     def to_file(path):
         from synth.outputs.report.locus_plot import plot_locus
 
-        if "trace" not in _cache:
-            try:
-                _cache["trace"], _cache["gain"] = trace_design_loop(
-                    problem, doc, int(design.get("rank", 1)))
-            except InputError as err:  # e.g. a zero gain: the loop has no locus to draw
-                _cache["trace"], _cache["why"] = None, err.message
-        if _cache["trace"] is None:
-            _placeholder(path, f"no root locus: {_cache['why']}")
+        if fig.locus is None:
+            _placeholder(path, f"no root locus: {fig.locus_note}")
             return
-        plot_locus(_cache["trace"], path, region=problem.region,
-                   operating_gain=_cache["gain"], title="root locus of the design's loop, "
-                   f"operating at K = {_cache['gain']:.4g}")
+        plot_locus(fig.locus, path, region=problem.region, operating_gain=fig.locus_gain,
+                   title="root locus of the design's loop, "
+                   f"operating at K = {fig.locus_gain:.4g}")
 
     return Figure("locus", 4.4,
                   "Root locus of the loop as the compensator gain K varies: open-loop poles x, "
@@ -407,41 +385,46 @@ def _placeholder(path, message: str) -> None:
     fig.savefig(path, format=Path(path).suffix[1:])
 
 
-def _design_section(problem, doc, design, curves) -> Section:
-    from synth.outputs.report.design_figures import draw_bode, draw_sensitivity, draw_step
+def _design_section(report: ReportInput, design: DesignRecord, fig: DesignFigures) -> Section:
+    from synth.outputs.report.design_figures import (
+        draw_bode,
+        draw_sensitivity,
+        draw_step,
+        figure_data,
+    )
 
-    rank = design.get("rank")
-    structure = design.get("structure")
+    problem = report.problem
+    curves = figure_data(fig.curves, design, problem)
     req = problem.requirements
-    comp = design.get("compensator") or {}
-    im = design.get("implementation") or {}
+    comp = design.compensator
+    im = design.implementation or {}
     blocks = []
-    if design.get("feasible"):
+    if design.feasible:
         blocks.append(Para("Meets every requirement (by the checks listed below).", "good"))
     else:
         blocks.append(Para("Does NOT meet every requirement:", "bad"))
-        blocks.append(Bullets(tuple(design.get("violations") or ["(no reason recorded)"]), "bad"))
+        blocks.append(Bullets(design.violations or ("(no reason recorded)",), "bad"))
     blocks.append(Pre((f"C(s) = {im.get('factored', '')}",)))
-    described = str(design.get("description") or "")
+    described = design.raw.get("description")
     blocks.append(Table(("property", "value"), (
-        *((("structure", described),) if described else ()),
-        ("found by", str(design.get("origin", "-"))),
-        ("gain K", _g(comp.get("gain"), 6)),
-        ("compensator zeros", _cplx_list(comp.get("zeros"))),
-        ("compensator poles", _cplx_list(comp.get("poles"))),
-        ("closed-loop poles", _cplx_list(design.get("closed_loop_poles"))),
+        *((("structure", str(described)),) if described else ()),
+        ("found by", design.origin or "-"),
+        ("gain K", _g(comp.gain, 6)),
+        ("compensator zeros", _cplx_list(comp.zeros)),
+        ("compensator poles", _cplx_list(comp.poles)),
+        ("closed-loop poles", _cplx_list(design.closed_loop_poles)),
     )))
     given = req.given()
-    m = design.get("metrics") or {}
     rows = []
-    for key, label, rkey in _METRICS:
-        need = _req_value_text(rkey, given[rkey]) if rkey in given else ""
-        rows.append((label, _metric_text(key, m.get(key)), need))
+    for key in _TABLE_METRICS:
+        entry = requirement_for(key)
+        need = _limit_text(given[entry.key]) if entry is not None and entry.key in given else ""
+        rows.append((METRICS[key].title, _metric_text(key, design.metric(key)), need))
     blocks.append(Heading("Checked performance"))
     blocks.append(Table(("metric", "value", "required"), tuple(rows), numeric=(False, True, True)))
 
     blocks.append(Heading("Root locus"))
-    blocks.append(_locus_figure(problem, doc, design))
+    blocks.append(_locus_figure(problem, fig))
     blocks.append(Heading("Step response and control effort"))
     blocks.append(Figure("step", 3.4, "Output and control effort for a unit-step reference, with the overshoot "
                          "limit, the settling band after the settling-time limit and the effort "
@@ -452,9 +435,9 @@ def _design_section(problem, doc, design, curves) -> Section:
     blocks.append(Figure("bode", 3.4, "Bode plot of the loop L(jw) = C(jw) G(jw): the phase margin is marked "
                          "at the gain crossover, the gain margin at the phase crossover.",
                          "Bode magnitude and phase",
-                         draw=lambda t: draw_bode(t, curves, design, "loop L = C G")))
+                         draw=lambda t: draw_bode(t, curves, "loop L = C G")))
     blocks.append(Para(
-        f"From these curves: gain crossover {_g(f.crossover)} rad/s, phase margin "
+        f"From these curves: gain crossover {_g(f.crossover_frequency)} rad/s, phase margin "
         f"{_g(f.phase_margin_deg)} deg, gain margin "
         f"{'unbounded' if f.gain_margin_db is None else _g(f.gain_margin_db) + ' dB'}, "
         f"closed-loop bandwidth {_g(f.bandwidth)} rad/s.", "muted"))
@@ -463,11 +446,11 @@ def _design_section(problem, doc, design, curves) -> Section:
                          "the shortest distance from the Nyquist curve to -1.",
                          "sensitivity magnitude",
                          draw=lambda t: draw_sensitivity(t, curves, req, "S = 1/(1+L)")))
-    for n in (*curves.notes, *(design.get("notes") or [])):
+    for n in (*curves.notes, *design.notes):
         blocks.append(Para(f"Note: {str(n).rstrip('.')}.", "muted"))
     blocks.extend(_implementation_blocks(im))
-    return Section(f"design-{rank}", f"Design {rank}: {structure}", tuple(blocks), "design",
-                   new_page=True)
+    return Section(f"design-{design.rank}", f"Design {design.rank}: {design.structure}",
+                   tuple(blocks), "design", new_page=True)
 
 
 def _implementation_blocks(im: dict) -> list:
@@ -533,7 +516,7 @@ def _implementation_blocks(im: dict) -> list:
     return blocks
 
 
-def _notes_section(doc) -> Section:
+def _notes_section() -> Section:
     items = (
         "Loop convention: unity negative feedback around L = C G; the closed-loop characteristic "
         "polynomial is formed without cancelling common factors.",
@@ -551,40 +534,28 @@ def _notes_section(doc) -> Section:
     return Section("notes", SECTION_TITLES["notes"], (Bullets(items),))
 
 
-def build_sections(problem, doc: dict, top: int = _TOP) -> list[Section]:
+def build_sections(report: ReportInput) -> list[Section]:
     """The report's content as a list of sections (shared by the HTML and the PDF).
 
     Parameters
     ----------
-    problem : synth.requirements.Problem
-    doc : dict
-        A synth.design/1 document; implementation forms are added when missing.
-    top : int
-        How many designs get a full section.
+    report : ReportInput
+        Every design with figures gets a full section.
 
     Returns
     -------
     list of Section
     """
-    from synth.outputs.report.design_figures import design_curves
-
-    designs = sorted(doc.get("designs") or [], key=lambda d: d.get("rank", 0))
-    if designs and any("implementation" not in d for d in designs):
-        from synth.outputs.implementation import add_implementation_forms
-
-        doc = add_implementation_forms(doc)
-        designs = sorted(doc.get("designs") or [], key=lambda d: d.get("rank", 0))
     sections = [
         Section("cautions", SECTION_TITLES["cautions"], (Bullets(CAUTIONS),), "caution"),
-        _plant_section(problem, doc),
-        _requirements_section(problem),
-        _proportional_section(problem, doc),
-        _ranking_section(doc),
+        _plant_section(report.problem),
+        _requirements_section(report.problem),
+        _proportional_section(report),
+        _ranking_section(report.document),
     ]
-    for d in designs[:top]:
-        curves = design_curves(doc, d, problem)
-        sections.append(_design_section(problem, doc, d, curves))
-    sections.append(_notes_section(doc))
+    for fig in report.figures:
+        sections.append(_design_section(report, report.document.design(fig.rank), fig))
+    sections.append(_notes_section())
     return sections
 
 
@@ -1017,17 +988,13 @@ def _title(problem) -> tuple[str, str]:
     return title, subtitle
 
 
-def write_report(problem, doc: dict, outdir) -> list[Path]:
+def write_report(report: ReportInput, outdir) -> list[Path]:
     """Write ``report.html`` and ``report.pdf`` for a design run into ``outdir``.
 
     Parameters
     ----------
-    problem : synth.requirements.Problem
-        The problem the run solved (plant, requirements, region).
-    doc : dict
-        Its synth.design/1 document, preferably with implementation forms
-        (:func:`synth.implementation.add_implementation_forms`); they are
-        added when missing.
+    report : ReportInput
+        What the report shows (``synth.design.prepare_report`` gathers it).
     outdir : str or path-like
         Folder for the report; created when missing.
 
@@ -1053,8 +1020,8 @@ def write_report(problem, doc: dict, outdir) -> list[Path]:
 
     out = Path(outdir)
     check_output_folder(out, "--report")
-    sections = build_sections(problem, doc)
-    title, subtitle = _title(problem)
+    sections = build_sections(report)
+    title, subtitle = _title(report.problem)
     page = render_html(sections, title, subtitle)
     with atomic_folder(out, "--report") as stage:
         (stage / "report.html").write_text(page, encoding="utf-8")
