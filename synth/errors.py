@@ -74,7 +74,7 @@ class InputError(SynthError):
     source : str, optional
         The file (or ``"<string>"``) the problem was found in.
     key : str, optional
-        The dotted key, e.g. ``"requirements.max_overshoot_percent"``.
+        The dotted key, e.g. ``"requirements.<key>"``.
     """
 
     def __init__(self, message: str, source: str | None = None, key: str | None = None):

@@ -198,7 +198,7 @@ class ConicForm:
         Lower bound of each ``x_i``: 0 (a conic generator) or ``-inf`` (free sign).
     carries_gain : ndarray of bool, shape (m,)
         Whether ``x_i`` contributes to the leading coefficient (the gain
-        ``K``), so that ``gain_range`` bounds it.
+        ``K``), so that the allowed gain range bounds it.
     fixed : tuple of float
         The fixed values, named by ``fixed_names``.
     fixed_names : tuple of str

@@ -62,7 +62,7 @@ class PFamily(Family):
         return ParallelGains(kp=float(trim(num)[0] / trim(den)[0]), ki=0.0, kd=0.0, tf=0.0)
 
     def futility(self, explanation):
-        """No gain in ``gain_range`` stabilises the plant (or keeps it stable over the
+        """No gain in the allowed gain range stabilises the plant (or keeps it stable over the
         plant-gain range): explain's exact intervals say so."""
         if explanation is None:
             return None

@@ -1180,19 +1180,25 @@ def requirements_skeleton(fit: FitResult, data_ref: str | None = None) -> str:
             f"# model = {_toml_str(fit.model)}",
             "",
         ]
+    from synth.problem.catalogue import requirement_for
+
+    def key(metric: str) -> str:  # the file's key for a metric, from the catalogue
+        return requirement_for(metric).key
+
     lines += [
         "[requirements]",
-        "# max_peak_sensitivity = 1.4        # robustness (common practice: 1.2 to 2)",
-        "# min_gain_margin_db = 6.0",
-        "# min_phase_margin_deg = 45.0",
+        f"# {key('peak_sensitivity')} = 1.4        # robustness (common practice: 1.2 to 2)",
+        f"# {key('gain_margin_db')} = 6.0",
+        f"# {key('phase_margin_deg')} = 45.0",
     ]
     if settle is not None:
-        lines.append(f"# max_settling_time = {_num(settle)}      # dead time + 4 x max(dead time, "
-                     "sum of lags), in the data's time unit")
+        lines.append(f"# {key('settling_time')} = {_num(settle)}      # dead time + 4 x max(dead "
+                     "time, sum of lags), in the data's time unit")
     lines += [
-        "# max_overshoot_percent = 10.0",
-        "# max_steady_state_error = 0.0      # integral action",
-        "# plant_gain_range = [0.7, 1.4]     # process gain varies with the operating point",
+        f"# {key('overshoot_percent')} = 10.0",
+        f"# {key('steady_state_error')} = 0.0      # integral action",
+        f"# {key('stable_plant_gain_range')} = [0.7, 1.4]     # process gain varies with the "
+        "operating point",
         "",
         "[search]",
         'structures = ["P", "PI", "PID", "lead", "lag"]',

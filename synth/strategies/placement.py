@@ -335,7 +335,7 @@ class PlacementKit:
     signs : tuple of int
         Gain signs worth trying (:func:`gain_signs`).
     gain_lo, gain_hi : float or None
-        ``gain_range``.
+        The allowed compensator gain range.
     w_max : float
         ``search.max_frequency``: no pole or zero beyond it.
     kp_need : float or None
