@@ -98,7 +98,7 @@ def test_reverse_acting_plant_gets_only_negative_proportional_gains():
     problem = _problem('expression = "-2/((50*s-1)*(10*s+1))"',
                        "max_overshoot_percent = 30.0\nmax_settling_time = 150.0\n"
                        "gain_range = [-20.0, 20.0]",
-                       'structures = ["P", "lead"]\neffort = 0.3\nkeep = 6')
+                       'structures = ["P", "lead"]\neffort = 0.3\nkeep = 30')
     doc = run_design(problem).to_json()
     ps = [d for d in doc["designs"] if d["feasible"] and d["structure"] == "P"]
     assert ps, "a negative proportional gain meets these limits"

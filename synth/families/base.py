@@ -66,6 +66,21 @@ import numpy as np
 from synth.numerics.poly import scaled_roots, trim
 from synth.problem.plant import describe_factored
 
+#: Default bound on compensator pole and zero magnitudes, relative to the problem's
+#: fastest rate (plant roots, inverse dead time, the speeds the requirements ask for).
+_DEFAULT_HEADROOM = 100.0
+
+
+def _unit_gain_frequency(num, den) -> float:
+    """Frequency where ``|k s^m / s^n| = 1`` for a plant whose roots all lie at the origin."""
+    n, d = trim(num), trim(den)
+    rel = (d.size - 1) - (n.size - 1)
+    lead = abs(float(n[0] / d[0]))
+    if rel == 0 or lead == 0.0:
+        return 1.0  # a static gain has no time scale of its own
+    return lead ** (1.0 / rel)
+
+
 #: Derivative-filter ratio range of the PD family: pole / zero = 1 + N_f with
 #: the standard-form filter constant N_f from 2 to 50 (common practice).
 PD_RATIO_RANGE = (3.0, 51.0)
@@ -106,7 +121,6 @@ class SearchSpace:
         plant = problem.plant
         req = problem.requirements
         search = problem.search
-        w_max = float(search.max_frequency)
         mags = []
         for poly in (plant.rational_num, plant.rational_den):
             p = trim(poly)
@@ -121,12 +135,17 @@ class SearchSpace:
         rise = req.limit("rise_time")
         if rise is not None:
             mags.append(1.8 / rise)
-        if mags:
-            w_char = float(np.exp(np.mean(np.log(mags))))
-            w_low = min(mags)
+        if not mags:
+            # only integrators or differentiators: the frequency where |G| = 1 sets the scale
+            mags.append(_unit_gain_frequency(plant.rational_num, plant.rational_den))
+        w_char = float(np.exp(np.mean(np.log(mags))))
+        w_low = min(mags)
+        if search.max_frequency is not None:
+            w_max = float(search.max_frequency)
         else:
-            w_char = 1.0
-            w_low = 1.0
+            # not given: two decades above the problem's fastest rate, so the bound follows
+            # the plant's own time scale (a converter at 1e5 rad/s is an ordinary plant)
+            w_max = _DEFAULT_HEADROOM * max(mags)
         w_char = min(max(w_char, w_max * 1e-6), w_max)
         w_min = min(1e-3 * w_char, 2e-2 * w_low)
         w_min = min(max(w_min, w_max * 1e-7), w_max * 1e-2)

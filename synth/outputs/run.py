@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from synth.families.base import SearchSpace
 from synth.outputs.cautions import CAUTION
 from synth.outputs.jsonout import clean, root_pairs
 from synth.outputs.text import Row, TextReport, TextTable, plain_lines
@@ -109,7 +110,8 @@ def design_json(run) -> dict:
         "proportional": run.proportional,
         "caution": CAUTION,
         "search": {"seed": s.seed, "time_budget": s.time_budget, "keep": s.keep,
-                   "structures": list(s.structures or FAMILIES), **run.stats},
+                   "structures": list(s.structures or FAMILIES),
+                   "max_frequency": SearchSpace.for_problem(problem).w_max, **run.stats},
     }
     if problem.source:
         out["source"] = problem.source

@@ -171,7 +171,8 @@ class SearchSettings:
 
     structures: tuple[str, ...] | None = None
     general_order: int = 2
-    max_frequency: float = 1000.0
+    #: rad/s; ``None``: derived from the problem's own scale (see ``SearchSpace.for_problem``)
+    max_frequency: float | None = None
     seed: int = 0
     keep: int = 10
     #: seconds of wall clock after which the search stops as a safety limit (the

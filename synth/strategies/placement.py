@@ -277,7 +277,9 @@ def _dc(num, den) -> float:
 def _limits(problem):
     gr = problem.requirements.limit("gain")
     lo, hi = (None, None) if gr is None else (float(gr[0]), float(gr[1]))
-    return lo, hi, float(problem.search.max_frequency)
+    from synth.families.base import SearchSpace
+
+    return lo, hi, float(SearchSpace.for_problem(problem).w_max)
 
 
 def _static_sign(num, den) -> int:
