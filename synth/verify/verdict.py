@@ -59,9 +59,8 @@ import numpy as np
 from synth.numerics.poly import common_roots, format_complex, scaled_roots, trim
 from synth.numerics.scaling import EPS
 from synth.problem.catalogue import METRICS, REQUIREMENTS
-from synth.verify.frequency import frequency_metrics
 from synth.verify.loop import loop_polynomials
-from synth.verify.simulation import step_metrics, step_response
+from synth.verify.simulation import step_metrics
 
 #: The contract's metric names, in order.
 METRIC_KEYS = tuple(k for k, m in METRICS.items() if m.contract)
@@ -138,28 +137,68 @@ def _fmt(v: float, digits: int = 3) -> str:
     return f"{v:.{digits}g}"
 
 
-def verify(problem, num_c, den_c, exact_delay: bool = True) -> Verdict:
-    """Verify one compensator against every requirement of ``problem``.
+@dataclass(frozen=True)
+class ModelResult:
+    """What the verifier found for one plant model (see :func:`evaluate_model`).
+
+    Attributes
+    ----------
+    label : str
+        Which model: ``"nominal"`` or a variant's label or parameter values.
+    metrics : dict
+        Metric key -> value (``None`` unbounded or undefined), as in :class:`Verdict`.
+    witnesses : dict
+        Where a metric's value occurs, by metric key, in words.
+    poles : ndarray of complex
+        Roots of the unreduced characteristic polynomial, sorted.
+    stable, internally_stable : bool
+    violations : tuple of str
+        Violations that are not limits of the file: instability, an unstable
+        cancellation, an ill-posed loop.
+    shortfalls : dict
+        Their shortfalls (``"stability"``, ``"internal_stability"``).
+    notes : tuple of str
+    exact_delay : bool
+    """
+
+    label: str
+    metrics: dict[str, Any]
+    witnesses: dict[str, str]
+    poles: np.ndarray
+    stable: bool
+    internally_stable: bool
+    violations: tuple[str, ...] = ()
+    shortfalls: dict[str, float] = field(default_factory=dict)
+    notes: tuple[str, ...] = ()
+    exact_delay: bool = True
+
+
+def evaluate_model(problem, plant, num_c, den_c, exact_delay: bool = True,
+                   label: str = "nominal") -> ModelResult:
+    """Every metric of the loop around one plant model, and its structural violations.
 
     Parameters
     ----------
-    problem : synth.requirements.Problem
+    problem : synth.problem.Problem
+        Its requirements (simulation horizon, settling band) and region.
+    plant : synth.problem.plant.Plant
+        The plant model (the nominal plant, a variant, a point of the ranges).
     num_c, den_c : array_like
-        Compensator numerator (``K`` times the monic numerator) and monic
-        denominator, descending powers.
+        Compensator polynomials.
     exact_delay : bool
-        Simulate a dead time exactly (default).  ``False`` uses the Pade form
-        in the simulation too (a quicker first pass; reported designs are
-        always re-verified with the exact delay).
+        Simulate a dead time exactly (default) or by its Pade form.
+    label : str
+        Name of the model in texts and worst-case records.
 
     Returns
     -------
-    Verdict
+    ModelResult
     """
     from synth.locus.core import interval_containing, stable_gain_intervals
     from synth.problem.region import Region
+    from synth.verify.frequency import loop_frequency
+    from synth.verify.simulation import simulate_step
 
-    plant = problem.plant
     req = problem.requirements
     region = problem.region
     nc, dc = trim(num_c), trim(den_c)
@@ -199,6 +238,7 @@ def verify(problem, num_c, den_c, exact_delay: bool = True) -> Verdict:
         violations.append("ill-posed loop: 1 + C(s) G(s) vanishes at infinite frequency "
                           f"(compensator gain {_fmt(gain, 4)})")
         short["stability"] = _UNSTABLE_SHORTFALL
+    zeta = np.zeros(0)
     if poles.size:
         zeta = np.where(np.abs(poles) > 0, -poles.real / np.maximum(np.abs(poles), 1e-300), 0.0)
         metrics["min_damping_ratio"] = float(np.min(zeta))
@@ -220,21 +260,61 @@ def verify(problem, num_c, den_c, exact_delay: bool = True) -> Verdict:
         iv = interval_containing(stable_gain_intervals(num_l, den_l), 1.0)
         if iv is not None:
             metrics["stable_plant_gain_range"] = [iv[0], iv[1]]
-        resp = step_response(problem, nc, dc, exact_delay=exact_delay)
+        resp = simulate_step(plant, nc, dc, requirements=req, exact_delay=exact_delay)
         exact = resp.exact_delay
         metrics.update(step_metrics(resp, req.settling_band))
-        metrics.update(frequency_metrics(problem, nc, dc))
-    _check_limits(req, metrics, witnesses, stable, violations, short)
-    if stable:
+        metrics.update(loop_frequency(plant, nc, dc).metrics())
         notes.extend(_slow_hidden_poles(poles, num_l, region))
     if plant.dead_time > 0 and not exact and exact_delay:
         notes.append("dead time too short to resolve against the horizon: time-domain "
                      "metrics from the Pade form")
+    return ModelResult(label=label, metrics=metrics, witnesses=witnesses, poles=poles,
+                       stable=stable, internally_stable=internally_stable,
+                       violations=tuple(violations), shortfalls=short, notes=tuple(notes),
+                       exact_delay=exact or plant.dead_time == 0)
+
+
+def verify(problem, num_c, den_c, exact_delay: bool = True) -> Verdict:
+    """Verify one compensator against every requirement of ``problem``.
+
+    Each plant model of the problem is evaluated by :func:`evaluate_model`
+    (today the nominal plant; further models join through
+    :func:`plant_models`); every limit is then judged by its catalogue entry.
+
+    Parameters
+    ----------
+    problem : synth.problem.Problem
+    num_c, den_c : array_like
+        Compensator numerator (``K`` times the monic numerator) and monic
+        denominator, descending powers.
+    exact_delay : bool
+        Simulate a dead time exactly (default).  ``False`` uses the Pade form
+        in the simulation too (a quicker first pass; reported designs are
+        always re-verified with the exact delay).
+
+    Returns
+    -------
+    Verdict
+    """
+    results = [evaluate_model(problem, plant, num_c, den_c, exact_delay, label)
+               for label, plant in plant_models(problem)]
+    nominal = results[0]
+    metrics = dict(nominal.metrics)
+    witnesses = dict(nominal.witnesses)
+    violations = list(nominal.violations)
+    short = dict(nominal.shortfalls)
+    stable = nominal.stable
+    _check_limits(problem.requirements, metrics, witnesses, stable, violations, short)
     return Verdict(metrics=metrics, violations=tuple(violations), feasible=not violations,
-                   closed_loop_poles=tuple(complex(p) for p in poles), stable=stable,
-                   internally_stable=internally_stable, shortfall=float(sum(short.values())),
-                   notes=tuple(notes), exact_delay=exact or plant.dead_time == 0,
-                   shortfalls=short, witnesses=witnesses)
+                   closed_loop_poles=tuple(complex(p) for p in nominal.poles), stable=stable,
+                   internally_stable=nominal.internally_stable,
+                   shortfall=float(sum(short.values())), notes=nominal.notes,
+                   exact_delay=nominal.exact_delay, shortfalls=short, witnesses=witnesses)
+
+
+def plant_models(problem) -> list[tuple[str, Any]]:
+    """The plant models a design must satisfy, as ``(label, plant)``, nominal first."""
+    return [("nominal", problem.plant)]
 
 
 def _slow_hidden_poles(poles, num_l, region) -> list[str]:
