@@ -40,8 +40,6 @@ from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import Any
 
-import numpy as np
-
 from synth.errors import StrategyDeclined
 from synth.families import families_for
 from synth.outputs.cautions import CAUTION
@@ -164,7 +162,7 @@ class DesignRun:
 
 
 def _verify_all(problem, cands, exact: bool) -> list:
-    return [verify(problem, np.asarray(c.num), np.asarray(c.den), exact_delay=exact)
+    return [verify(problem, c.controller, exact_delay=exact)
             for c in cands]
 
 
@@ -267,7 +265,7 @@ def run_design(problem, strategies=None, families=None,
                 break
             for i in todo:
                 c = candidates[i]
-                pairs[i] = (c, verify(problem, np.asarray(c.num), np.asarray(c.den)))
+                pairs[i] = (c, verify(problem, c.controller))
                 exact[i] = True
     ranked = rank_designs(pairs, problem)
     if progress is not None:

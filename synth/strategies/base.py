@@ -109,6 +109,11 @@ class Candidate:
     provenance : mapping
         How the strategy found it (method, target point, objective, ...);
         JSON-serialisable values only.
+    shaping : synth.verify.controller.ReferenceShaping or None
+        Reference prefilter or set-point weights added after the search
+        (the loop stays ``num/den``).
+    anti_windup : synth.verify.controller.AntiWindup or None
+        Anti-windup scheme added after the search (with actuator limits).
     """
 
     structure: str
@@ -117,10 +122,19 @@ class Candidate:
     num: tuple[float, ...]
     den: tuple[float, ...]
     provenance: Mapping[str, Any] = field(default_factory=dict)
+    shaping: Any = None
+    anti_windup: Any = None
 
     @property
     def gain(self) -> float:
         return float(self.num[0] / self.den[0])
+
+    @property
+    def controller(self):
+        """The whole design as a :class:`synth.verify.controller.Controller`."""
+        from synth.verify.controller import Controller
+
+        return Controller(self.num, self.den, self.shaping, self.anti_windup)
 
 
 @dataclass(frozen=True)

@@ -173,7 +173,7 @@ class ModelResult:
     exact_delay: bool = True
 
 
-def evaluate_model(problem, plant, num_c, den_c, exact_delay: bool = True,
+def evaluate_model(problem, plant, controller, exact_delay: bool = True,
                    label: str = "nominal") -> ModelResult:
     """Every metric of the loop around one plant model, and its structural violations.
 
@@ -183,8 +183,8 @@ def evaluate_model(problem, plant, num_c, den_c, exact_delay: bool = True,
         Its requirements (simulation horizon, settling band) and region.
     plant : synth.problem.plant.Plant
         The plant model (the nominal plant, a variant, a point of the ranges).
-    num_c, den_c : array_like
-        Compensator polynomials.
+    controller : synth.verify.controller.Controller
+        The design: compensator, reference shaping, anti-windup.
     exact_delay : bool
         Simulate a dead time exactly (default) or by its Pade form.
     label : str
@@ -201,7 +201,7 @@ def evaluate_model(problem, plant, num_c, den_c, exact_delay: bool = True,
 
     req = problem.requirements
     region = problem.region
-    nc, dc = trim(num_c), trim(den_c)
+    nc, dc = trim(controller.num), trim(controller.den)
     num_l, den_l, char = loop_polynomials(plant, nc, dc)
     poles = scaled_roots(char)
     poles = poles[np.lexsort((poles.imag, poles.real))] if poles.size else poles
@@ -274,7 +274,7 @@ def evaluate_model(problem, plant, num_c, den_c, exact_delay: bool = True,
                        exact_delay=exact or plant.dead_time == 0)
 
 
-def verify(problem, num_c, den_c, exact_delay: bool = True) -> Verdict:
+def verify(problem, num_c, den_c=None, exact_delay: bool = True) -> Verdict:
     """Verify one compensator against every requirement of ``problem``.
 
     Each plant model of the problem is evaluated by :func:`evaluate_model`
@@ -284,9 +284,11 @@ def verify(problem, num_c, den_c, exact_delay: bool = True) -> Verdict:
     Parameters
     ----------
     problem : synth.problem.Problem
-    num_c, den_c : array_like
+    num_c, den_c : array_like, or a Controller and None
         Compensator numerator (``K`` times the monic numerator) and monic
-        denominator, descending powers.
+        denominator, descending powers; or a whole
+        :class:`synth.verify.controller.Controller` (with its reference
+        shaping and anti-windup) as ``num_c``.
     exact_delay : bool
         Simulate a dead time exactly (default).  ``False`` uses the Pade form
         in the simulation too (a quicker first pass; reported designs are
@@ -296,7 +298,10 @@ def verify(problem, num_c, den_c, exact_delay: bool = True) -> Verdict:
     -------
     Verdict
     """
-    results = [evaluate_model(problem, plant, num_c, den_c, exact_delay, label)
+    from synth.verify.controller import Controller
+
+    controller = Controller.of(num_c, den_c)
+    results = [evaluate_model(problem, plant, controller, exact_delay, label)
                for label, plant in plant_models(problem)]
     nominal = results[0]
     metrics = dict(nominal.metrics)
