@@ -192,3 +192,25 @@ def test_a_period_too_long_makes_the_sampled_loop_unstable_and_infeasible():
         assert any(w.startswith("warning") for w in d["discrete"]["warnings"])
     lines = "\n".join(run.table_lines())
     assert "sampled every 2.5 s" in lines and "UNSTABLE" in lines
+
+
+def test_report_has_a_discrete_implementation_part():
+    from synth.outputs.document import read_design
+    from synth.outputs.report.discrete_section import discrete_blocks, section_equations
+    from synth.outputs.report.document import Heading, Pre, Table
+
+    run = _run("period = 0.05\ncompute_delay = 0.01\n")
+    doc = read_design(run.to_json())
+    blocks = discrete_blocks(doc.designs[0], doc.raw.get("sampling"))
+    assert any(isinstance(b, Heading) and b.text == "Discrete implementation" for b in blocks)
+    pre = next(b for b in blocks if isinstance(b, Pre))
+    dz = doc.designs[0].discrete
+    assert pre.lines[0].startswith("u[k] = ")
+    table = next(b for b in blocks if isinstance(b, Table))
+    pm_row = next(r for r in table.rows if r[0] == "phase margin (deg)")
+    assert pm_row[2] == f"{dz['sampled_loop']['phase_margin_deg']:.4g}"
+    # the written recursion of a section: x[k] = sum b_i e[k-i] - sum a_i x[k-i]
+    text = section_equations([{"b": [2.0, -1.5, 0.0], "a": [1.0, -1.0, 0.25]},
+                              {"b": [1.0, 0.5], "a": [1.0, 0.2]}])
+    assert text == ["x1[k] = 2 e[k] - 1.5 e[k-1] + 1 x1[k-1] - 0.25 x1[k-2]",
+                    "u[k] = 1 x1[k] + 0.5 x1[k-1] - 0.2 u[k-1]"]
