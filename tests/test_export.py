@@ -376,3 +376,33 @@ def test_cli_errors_are_one_line_exit_2(tmp_path, capsys, args, needle):
     err = capsys.readouterr().err
     assert code == 2 and needle in err and len(err.strip().splitlines()) == 1
     assert not (tmp_path / "fw").exists()
+
+
+@pytest.mark.parametrize("edit,key", [
+    (lambda d: d["designs"][0].update(anti_windup={"scheme": 3}), "anti_windup.scheme"),
+    (lambda d: d["designs"][0].update(anti_windup={"scheme": "back-calculation",
+                                                   "parameters": {"tracking_time": "x"}}),
+     "anti_windup.parameters.tracking_time"),
+    (lambda d: d.update(actuator={"limits": [2.0, -2.0]}), "actuator.limits"),
+    (lambda d: d.update(actuator={"max_rate": -1.0}), "actuator.max_rate"),
+    (lambda d: d["designs"][0]["discrete"].update(compute_delay=1.0), "discrete.compute_delay"),
+    (lambda d: d["designs"][0]["discrete"].update(method="euler"), "discrete.method"),
+    (lambda d: d["designs"][0].update(reference_filter={"setpoint_weights": {"c": 0.0}}),
+     "setpoint_weights.b"),
+])
+def test_malformed_documents_name_the_field(edit, key):
+    doc = _document("PI", [2.0, 3.0], [1.0, 0.0])
+    edit(doc)
+    with pytest.raises(InputError) as info:
+        export_design(read_design(doc, "run.json"), 1, "c")
+    assert key in str(info.value) and "run.json" in str(info.value)
+
+
+def test_weights_without_c_need_a_compensator_without_derivative_action():
+    doc = CASES["pid_weights"]
+    import copy
+
+    doc = copy.deepcopy(doc)
+    doc["designs"][0]["reference_filter"] = {"setpoint_weights": {"b": 0.4}}
+    with pytest.raises(InputError, match="derivative weight c"):
+        export_design(read_design(doc, "run.json"), 1, "c")
