@@ -18,7 +18,7 @@ References
 from __future__ import annotations
 
 from synth.outputs.export.header import header_lines
-from synth.verify.discrete import Assign
+from synth.outputs.export.infix import statement_lines
 
 __all__ = ["c_files", "c_literal"]
 
@@ -36,17 +36,6 @@ def _comment(lines, indent: str = "") -> list[str]:
     out += [f"{indent} * {line}".rstrip() for line in lines]
     out.append(f"{indent} */")
     return out
-
-
-def _expr(terms, ref) -> str:
-    parts = []
-    for i, (sign, a, b) in enumerate(terms):
-        body = ref(a) if b is None else f"{ref(a)} * {ref(b)}"
-        if i == 0:
-            parts.append(body if sign > 0 else f"-{body}")
-        else:
-            parts.append(f"{'+' if sign > 0 else '-'} {body}")
-    return " ".join(parts)
 
 
 def c_files(name: str, program, facts) -> tuple[tuple[str, str], tuple[str, str]]:
@@ -106,16 +95,8 @@ def c_files(name: str, program, facts) -> tuple[tuple[str, str], tuple[str, str]
     if program.temps:
         c.append(f"    double {', '.join(program.temps)};")
     c.append("")
-    for st in program.statements:
-        if isinstance(st, Assign):
-            c.append(f"    {ref(st.target)} = {_expr(st.terms, ref)};")
-        else:
-            t = ref(st.target)
-            if st.low is not None:
-                c += [f"    if ({t} < {ref(st.low)}) {{", f"        {t} = {ref(st.low)};",
-                      "    }"]
-            if st.high is not None:
-                c += [f"    if ({t} > {ref(st.high)}) {{", f"        {t} = {ref(st.high)};",
-                      "    }"]
+    c += statement_lines(program.statements, ref, "{target} = {value};",
+                         ("if ({target} {op} {bound}) {{", "    {target} = {bound};", "}}"),
+                         indent="    ")
     c += [f"    return {ref(program.output)};", "}", ""]
     return (f"{name}.h", "\n".join(h)), (f"{name}.c", "\n".join(c))

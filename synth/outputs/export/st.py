@@ -18,7 +18,7 @@ References
 from __future__ import annotations
 
 from synth.outputs.export.header import header_lines
-from synth.verify.discrete import Assign
+from synth.outputs.export.infix import statement_lines
 
 __all__ = ["st_file", "st_literal"]
 
@@ -37,17 +37,6 @@ def st_literal(x: float) -> str:
     if "." not in mant:
         mant += ".0"
     return mant + (f"E{exp}" if exp else "")
-
-
-def _expr(terms, ref) -> str:
-    parts = []
-    for i, (sign, a, b) in enumerate(terms):
-        body = ref(a) if b is None else f"{ref(a)} * {ref(b)}"
-        if i == 0:
-            parts.append(body if sign > 0 else f"-{body}")
-        else:
-            parts.append(f"{'+' if sign > 0 else '-'} {body}")
-    return " ".join(parts)
 
 
 def st_file(name: str, program, facts) -> tuple[tuple[str, str]]:
@@ -97,15 +86,8 @@ def st_file(name: str, program, facts) -> tuple[tuple[str, str]]:
         out.append("IF reset THEN")
         out += [f"    {n} := {st_literal(v)};" for n, v, _ in program.states]
         out.append("END_IF;")
-    for st in program.statements:
-        if isinstance(st, Assign):
-            out.append(f"{ref(st.target)} := {_expr(st.terms, ref)};")
-        else:
-            t = ref(st.target)
-            if st.low is not None:
-                out += [f"IF {t} < {ref(st.low)} THEN", f"    {t} := {ref(st.low)};", "END_IF;"]
-            if st.high is not None:
-                out += [f"IF {t} > {ref(st.high)} THEN", f"    {t} := {ref(st.high)};",
-                        "END_IF;"]
+    out += statement_lines(program.statements, ref, "{target} := {value};",
+                           ("IF {target} {op} {bound} THEN", "    {target} := {bound};",
+                            "END_IF;"))
     out += [f"output := {ref(program.output)};", "END_FUNCTION_BLOCK", ""]
     return ((f"{name}.st", "\n".join(out)),)
