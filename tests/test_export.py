@@ -406,3 +406,28 @@ def test_weights_without_c_need_a_compensator_without_derivative_action():
     doc["designs"][0]["reference_filter"] = {"setpoint_weights": {"b": 0.4}}
     with pytest.raises(InputError, match="derivative weight c"):
         export_design(read_design(doc, "run.json"), 1, "c")
+
+
+@pytest.mark.parametrize(("point", "sig", "code"), [("folder", "INT", 130), ("commit", "TERM", 143)])
+def test_an_interrupted_export_leaves_nothing_half_written(tmp_path, point, sig, code):
+    # a process ended by signal N exits 128 + N (POSIX shells, common practice)
+    import json
+    import os
+    import sys
+
+    root = Path(__file__).resolve().parents[1]
+    path = tmp_path / "run.json"
+    path.write_text(json.dumps(CASES["pi_aw"]))
+    env = {**os.environ, "PYTHONPATH": str(root), "SYNTH_INTERRUPT_AT": f"{point}:{sig}"}
+    res = subprocess.run([sys.executable, "-m", "synth.cli", "export", str(path), "--out",
+                          str(tmp_path / "fw")], capture_output=True, text=True, cwd=root,
+                         env=env, timeout=600)
+    assert res.returncode == code, res.stderr
+    assert [p for p in tmp_path.rglob("*") if p.name.startswith(".")] == []
+    fw = tmp_path / "fw"
+    if point == "commit":  # the renames finish before the signal is taken
+        assert sorted(p.name for p in fw.iterdir()) == ["controller.c", "controller.h",
+                                                        "controller_vectors.csv"]
+        assert "written before it" in res.stderr
+    else:
+        assert not fw.exists() and "nothing written" in res.stderr
