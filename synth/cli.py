@@ -113,13 +113,13 @@ def explain(
             _write_json(json_out, doc, written)
 
 
-def _split_design_ref(ref: str) -> tuple[str, int]:
+def _split_design_ref(ref: str, what: str = "--design") -> tuple[str, int]:
     path, rank = ref, 1
     head, sep, tail = ref.rpartition(":")
     if sep and tail.isdigit() and head:
         path, rank = head, int(tail)
     if rank < 1:
-        raise OptionError(f"--design {ref}: the rank must be 1 or more")
+        raise OptionError(f"{what} {ref}: the rank must be 1 or more")
     return path, rank
 
 
@@ -289,6 +289,37 @@ def fit(
                               "--write-requirements")
             written.append(write_requirements)
             typer.echo(f"requirements file written to {write_requirements}")
+
+
+@app.command()
+def export(
+    run: str = typer.Argument(..., metavar="RUN.json[:RANK]", help="A design JSON file (synth.design/1) and the design's rank (1 by default)."),
+    language: str = typer.Option("c", "--language", help="c (C99: NAME.h, NAME.c) or st (IEC 61131-3 Structured Text: NAME.st)."),
+    name: str = typer.Option("controller", "--name", help="Name of the files, the state struct and the functions (or the function block)."),
+    out: str = typer.Option(..., "--out", help="Folder for the code and NAME_vectors.csv."),
+) -> None:
+    """Firmware hand-over: the chosen design's discrete controller as code, with test vectors."""
+    from synth.outputs.export import check_name
+
+    check_name(name, language)
+    path, rank = _split_design_ref(run, "RUN.json")
+    check_output_folder(out, "--out")
+    written: list[str] = []
+    with _interruptible(written):
+        from pathlib import Path
+
+        from synth.outputs.document import load_design
+        from synth.outputs.export import export_design
+        from synth.outputs.files import atomic_folder
+
+        result = export_design(load_design(path), rank, language, name)
+        with atomic_folder(out, "--out") as staging:
+            for filename, text in result.files:
+                (staging / filename).write_text(text, encoding="utf-8")
+        for filename, _ in result.files:
+            written.append(str(Path(out) / filename))
+        _echo_lines(result.summary)
+        typer.echo("written: " + ", ".join(written))
 
 
 @contextmanager

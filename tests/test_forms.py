@@ -494,11 +494,12 @@ def test_unreduced_characteristic_keeps_cancelled_unstable_mode():
 
 
 def test_sample_rate_warning_thresholds():
-    # Common practice: sample at 10 to 20 times the closed-loop bandwidth.
+    # Common practice: sample at 10 to 30 times the closed-loop bandwidth (Franklin, Powell and
+    # Workman, from memory).
     bw = 10.0
     slow = sample_rate_warning(2 * math.pi / (5 * bw), bw)
-    mid = sample_rate_warning(2 * math.pi / (15 * bw), bw)
-    fast = sample_rate_warning(2 * math.pi / (25 * bw), bw)
+    mid = sample_rate_warning(2 * math.pi / (25 * bw), bw)
+    fast = sample_rate_warning(2 * math.pi / (35 * bw), bw)
     assert slow.startswith("warning:") and "5 times" in slow
     assert mid.startswith("note:")
     assert fast is None

@@ -122,6 +122,10 @@ def documents(draw):
                                              max_size=4), WRONG),
             "general_order": VALUES, "max_frequency": VALUES, "seed": VALUES,
             "keep": VALUES, "time_budget": VALUES}))
+    if draw(st.integers(0, 5)) == 5:
+        doc["sampling"] = draw(st.one_of(
+            st.fixed_dictionaries({}, optional={"period": VALUES, "compute_delay": VALUES,
+                                                "rate": VALUES}), WRONG))
     if draw(st.integers(0, 7)) == 7:
         doc[draw(st.sampled_from(_ODD_KEYS))] = draw(VALUES)
     if draw(st.integers(0, 7)) == 7:

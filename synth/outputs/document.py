@@ -14,7 +14,9 @@ with ``numerator`` and ``denominator`` or ``zeros``, ``poles`` and ``gain``
 present: the plant (:meth:`DesignDocument.need_plant` asks for it), the
 requirements, region, search settings, and the second round's per-design
 ``worst_case``, ``reference_filter`` / ``setpoint_weights``, ``anti_windup``
-and ``discrete`` objects and the document's ``objective``.  Fields the model
+and ``discrete`` objects and the document's ``objective`` and ``actuator``
+(typed by :meth:`DesignDocument.controller`, :meth:`DesignDocument.discrete_form`
+and :class:`ActuatorRecord`).  Fields the model
 does not know are kept in ``raw`` untouched, so writers that add to a
 document lose nothing.
 """
@@ -35,7 +37,9 @@ from synth.errors import InputError
 
 __all__ = [
     "SCHEMA",
+    "ActuatorRecord",
     "CompensatorRecord",
+    "DiscreteRecord",
     "DesignDocument",
     "DesignRecord",
     "PlantRecord",
@@ -135,6 +139,55 @@ class CompensatorRecord:
 
 
 @dataclass(frozen=True)
+class DiscreteRecord:
+    """A design's discrete form: the contract's ``discrete`` object (or the older
+    ``implementation.discrete`` of ``design --sample-time``).
+
+    Attributes
+    ----------
+    period, compute_delay : float
+        Seconds.
+    numerator, denominator : tuple of float
+        ``C(z)``, descending powers of z.
+    method : str or None
+        ``"tustin-prewarp"`` or ``"tustin"`` (how ``C(s)`` was mapped);
+        ``None`` when the document does not say (the form is then taken as
+        given in z).
+    warp_frequency : float or None
+        rad/s, for ``"tustin-prewarp"``.
+    key : str
+        Where in the document it is (for messages).
+    """
+
+    period: float
+    compute_delay: float
+    numerator: tuple[float, ...]
+    denominator: tuple[float, ...]
+    method: str | None
+    warp_frequency: float | None
+    key: str
+
+
+@dataclass(frozen=True)
+class ActuatorRecord:
+    """The document's ``actuator`` object (the ``[actuator]`` table the run used).
+
+    Attributes
+    ----------
+    limits : (float, float) or None
+        Controller output range.
+    max_rate : float or None
+        Units per second.
+    reference_step : float
+        Size of the reference step of the saturated simulations (default 1).
+    """
+
+    limits: tuple[float, float] | None
+    max_rate: float | None
+    reference_step: float = 1.0
+
+
+@dataclass(frozen=True)
 class DesignRecord:
     """One entry of ``designs``.
 
@@ -217,6 +270,8 @@ class DesignDocument:
         Second round: what "best" meant.
     raw : mapping
         The document as read (read-only).
+    actuator : ActuatorRecord or None
+        The output limits and rate the run used (document-level ``actuator``).
     """
 
     source: str
@@ -228,6 +283,84 @@ class DesignDocument:
     search: Mapping[str, Any] | None
     objective: str | None
     raw: Mapping[str, Any]
+    actuator: ActuatorRecord | None = None
+
+    def controller(self, design: DesignRecord):
+        """The whole design as a :class:`synth.verify.controller.Controller`.
+
+        The compensator with its reference shaping (``reference_filter``:
+        a prefilter ``{numerator, denominator}`` or ``{"setpoint_weights":
+        {b, c}}``; or a design-level ``setpoint_weights``) and its
+        ``anti_windup`` (``{"scheme", "parameters"}``).
+
+        Raises
+        ------
+        InputError
+            A malformed shaping or anti-windup object, naming the field.
+        """
+        from synth.verify.controller import AntiWindup, Controller, ReferenceShaping
+
+        key = f"designs[{design.index}]"
+        c = design.compensator
+        shaping = None
+        rf, sw = design.reference_filter, design.setpoint_weights
+        if rf is not None and "setpoint_weights" in rf:
+            if sw is not None:
+                raise InputError("set-point weights are given twice (also in reference_filter)",
+                                 self.source, f"{key}.setpoint_weights")
+            sw = rf["setpoint_weights"]
+            swkey = f"{key}.reference_filter.setpoint_weights"
+            rf = None
+        else:
+            swkey = f"{key}.setpoint_weights"
+        if rf is not None:
+            if sw is not None:
+                raise InputError("give a prefilter or set-point weights, not both", self.source,
+                                 f"{key}.reference_filter")
+            num = _coefficients(thaw(rf.get("numerator")), self.source,
+                                f"{key}.reference_filter.numerator", zero_ok=False)
+            den = _coefficients(thaw(rf.get("denominator")), self.source,
+                                f"{key}.reference_filter.denominator", zero_ok=False)
+            shaping = ReferenceShaping(numerator=num, denominator=den, method="prefilter")
+        elif sw is not None:
+            shaping = ReferenceShaping(setpoint_weights=_weights(sw, c, self.source, swkey),
+                                       method="set-point weights")
+        aw = None
+        if design.anti_windup is not None:
+            awkey = f"{key}.anti_windup"
+            scheme = design.anti_windup.get("scheme")
+            if not isinstance(scheme, str) or not scheme:
+                raise InputError("needs a text 'scheme'", self.source, f"{awkey}.scheme")
+            params = design.anti_windup.get("parameters") or {}
+            if not isinstance(params, Mapping):
+                raise InputError("must be an object of numbers", self.source,
+                                 f"{awkey}.parameters")
+            for name, value in params.items():
+                if not _is_number(value) or not math.isfinite(value):
+                    raise InputError("must be a finite number", self.source,
+                                     f"{awkey}.parameters.{name}")
+            aw = AntiWindup(scheme=scheme, parameters=MappingProxyType(
+                {k: float(v) for k, v in params.items()}))
+        return Controller(c.numerator, c.denominator, shaping, aw)
+
+    def discrete_form(self, design: DesignRecord) -> DiscreteRecord | None:
+        """The design's discrete form (``discrete``, else ``implementation.discrete``), or None.
+
+        Raises
+        ------
+        InputError
+            A malformed discrete object, naming the field.
+        """
+        key = f"designs[{design.index}]"
+        if design.discrete is not None:
+            return _discrete(design.discrete, self.source, f"{key}.discrete", "period")
+        im = design.implementation
+        if im is not None and im.get("discrete") is not None:
+            dz = im["discrete"]
+            if dz.get("numerator") is None:  # the form could not be made at that sample time
+                return None
+            return _discrete(dz, self.source, f"{key}.implementation.discrete", "sample_time")
+        return None
 
     def design(self, rank: int) -> DesignRecord:
         """The design of rank ``rank`` (InputError naming the ranks present)."""
@@ -341,6 +474,90 @@ def _describe(structure: str, c: CompensatorRecord) -> str:
     return ", ".join(parts)
 
 
+def _number(value: Any, source: str, key: str, *, positive=False, nonneg=False) -> float:
+    if not _is_number(value) or not math.isfinite(value):
+        raise InputError("must be a finite number", source, key)
+    if positive and value <= 0:
+        raise InputError(f"must be > 0, got {value:g}", source, key)
+    if nonneg and value < 0:
+        raise InputError(f"must be >= 0, got {value:g}", source, key)
+    return float(value)
+
+
+def _weights(sw: Any, comp: CompensatorRecord, source: str, key: str) -> tuple[float, float]:
+    """Set-point weights ``(b, c)``; ``c`` may be left out only without derivative action."""
+    if not isinstance(sw, Mapping):
+        raise InputError("must be an object {\"b\": ..., \"c\": ...}", source, key)
+    if "b" not in sw:
+        raise InputError("missing the proportional weight b", source, f"{key}.b")
+    b = _number(sw["b"], source, f"{key}.b")
+    if "c" in sw:
+        return b, _number(sw["c"], source, f"{key}.c")
+    from synth.outputs.forms import pid_parallel_from_tf
+
+    par = pid_parallel_from_tf(comp.num, comp.den)
+    if par is not None and par.kd != 0:
+        raise InputError("missing the derivative weight c (the compensator has derivative "
+                         "action)", source, f"{key}.c")
+    return b, 0.0
+
+
+def _discrete(dz: Mapping, source: str, key: str, period_key: str) -> DiscreteRecord:
+    from synth.verify.discrete import METHODS
+
+    if period_key not in dz:
+        raise InputError(f"missing the sample time '{period_key}'", source, f"{key}.{period_key}")
+    period = _number(dz[period_key], source, f"{key}.{period_key}", positive=True)
+    tau = _number(dz.get("compute_delay", 0.0) or 0.0, source, f"{key}.compute_delay",
+                  nonneg=True)
+    if tau > period:
+        raise InputError(f"must not exceed the period {period:g} s", source,
+                         f"{key}.compute_delay")
+    num = _coefficients(thaw(dz.get("numerator")), source, f"{key}.numerator", zero_ok=True)
+    den = _coefficients(thaw(dz.get("denominator")), source, f"{key}.denominator",
+                        zero_ok=False)
+    method = dz.get("method")
+    if method is not None and method not in METHODS:
+        raise InputError(f"unknown method {method!r}; known: {', '.join(METHODS)}", source,
+                         f"{key}.method")
+    warp = dz.get("warp_frequency")
+    if warp is not None:
+        warp = _number(warp, source, f"{key}.warp_frequency", positive=True)
+        if warp >= math.pi / period:
+            raise InputError("must lie below the Nyquist frequency pi / period", source,
+                             f"{key}.warp_frequency")
+    if method == "tustin-prewarp" and warp is None:
+        raise InputError("tustin-prewarp needs a warp_frequency", source, f"{key}.warp_frequency")
+    if method == "direct":
+        method = None
+    return DiscreteRecord(period=period, compute_delay=tau, numerator=num, denominator=den,
+                          method=method, warp_frequency=warp if method == "tustin-prewarp"
+                          else None, key=key)
+
+
+def _actuator(a: Any, source: str) -> ActuatorRecord | None:
+    if a is None:
+        return None
+    if not isinstance(a, dict):
+        raise InputError("must be an object", source, "actuator")
+    limits = a.get("limits")
+    if limits is not None:
+        if (not isinstance(limits, list) or len(limits) != 2
+                or not all(_is_number(x) and math.isfinite(x) for x in limits)
+                or not limits[0] < limits[1]):
+            raise InputError("must be [low, high] with finite low < high", source,
+                             "actuator.limits")
+        limits = (float(limits[0]), float(limits[1]))
+    rate = a.get("max_rate")
+    if rate is not None:
+        rate = _number(rate, source, "actuator.max_rate", positive=True)
+    step = a.get("reference_step", 1.0)
+    step = 1.0 if step is None else _number(step, source, "actuator.reference_step")
+    if step == 0:
+        raise InputError("must not be 0", source, "actuator.reference_step")
+    return ActuatorRecord(limits=limits, max_rate=rate, reference_step=step)
+
+
 def _text_list(value: Any, source: str, key: str) -> tuple[str, ...]:
     if value is None:
         return ()
@@ -449,7 +666,7 @@ def read_design(doc: Any, source: str = "<design>") -> DesignDocument:
         proportional=_mapping(doc.get("proportional"), source, "proportional"),
         search=_mapping(doc.get("search"), source, "search"),
         objective=objective if isinstance(objective, str) else None,
-        raw=_frozen(doc))
+        raw=_frozen(doc), actuator=_actuator(doc.get("actuator"), source))
 
 
 def load_design(path: str | Path) -> DesignDocument:

@@ -567,8 +567,9 @@ def sample_rate_warning(T: float, bandwidth_rad_s: float) -> str | None:
     """Warn when sampling is slow compared with the closed-loop bandwidth.
 
     Common practice asks for a sampling frequency ``2 pi / T`` of about 10 to
-    20 times the closed-loop bandwidth (Franklin, Powell and Workman, from
-    memory).
+    30 times the closed-loop bandwidth (Franklin, Powell and Workman, from
+    memory); the rule and its words are
+    :func:`synth.problem.sampling.rate_message`'s.
 
     Parameters
     ----------
@@ -580,23 +581,15 @@ def sample_rate_warning(T: float, bandwidth_rad_s: float) -> str | None:
     Returns
     -------
     str or None
-        ``"warning: ..."`` below 10 times, ``"note: ..."`` from 10 up to 20
-        times, ``None`` at 20 times or more.
+        ``"warning: ..."`` below 10 times, ``"note: ..."`` from 10 up to 30
+        times, ``None`` at 30 times or more.
     """
+    from synth.problem.sampling import rate_message
+
     T = _positive_time(T)
     bw = _positive_time(bandwidth_rad_s, "the closed-loop bandwidth")
     ws = 2.0 * math.pi / T
-    ratio = ws / bw
-    what = (f"sampling at {ws:.4g} rad/s is {ratio:.3g} times the closed-loop bandwidth "
-            f"{bw:.4g} rad/s")
-    if ratio < 10.0:
-        return (f"warning: {what}; below about 10 times the sampled loop can behave markedly "
-                "worse than the continuous design (common practice: sample 10 to 20 times faster "
-                "than the bandwidth)")
-    if ratio < 20.0:
-        return (f"note: {what}; common practice asks for 10 to 20 times, so check the sampled "
-                "loop's overshoot and margins")
-    return None
+    return rate_message(ws / bw, ws, bw, "the closed-loop bandwidth")
 
 
 @dataclass(frozen=True)

@@ -70,21 +70,12 @@ def _discrete(plant, c: CompensatorRecord, T: float) -> dict:
     """The ``discrete`` object for one design at sample time ``T``."""
     from synth.outputs.forms import discrete_implementation, sample_rate_warning
     from synth.verify.frequency import loop_frequency
+    from synth.verify.sampled import design_zmap
 
-    warnings: list[str] = []
     facts = loop_frequency(plant, c.num, c.den)
-    nyquist = math.pi / T
-    warp = facts.crossover_frequency
-    method = "tustin-prewarp"
-    if warp is None:
-        warnings.append("the loop gain never crosses 1, so there is no crossover to pre-warp at; "
-                        "plain Tustin (no pre-warping) is used")
-        method = "tustin"
-    elif warp >= nyquist:
-        warnings.append(f"warning: the gain crossover {warp:.4g} rad/s is not below the Nyquist "
-                        f"frequency pi/T = {nyquist:.4g} rad/s; plain Tustin is used, and the "
-                        "sample time is far too long for this loop")
-        warp, method = None, "tustin"
+    zmap, why = design_zmap(facts.crossover_frequency, T)
+    warnings: list[str] = [why] if why else []
+    method, warp = zmap.method, zmap.warp_frequency
     out = {"sample_time": T, "method": method, "warp_frequency": warp,
            "crossover_frequency": facts.crossover_frequency,
            "closed_loop_bandwidth": facts.bandwidth,

@@ -34,7 +34,7 @@ _EXTRA_METRICS = ("delay_margin", "crossover_frequency", "final_value", "in_regi
 # ----------------------------------------------------------------------------------------------
 
 
-def _design_json(run, d) -> dict:
+def _design_json(run, d, sampled=None) -> dict:
     from synth.families import FAMILIES
     from synth.problem.plant import describe_factored
 
@@ -77,6 +77,8 @@ def _design_json(run, d) -> dict:
     }
     if params is not None:
         out["params"] = params
+    if sampled is not None:
+        out["discrete"] = sampled.to_json()
     return out
 
 
@@ -92,8 +94,10 @@ def design_json(run) -> dict:
     dict
         ``schema``, ``plant``, ``designs`` (contract fields, and per design
         ``description``, ``score``, ``internally_stable``, ``time_domain``,
-        ``notes``, ``provenance``, ``params``), ``requirements``, ``region``,
-        ``proportional``, ``caution``, ``search`` and ``source``.
+        ``notes``, ``provenance``, ``params``, and with ``[sampling]`` the
+        contract's ``discrete``), ``requirements``, ``region``,
+        ``proportional``, ``caution``, ``search``, ``sampling`` (the sample
+        rate against the requirements, with ``[sampling]``) and ``source``.
     """
     from synth.families import FAMILIES
 
@@ -103,7 +107,8 @@ def design_json(run) -> dict:
     out = {
         "schema": SCHEMA,
         "plant": problem.plant.to_json(),
-        "designs": [_design_json(run, d) for d in run.designs],
+        "designs": [_design_json(run, d, sd) for d, sd in
+                    zip(run.designs, run.sampled or (None,) * len(run.designs), strict=True)],
         "requirements": problem.requirements.given(),
         "region": {"decay_rate": region.sigma, "damping": region.zeta,
                    "description": region.describe()},
@@ -113,6 +118,10 @@ def design_json(run) -> dict:
                    "structures": list(s.structures or FAMILIES),
                    "max_frequency": SearchSpace.for_problem(problem).w_max, **run.stats},
     }
+    if problem.sampling is not None:
+        from synth.problem.sampling import sampling_advice
+
+        out["sampling"] = sampling_advice(problem.sampling, problem.requirements).to_json()
     if problem.source:
         out["source"] = problem.source
     return clean(out)
@@ -190,12 +199,15 @@ def design_text(run) -> TextReport:
     before.append(f"Designs for {pr.plant.describe()}" + (f"  ({title})" if title else ""))
     if not pr.region.is_stability_only:
         before.append(f"  requirement region: {pr.region.describe()}")
+    if pr.sampling is not None:
+        before.extend(_sampling_lines(pr))
     before.append("")
     cols = [(entry.column(limit), entry.metric, entry.key) for entry, limit in req.limits()]
     cols += [(METRICS[m].symbol, m, None) for m in _ALWAYS_SHOWN if req.limit(m) is None]
     header = ("rank", "structure", "origin", "ok?", *(c[0] for c in cols))
     rows = []
-    for d in run.designs:
+    sampled = run.sampled or (None,) * len(run.designs)
+    for d, sd in zip(run.designs, sampled, strict=True):
         v = d.verdict
         cells = [str(d.rank), d.candidate.structure, d.candidate.origin,
                  "yes" if v.feasible else "NO"]
@@ -218,6 +230,8 @@ def design_text(run) -> TextReport:
         details += [f"fails: {text}" for text in v.violations]
         details += [f"note: {text}" for text in v.notes
                     if text.startswith("slow closed-loop pole")]  # worth an engineer's eye
+        if sd is not None:
+            details += _sampled_details(sd)
         rows.append(Row(tuple(cells), tuple(details), tuple(marks)))
     n_ok = sum(d.verdict.feasible for d in run.designs)
     st = run.stats
@@ -231,6 +245,40 @@ def design_text(run) -> TextReport:
     return TextReport(before=tuple(before),
                       table=TextTable(header, tuple(rows), empty="no candidate was proposed"),
                       after=tuple(after))
+
+
+def _sampling_lines(problem) -> list[str]:
+    """The sampling settings and the sample rate against the requirements."""
+    from synth.problem.sampling import sampling_advice
+
+    sp = problem.sampling
+    advice = sampling_advice(sp, problem.requirements)
+    line = (f"  sampled every {sp.period:.4g} s (sample rate {sp.sample_rate:.4g} rad/s), "
+            f"computation delay {sp.compute_delay:.4g} s")
+    if advice.ratio is not None:
+        line += (f"; the requirements ask for a bandwidth of about {advice.bandwidth:.4g} rad/s "
+                 f"({advice.asked_by}); the sample rate is {advice.ratio:.3g} times that")
+    out = [line]
+    if advice.message:
+        out.append(f"  {advice.message}")
+    return out
+
+
+def _sampled_details(sd) -> list[str]:
+    """One design's sampled loop against its continuous loop, and its warnings."""
+    lp = sd.loop
+    c = sd.continuous
+    if lp.stable:
+        pm = "-" if sd.phase_margin_deg is None else f"{sd.phase_margin_deg:.3g}"
+        cpm = "-" if c.get("phase_margin_deg") is None else f"{c['phase_margin_deg']:.3g}"
+        os_ = "-" if lp.overshoot_percent is None else f"{lp.overshoot_percent:.3g} %"
+        text = (f"sampled loop: stable, phase margin {pm} deg (continuous {cpm}), overshoot at "
+                f"the samples {os_}")
+    else:
+        text = f"sampled loop: UNSTABLE, largest root |z| = {lp.spectral_radius:.4g}"
+    out = [f"{text}; C(z) by {sd.controller.zmap.describe()}, {sd.controller.realisation}"]
+    out += [w for w in sd.warnings if w.startswith(("warning", "note"))]
+    return out
 
 
 def design_lines(run) -> list[str]:

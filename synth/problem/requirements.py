@@ -1,8 +1,8 @@
 """The requirements file: TOML schema, validation and the s-plane region.
 
-A requirements file (format 1, see ``docs/requirements-file.md``) has three
-tables: ``[plant]``, ``[requirements]`` and ``[search]``.  Everything is
-validated strictly: unknown keys, wrong types, non-finite numbers and values
+A requirements file (format 1, see ``docs/requirements-file.md``) has the
+tables ``[plant]``, ``[requirements]``, ``[search]`` and, optionally,
+``[sampling]`` (:mod:`synth.problem.sampling`).  Everything is validated strictly: unknown keys, wrong types, non-finite numbers and values
 out of range raise :class:`synth.errors.InputError` naming the file and key.
 The ``[requirements]`` keys, their allowed values and their meaning come from
 the requirement catalogue (:mod:`synth.problem.catalogue`); this module only
@@ -50,6 +50,7 @@ from synth.problem.limits import (
 )
 from synth.problem.plant import Plant
 from synth.problem.region import Region, damping_from_overshoot, decay_rate_from_settling
+from synth.problem.sampling import Sampling, parse_sampling
 from synth.problem.source import read_input_text
 
 
@@ -63,7 +64,7 @@ def __getattr__(name: str):
         return structure_names()
     raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
-_TOP_KEYS = {"format", "plant", "requirements", "search"}
+_TOP_KEYS = {"format", "plant", "requirements", "search", "sampling"}
 
 
 _PLANT_KEYS = {"label", "numerator", "denominator", "zeros", "poles", "gain", "expression",
@@ -184,12 +185,16 @@ class SearchSettings:
 
 @dataclass(frozen=True)
 class Problem:
-    """Everything a command needs: plant, requirements, search settings, source file."""
+    """Everything a command needs: plant, requirements, search settings, source file.
+
+    ``sampling`` is the ``[sampling]`` table (``None``: a continuous-time controller).
+    """
 
     plant: Plant
     requirements: Requirements = field(default_factory=Requirements)
     search: SearchSettings = field(default_factory=SearchSettings)
     source: str = "<string>"
+    sampling: Sampling | None = None
 
     @property
     def region(self) -> Region:
@@ -362,13 +367,14 @@ def _parse_plant(t: dict, src: str, read_data=None) -> Plant:
         raise
 
 
-def _rates(plant: Plant, req: Requirements) -> dict[str, float]:
+def _rates(plant: Plant, req: Requirements, sampling: Sampling | None = None
+           ) -> dict[str, float]:
     """The problem's characteristic rates (1/s), named by the key that sets each.
 
     The plant's non-zero pole and zero magnitudes, the fastest Pade pole of
     its dead time, the decay rate the settling limit asks for and the
-    bandwidth the rise-time limit implies; :func:`check_time_scales` bounds
-    their spread.
+    bandwidth the rise-time limit implies, and the sample rate ``1 / period``;
+    :func:`check_time_scales` bounds their spread.
     """
     import numpy as np
 
@@ -395,6 +401,9 @@ def _rates(plant: Plant, req: Requirements) -> dict[str, float]:
         limit = req.limit(metric)
         if limit is not None:
             put(f"requirements.{requirement_for(metric).key}", [rate(limit)])
+    if sampling is not None:
+        # z = exp(-a T) of a plant pole a: beyond the span every such pole rounds to z = 1
+        rates["sampling.period"] = 1.0 / sampling.period
     return rates
 
 
@@ -448,8 +457,9 @@ def parse_problem(doc: dict, source: str = "<string>", *, read_data=None) -> Pro
     st = _table(doc, "search", src)
     _unknown(st, set(_SEARCH_SPEC), src, "search.")
     search = SearchSettings(**{k: _SEARCH_SPEC[k](v, src, f"search.{k}") for k, v in st.items()})
-    check_time_scales(_rates(plant, req), src)
-    return Problem(plant=plant, requirements=req, search=search, source=src)
+    sampling = parse_sampling(doc["sampling"], src, _num) if "sampling" in doc else None
+    check_time_scales(_rates(plant, req, sampling), src)
+    return Problem(plant=plant, requirements=req, search=search, source=src, sampling=sampling)
 
 
 def problem_from_text(text: str, source: str = "<string>", *, read_data=None) -> Problem:

@@ -16,9 +16,11 @@ References
 
 from __future__ import annotations
 
+import cmath
 import math
 import numbers
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 
@@ -26,7 +28,21 @@ from synth.errors import InputError
 from synth.numerics.poly import coefficients
 from synth.verify.simulation import discrete_step, hold_integrals, realise
 
-__all__ = ["SampledLoopCheck", "sampled_loop_check", "zoh_discretise"]
+__all__ = [
+    "RateFigures",
+    "SampledDesign",
+    "SampledLoopCheck",
+    "design_zmap",
+    "rate_figures",
+    "sampled_design",
+    "sampled_loop_check",
+    "sampled_loop_margin",
+    "sampled_verdict",
+    "simulate_sampled_loop",
+    "zoh_discretise",
+    "ControllerVectors",
+    "controller_vectors",
+]
 
 # A closed-loop root this close to the unit circle counts as on it (not stable):
 # rounding cannot then turn a marginal loop into a "stable" verdict.
@@ -262,3 +278,527 @@ def sampled_loop_check(plant_numd, plant_dend, c_numd, c_dend, T: float) -> Samp
                             marginal=marginal)
 
 
+
+
+# ----------------------------------------------------------------------------------------------
+# the sampled design: the discrete controller of a design, its loop and the sample-rate figures
+# ----------------------------------------------------------------------------------------------
+
+
+def _unit_circle(num, den, w, T):
+    """``num(z) / den(z)`` at ``z = exp(j w T)``."""
+    z = np.exp(1j * np.asarray(w, dtype=float) * T)
+    return np.polyval(num, z) / np.polyval(den, z)
+
+
+def sampled_loop_margin(plant_numd, plant_dend, c_numd, c_dend, T: float,
+                        hint: float | None = None) -> tuple[float | None, float | None]:
+    """Gain crossover and phase margin of the sampled loop ``Cd(z) Gd(z)`` up to Nyquist.
+
+    The loop is evaluated on the unit circle ``z = exp(j w T)`` for ``w`` up
+    to ``pi / T`` (a logarithmic grid from ``pi / T`` down six decades, and
+    around ``hint``), each sign change of ``|L| - 1`` refined by
+    :func:`scipy.optimize.brentq`; the phase margin is the smallest angular
+    distance of ``L`` from -1 over the crossovers (0 to 180 degrees), as for
+    the continuous loop.
+
+    Parameters
+    ----------
+    plant_numd, plant_dend : array_like
+        The plant with its hold and delays (:func:`zoh_discretise`).
+    c_numd, c_dend : array_like
+        The discrete compensator.
+    T : float
+        Sample time, seconds.
+    hint : float, optional
+        A frequency (rad/s) the grid should cover densely, e.g. the
+        continuous loop's crossover.
+
+    Returns
+    -------
+    (float or None, float or None)
+        The crossover (rad/s) with the smallest margin and that margin in
+        degrees; ``(None, None)`` when ``|L|`` never crosses 1 below Nyquist.
+
+    References
+    ----------
+    .. [1] G. F. Franklin, J. D. Powell and M. L. Workman, *Digital Control of
+       Dynamic Systems*, 3rd ed., Addison-Wesley, 1998, ch. 7 (frequency
+       response of sampled systems), from memory.
+    """
+    from scipy.optimize import brentq
+
+    T = _positive_time(T)
+    num = np.convolve(coefficients(c_numd, "numerator"), coefficients(plant_numd, "numerator"))
+    den = np.convolve(coefficients(c_dend, "denominator"), coefficients(plant_dend, "denominator"))
+    nyq = math.pi / T
+    w = np.geomspace(nyq * 1e-6, nyq * (1 - 1e-9), 3000)
+    if hint is not None and 0 < hint < nyq:
+        w = np.unique(np.concatenate([w, np.geomspace(hint / 10, min(hint * 10, nyq * (1 - 1e-9)),
+                                                      800)]))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        g = np.abs(_unit_circle(num, den, w, T)) - 1.0
+    best = (None, None)
+    for i in np.flatnonzero(np.isfinite(g[:-1]) & np.isfinite(g[1:]) & (np.sign(g[:-1])
+                                                                         != np.sign(g[1:]))):
+        wc = brentq(lambda x: abs(_unit_circle(num, den, x, T)) - 1.0, w[i], w[i + 1],
+                    xtol=1e-14 * w[i + 1], rtol=4 * np.finfo(float).eps)
+        pm = 180.0 - abs(math.degrees(cmath.phase(complex(_unit_circle(num, den, wc, T)))))
+        if best[1] is None or pm < best[1]:
+            best = (float(wc), float(pm))
+    return best
+
+
+@dataclass(frozen=True)
+class RateFigures:
+    """The sample rate against a design's loop (common practice, with the numbers).
+
+    Attributes
+    ----------
+    sample_rate : float
+        ``2 pi / T``, rad/s.
+    bandwidth : float or None
+        The continuous design's closed-loop bandwidth (its crossover when it has none), rad/s.
+    ratio : float or None
+        ``sample_rate / bandwidth``.
+    crossover_frequency : float or None
+        The continuous loop's gain crossover ``w_c``, rad/s.
+    hold_phase_deg : float or None
+        Phase the zero-order hold costs at ``w_c``: ``w_c T / 2`` in degrees.
+    delay_phase_deg : float or None
+        Phase the computation delay costs at ``w_c``: ``w_c tau`` in degrees.
+    phase_margin_deg : float or None
+        The continuous design's phase margin.
+    margin_left_deg : float or None
+        That margin less both costs (an estimate of the sampled loop's).
+    message : str or None
+        ``"warning: ..."`` or ``"note: ..."`` with the numbers, ``None`` when ample.
+    """
+
+    sample_rate: float
+    bandwidth: float | None
+    ratio: float | None
+    crossover_frequency: float | None
+    hold_phase_deg: float | None
+    delay_phase_deg: float | None
+    phase_margin_deg: float | None
+    margin_left_deg: float | None
+    message: str | None
+
+    def to_json(self) -> dict:
+        return {k: getattr(self, k) for k in (
+            "sample_rate", "bandwidth", "ratio", "crossover_frequency", "hold_phase_deg",
+            "delay_phase_deg", "phase_margin_deg", "margin_left_deg", "message")}
+
+
+def rate_figures(T: float, compute_delay: float, crossover: float | None,
+                 bandwidth: float | None, phase_margin_deg: float | None) -> RateFigures:
+    """Sample rate against the loop: bandwidth ratio, and the phase hold and delay cost at crossover.
+
+    A zero-order hold lags by ``w T / 2`` at frequency ``w`` and a delay
+    ``tau`` by ``w tau`` (common practice; Franklin, Powell and Workman).
+    The message is a warning when the rate is below 10 times the bandwidth or
+    the two costs take at least half the phase margin, a note below 30 times
+    or at a quarter of the margin.
+
+    Parameters
+    ----------
+    T, compute_delay : float
+        Seconds.
+    crossover, bandwidth, phase_margin_deg : float or None
+        The continuous design's gain crossover (rad/s), closed-loop
+        bandwidth (rad/s) and phase margin (degrees).
+
+    Returns
+    -------
+    RateFigures
+
+    References
+    ----------
+    .. [1] G. F. Franklin, J. D. Powell and M. L. Workman, *Digital Control of
+       Dynamic Systems*, 3rd ed., Addison-Wesley, 1998, ch. 11 (sample-rate
+       selection), from memory.
+    """
+    from synth.problem.sampling import RATE_NOTE, RATE_WARNING
+
+    ws = 2.0 * math.pi / T
+    bw = bandwidth if bandwidth is not None and bandwidth > 0 else crossover
+    ratio = ws / bw if bw else None
+    hold = delay = left = None
+    if crossover is not None:
+        hold = math.degrees(crossover * T / 2.0)
+        delay = math.degrees(crossover * compute_delay)
+        if phase_margin_deg is not None:
+            left = phase_margin_deg - hold - delay
+    parts, level = [], 0
+    if ratio is not None:
+        what = "closed-loop bandwidth" if bw == bandwidth else "gain crossover"
+        parts.append(f"sampling at {ws:.4g} rad/s is {ratio:.3g} times the design's {what} "
+                     f"({bw:.4g} rad/s)")
+        level = 2 if ratio < RATE_WARNING else (1 if ratio < RATE_NOTE else 0)
+    if hold is not None:
+        cost = hold + delay
+        text = (f"at the gain crossover {crossover:.4g} rad/s the hold costs {hold:.3g} deg "
+                f"(w T / 2)")
+        if compute_delay > 0:
+            text += f" and the computation delay {delay:.3g} deg (w tau)"
+        if phase_margin_deg is not None and phase_margin_deg > 0:
+            text += (f", {cost:.3g} of the continuous design's {phase_margin_deg:.3g} deg phase "
+                     f"margin (about {left:.3g} deg left)")
+            level = max(level, 2 if cost >= 0.5 * phase_margin_deg else
+                        (1 if cost >= 0.25 * phase_margin_deg else 0))
+        parts.append(text)
+    message = None
+    if level:
+        word = "warning" if level == 2 else "note"
+        advice = ("sample faster, or shorten the computation delay" if level == 2 else
+                  "check the sampled loop's margins and overshoot")
+        message = (f"{word}: " + "; ".join(parts) + "; common practice asks for a sample rate "
+                   f"of 10 to 30 times the closed-loop bandwidth (Franklin, Powell and Workman): "
+                   f"{advice}")
+    return RateFigures(sample_rate=ws, bandwidth=bw, ratio=ratio, crossover_frequency=crossover,
+                       hold_phase_deg=hold, delay_phase_deg=delay,
+                       phase_margin_deg=phase_margin_deg, margin_left_deg=left, message=message)
+
+
+def design_zmap(crossover: float | None, T: float):
+    """The map of a continuous design to z: Tustin pre-warped at its crossover when it can be.
+
+    Returns
+    -------
+    (ZMap, str or None)
+        Plain Tustin with the reason when the loop has no crossover or it is
+        not below the Nyquist frequency ``pi / T``.
+    """
+    from synth.verify.discrete import ZMap
+
+    nyquist = math.pi / T
+    if crossover is None:
+        return ZMap("tustin", T), ("the loop gain never crosses 1, so there is no crossover to "
+                                   "pre-warp at; plain Tustin (no pre-warping) is used")
+    if crossover >= nyquist:
+        return ZMap("tustin", T), (f"warning: the gain crossover {crossover:.4g} rad/s is not "
+                                   f"below the Nyquist frequency pi/T = {nyquist:.4g} rad/s; "
+                                   "plain Tustin is used, and the sample time is far too long "
+                                   "for this loop")
+    return ZMap("tustin-prewarp", T, float(crossover)), None
+
+
+@dataclass(frozen=True)
+class SampledDesign:
+    """A design as it runs sampled: its discrete controller and the sampled loop's figures.
+
+    Attributes
+    ----------
+    period, compute_delay : float
+        Seconds.
+    controller : synth.verify.discrete.DiscreteController
+        The controller (what the exports print).
+    loop : SampledLoopCheck
+        The sampled loop (plant by zero-order hold, dead time and computation
+        delay exact at the samples) with the linear controller ``C(z)``.
+    crossover_frequency, phase_margin_deg : float or None
+        Of the sampled loop, on the unit circle up to Nyquist
+        (:func:`sampled_loop_margin`).
+    rate : RateFigures
+        The sample rate against the continuous design.
+    continuous : dict
+        The continuous design's figures compared: ``crossover_frequency``,
+        ``phase_margin_deg``, ``bandwidth``.
+    warnings : tuple of str
+        Every warning or note, with numbers.
+    """
+
+    period: float
+    compute_delay: float
+    controller: Any
+    loop: SampledLoopCheck
+    crossover_frequency: float | None
+    phase_margin_deg: float | None
+    rate: RateFigures
+    continuous: dict
+    warnings: tuple[str, ...]
+
+    def to_json(self) -> dict:
+        """The design JSON's ``discrete`` object (contract fields first)."""
+        from synth.outputs.forms import difference_equation
+
+        num, den = self.controller.transfer()
+        out = {"period": self.period, "compute_delay": self.compute_delay,
+               "numerator": [float(x) for x in num], "denominator": [float(x) for x in den]}
+        out.update(self.controller.to_json())
+        c = self.controller
+        if len(c.sections) == 1 and c.sections[0].t is None:
+            out["difference_equation"] = difference_equation(num, den).to_json()
+        lp = self.loop
+        out["sampled_loop"] = {"stable": lp.stable, "spectral_radius": lp.spectral_radius,
+                               "overshoot_percent": lp.overshoot_percent,
+                               "final_value": lp.final_value,
+                               "numerically_marginal": lp.marginal,
+                               "crossover_frequency": self.crossover_frequency,
+                               "phase_margin_deg": self.phase_margin_deg}
+        out["continuous"] = dict(self.continuous)
+        out["rate"] = self.rate.to_json()
+        out["warnings"] = list(self.warnings)
+        return out
+
+
+def sampled_design(plant, controller, sampling, limits=None, max_rate=None,
+                   source: str | None = None, key: str | None = None) -> SampledDesign:
+    """The discrete controller of a continuous design, and its sampled loop.
+
+    The compensator is mapped by Tustin's method pre-warped at the
+    continuous loop's gain crossover (plain Tustin when there is none below
+    Nyquist; :func:`design_zmap`), realised by
+    :func:`synth.verify.discrete.discrete_controller` with the design's
+    reference shaping, the limits and its anti-windup, and checked in the
+    sampled loop: the plant by zero-order hold with its dead time plus the
+    computation delay (exact at the samples, :func:`zoh_discretise`),
+    stability and overshoot (:func:`sampled_loop_check`), crossover and phase
+    margin up to Nyquist (:func:`sampled_loop_margin`).
+
+    Parameters
+    ----------
+    plant : synth.problem.plant.Plant
+    controller : synth.verify.controller.Controller
+    sampling : synth.problem.sampling.Sampling
+    limits : (float, float), optional
+    max_rate : float, optional
+    source, key : str, optional
+        Where errors point.
+
+    Returns
+    -------
+    SampledDesign
+
+    References
+    ----------
+    .. [1] G. F. Franklin, J. D. Powell and M. L. Workman, *Digital Control of
+       Dynamic Systems*, 3rd ed., Addison-Wesley, 1998, ch. 4, 6 and 11, from memory.
+    """
+    from synth.verify.discrete import discrete_controller
+    from synth.verify.frequency import loop_frequency
+
+    T, tau = sampling.period, sampling.compute_delay
+    facts = loop_frequency(plant, controller.num, controller.den)
+    zmap, why = design_zmap(facts.crossover_frequency, T)
+    warnings = [why] if why else []
+    model = discrete_controller(controller, zmap, compute_delay=tau, limits=limits,
+                                max_rate=max_rate, source=source, key=key)
+    warnings.extend(f"note: {n}" for n in model.notes)
+    gn, gd = zoh_discretise(plant.rational_num, plant.rational_den, T, plant.dead_time + tau)
+    cn, cd = model.transfer()
+    loop = sampled_loop_check(gn, gd, cn, cd, T)
+    wc_d, pm_d = (None, None)
+    if loop.stable:
+        wc_d, pm_d = sampled_loop_margin(gn, gd, cn, cd, T, hint=facts.crossover_frequency)
+    rate = rate_figures(T, tau, facts.crossover_frequency, facts.bandwidth,
+                        facts.phase_margin_deg)
+    if rate.message:
+        warnings.append(rate.message)
+    if not loop.stable:
+        warnings.append(f"warning: the sampled loop is UNSTABLE at T = {T:g} s"
+                        + (f" with a computation delay of {tau:g} s" if tau else "")
+                        + f" (largest closed-loop root |z| = {loop.spectral_radius:.4g}); "
+                        "sample faster")
+    if loop.marginal:
+        warnings.append(f"note: at T = {T:g} s the closed-loop poles crowd z = 1 (sampling far "
+                        "faster than the loop's slowest mode), so the sampled loop's overshoot "
+                        "and final value are numerically marginal beyond their first digits; "
+                        "the continuous verdicts stand")
+    continuous = {"crossover_frequency": facts.crossover_frequency,
+                  "phase_margin_deg": facts.phase_margin_deg, "bandwidth": facts.bandwidth}
+    return SampledDesign(period=T, compute_delay=tau, controller=model, loop=loop,
+                         crossover_frequency=wc_d, phase_margin_deg=pm_d, rate=rate,
+                         continuous=continuous, warnings=tuple(warnings))
+
+
+def sampled_verdict(verdict, sampled: SampledDesign):
+    """The verdict with the sampled loop's stability judged (a violation when it is unstable).
+
+    Parameters
+    ----------
+    verdict : synth.verify.verdict.Verdict
+        The continuous loop's verdict.
+    sampled : SampledDesign
+
+    Returns
+    -------
+    synth.verify.verdict.Verdict
+        Unchanged when the sampled loop is stable; otherwise with the
+        violation (shortfall key ``sampled_stability``, at least 100 like any
+        unstable loop) and ``feasible`` False.
+    """
+    from dataclasses import replace
+
+    lp = sampled.loop
+    if lp.stable:
+        return verdict
+    tau = sampled.compute_delay
+    text = (f"sampled loop unstable at T = {sampled.period:g} s"
+            + (f" with a computation delay of {tau:g} s" if tau else "")
+            + f": largest closed-loop root |z| = {lp.spectral_radius:.4g} (must be < 1)")
+    short = dict(verdict.shortfalls)
+    short["sampled_stability"] = 100.0 + max(0.0, lp.spectral_radius - 1.0)
+    return replace(verdict, violations=(*verdict.violations, text), feasible=False,
+                   shortfall=float(sum(short.values())), shortfalls=short)
+
+
+def simulate_sampled_loop(plant_numd, plant_dend, controller, reference, load, noise=0.0
+                          ) -> tuple[np.ndarray, np.ndarray]:
+    """The sampled loop at its samples with the complete discrete controller (limits included).
+
+    Parameters
+    ----------
+    plant_numd, plant_dend : array_like
+        The plant with its hold, dead time and computation delay
+        (:func:`zoh_discretise`).
+    controller : synth.verify.discrete.DiscreteController
+        Run sample by sample (:meth:`~synth.verify.discrete.DiscreteController.start`).
+    reference, load : array_like
+        Per sample: the reference, and a disturbance added to the controller's
+        output at the plant input (held like the output).
+    noise : array_like or float, optional
+        Added to the plant output to make the measurement.
+
+    Returns
+    -------
+    measurement, output : numpy.ndarray
+        The plant output at each sample plus the noise, taken just before the
+        new output acts (a plant with direct feedthrough sees the previous
+        held input there), and the controller's output.
+
+    Notes
+    -----
+    The plant runs in a state-space form of its transfer function
+    (:func:`scipy.signal.tf2ss`); the controller through its own program,
+    so the measurement and the output are exactly what the exported code
+    would see and return in this loop.
+    """
+    from scipy.signal import tf2ss
+
+    gn = coefficients(plant_numd, "the discrete plant numerator")
+    gd = coefficients(plant_dend, "the discrete plant denominator", allow_zero=False)
+    A, B, C, D = tf2ss(gn, gd)
+    b, c, dd = B[:, 0], C[0], float(D[0, 0])
+    r = np.asarray(reference, dtype=float)
+    d = np.broadcast_to(np.asarray(load, dtype=float), r.shape)
+    n = np.broadcast_to(np.asarray(noise, dtype=float), r.shape)
+    x = np.zeros(A.shape[0])
+    run = controller.start()
+    held = 0.0
+    y = np.empty(r.size)
+    u = np.empty(r.size)
+    for k in range(r.size):
+        y[k] = (float(c @ x) if x.size else 0.0) + dd * held + float(n[k])
+        u[k] = run.step(float(r[k]), float(y[k]))
+        held = float(u[k]) + float(d[k])
+        if x.size:
+            x = A @ x + b * held
+    return y, u
+
+
+@dataclass(frozen=True)
+class ControllerVectors:
+    """Input sequences and the outputs synth's discrete model returns for them.
+
+    Attributes
+    ----------
+    reference, measurement, output : numpy.ndarray
+        One entry per sample, from ``init`` on.
+    segments : tuple of (str, int, int)
+        What each stretch of samples exercises: label, first sample, end (exclusive).
+    closed_loop : bool
+        The measurement comes from the sampled loop's own simulation (else,
+        for a loop unstable at this sample time, from a synthetic trajectory).
+    """
+
+    reference: np.ndarray
+    measurement: np.ndarray
+    output: np.ndarray
+    segments: tuple[tuple[str, int, int], ...]
+    closed_loop: bool
+
+
+def controller_vectors(plant, controller, reference_step: float = 1.0) -> ControllerVectors:
+    """Test vectors for a discrete controller: a reference step, a load step, runs into the limits.
+
+    One continuous run from rest (the exported code's ``init`` once, then
+    one ``step`` per row): a reference step of ``reference_step``; a load
+    step at the plant input opposing half the output's peak so far; with
+    output limits, reference jumps that drive the output into the upper and
+    then the lower limit and back (anti-windup and recovery); without limits,
+    a reference ramp.  A small deterministic measurement noise (seed 0,
+    1e-3 of the step) runs throughout, so every coefficient shows in the
+    outputs.  The measurement comes from :func:`simulate_sampled_loop` with
+    the plant by zero-order hold (dead time and computation delay exact), or
+    from a first-order trajectory when the sampled loop is unstable.
+
+    Parameters
+    ----------
+    plant : synth.problem.plant.Plant
+    controller : synth.verify.discrete.DiscreteController
+    reference_step : float
+        Size of the reference step (the actuator's ``reference_step``; default 1).
+
+    Returns
+    -------
+    ControllerVectors
+    """
+    T, tau = controller.period, controller.compute_delay
+    gn, gd = zoh_discretise(plant.rational_num, plant.rational_den, T, plant.dead_time + tau)
+    cn, cd = controller.transfer()
+    check = sampled_loop_check(gn, gd, cn, cd, T)
+    rho = check.spectral_radius if check.stable else 0.9
+    # a stretch long enough for the slowest closed-loop mode to fall to 1e-3, within bounds
+    seg = int(np.clip(math.ceil(math.log(1e-3) / math.log(max(rho, 1e-3))) if rho > 0 else 20,
+                      20, 400))
+    s = float(reference_step)
+    rng = np.random.default_rng(0)
+
+    def run(r, d):
+        noise = 1e-3 * abs(s) * rng.standard_normal(r.size)
+        if check.stable:
+            y, u = simulate_sampled_loop(gn, gd, controller, r, d, noise)
+            if np.all(np.isfinite(y)) and np.max(np.abs(y)) <= 1e6 * abs(s):
+                return y, u, True
+        # synthetic: the measurement follows the reference like a first-order lag of 'seg/5'
+        a = math.exp(-5.0 / seg)
+        from scipy.signal import lfilter
+
+        y = lfilter([1 - a], [1.0, -a], r) + noise
+        return y, controller.simulate(r, y), False
+
+    lead = 2
+    r = np.concatenate([np.zeros(lead), np.full(seg, s)])
+    d = np.zeros(r.size)
+    _, u1, _ = run(r, d)
+    peak = float(np.max(np.abs(u1))) or 1.0
+    # the load: half the output's peak, opposing it
+    load = -0.5 * peak * math.copysign(1.0, float(u1[np.argmax(np.abs(u1))]) or 1.0)
+    segments = [("reference step", 0, r.size)]
+    r = np.concatenate([r, np.full(seg, s)])
+    d = np.concatenate([d, np.full(seg, load)])
+    segments.append(("load step at the plant input", segments[-1][2], r.size))
+    lim = controller.limits
+    if lim is not None:
+        # reference jumps sized from the linear peak so far, to drive the output well past a limit
+        up = 3.0 * max(lim[1], abs(lim[1] - lim[0]) / 2) / peak * abs(s) + abs(s)
+        down = 3.0 * max(-lim[0], abs(lim[1] - lim[0]) / 2) / peak * abs(s) + abs(s)
+        sgn = math.copysign(1.0, s)
+        for label, value in (("reference far up: the output runs into a limit", s + sgn * up),
+                             ("reference far down: the output runs into the other limit",
+                              s - sgn * down),
+                             ("recovery from the limits", s)):
+            start = r.size
+            r = np.concatenate([r, np.full(seg, value)])
+            d = np.concatenate([d, np.full(seg, load)])
+            segments.append((label, start, r.size))
+    else:
+        start = r.size
+        r = np.concatenate([r, s + s * np.arange(1, seg + 1) / seg])
+        d = np.concatenate([d, np.full(seg, load)])
+        segments.append(("reference ramp", start, r.size))
+    y, u, closed = run(r, d)
+    return ControllerVectors(reference=r, measurement=y, output=u, segments=tuple(segments),
+                             closed_loop=closed)

@@ -448,12 +448,15 @@ def _design_section(report: ReportInput, design: DesignRecord, fig: DesignFigure
                          draw=lambda t: draw_sensitivity(t, curves, req, "S = 1/(1+L)")))
     for n in (*curves.notes, *design.notes):
         blocks.append(Para(f"Note: {str(n).rstrip('.')}.", "muted"))
-    blocks.extend(_implementation_blocks(im))
+    from synth.outputs.report.discrete_section import discrete_blocks
+
+    blocks.extend(discrete_blocks(design, report.document.raw.get("sampling")))
+    blocks.extend(_implementation_blocks(im, sampled=bool(design.discrete)))
     return Section(f"design-{design.rank}", f"Design {design.rank}: {design.structure}",
                    tuple(blocks), "design", new_page=True)
 
 
-def _implementation_blocks(im: dict) -> list:
+def _implementation_blocks(im: dict, sampled: bool = False) -> list:
     blocks = [Heading("Implementation forms")]
     if not im:
         return blocks + [Para("No implementation forms in this document.", "muted")]
@@ -479,8 +482,10 @@ def _implementation_blocks(im: dict) -> list:
                                "conventional PID tuning.", "muted"))
     dz = im.get("discrete")
     if dz is None:
-        blocks.append(Para("For a sampled controller, run synth design with --sample-time T.",
-                           "muted"))
+        if not sampled:
+            blocks.append(Para("For a sampled controller, set [sampling] period in the "
+                               "requirements (or run synth design with --sample-time T).",
+                               "muted"))
         return blocks
     blocks.append(Heading("Discrete time"))
     warp = dz.get("warp_frequency")
@@ -527,7 +532,7 @@ def _notes_section() -> Section:
         "Discrete forms: Tustin's method with pre-warping at the gain crossover (Franklin, Powell "
         "and Workman, Digital Control of Dynamic Systems); the sampled loop uses the plant "
         "discretised by a zero-order hold. Common practice asks for a sampling frequency of 10 "
-        "to 20 times the closed-loop bandwidth.",
+        "to 30 times the closed-loop bandwidth.",
         "PID forms: parallel and standard forms as in Astrom and Hagglund, PID Controllers: "
         "Theory, Design and Tuning.",
     )
