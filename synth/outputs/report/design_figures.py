@@ -23,6 +23,7 @@ from synth.verify.frequency import LoopFrequency
 __all__ = [
     "PALETTE",
     "FigureData",
+    "bode_window",
     "figure_data",
     "draw_step",
     "draw_bode",
@@ -105,6 +106,29 @@ def _view(t, y, u, design, settling_limit, notes: list[str]):
     return t[:keep], y[:keep], (None if u is None else u[:keep])
 
 
+def bode_window(curves, design, problem) -> tuple[float, float]:
+    """The frequency range of a design's Bode and sensitivity plots.
+
+    It follows the crossovers (gain and phase), the sensitivity peak, the
+    closed-loop bandwidth and the resonances of the loop's rational part
+    (lightly damped poles and zeros of the plant and the compensator):
+    :func:`synth.outputs.report.framing.frequency_window` around them.
+
+    Returns
+    -------
+    (lo, hi) : float
+        rad/s, within the verifier's frequency grid.
+    """
+    from synth.outputs.report.framing import frequency_window, resonances
+
+    f = curves.frequency
+    plant = problem.plant
+    comp = design.compensator
+    marks = [f.crossover_frequency, f.bandwidth, f.peak_frequency, *f.phase_crossovers,
+             *resonances(plant.rational_num, plant.rational_den, comp.num, comp.den)]
+    return frequency_window(marks, f.w)
+
+
 def figure_data(curves, design, problem) -> FigureData:
     """Frame the verifier's curves of one design for the report.
 
@@ -141,13 +165,10 @@ def figure_data(curves, design, problem) -> FigureData:
     t, y, u = _view(t, y, u, design, problem.requirements.limit("settling_time"), notes)
     f = curves.frequency
     w, L = f.w, f.loop
-    marks = [v for v in (f.crossover_frequency, f.bandwidth, f.peak_frequency,
-                         *f.phase_crossovers) if v]
-    if marks:
-        # frame the interesting part: two decades either side of the marked frequencies
-        keep = (w >= min(marks) / 100.0) & (w <= max(marks) * 100.0)
-        if np.count_nonzero(keep) >= 2:
-            w, L = w[keep], L[keep]
+    lo, hi = bode_window(curves, design, problem)
+    keep = (w >= lo) & (w <= hi)
+    if np.count_nonzero(keep) >= 2:
+        w, L = w[keep], L[keep]
     return FigureData(t=t, y=y, u=u, final_value=final, stable=curves.stable, w=w, loop=L,
                       facts=f, notes=tuple(notes))
 

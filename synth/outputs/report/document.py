@@ -27,7 +27,6 @@ from __future__ import annotations
 import html
 import math
 import re
-import tempfile
 import textwrap
 from collections.abc import Callable
 from dataclasses import dataclass, field
@@ -59,6 +58,10 @@ FIGURE_KINDS = ("locus", "step", "bode", "sensitivity")
 
 #: Designs given a full section (by default, in ``synth.design.prepare_report``).
 TOP = 3
+
+#: matplotlib's own path simplification, at a third of a point: curves keep what the page
+#: resolution shows and the files stay small (vector, never rasterised).
+SIMPLIFY = {"path.simplify": True, "path.simplify_threshold": 1.0 / 3.0}
 
 
 @dataclass(frozen=True)
@@ -144,19 +147,17 @@ class Pre:
 
 @dataclass(frozen=True)
 class Figure:
-    """A drawing, made one of two ways.
+    """A drawing: ``draw(target)`` draws into a matplotlib Figure or SubFigure.
 
-    ``draw(target)`` draws into a matplotlib Figure or SubFigure (vector in
-    both outputs); ``to_file(path)`` writes a ``.svg`` or ``.png`` picture
-    itself (used for pictures made by other modules, such as the root locus).
+    The same drawing becomes inline SVG in the HTML page and vector paths
+    (text as text) on a PDF page; nothing is rasterised.
     """
 
     kind: str
     height_in: float
     caption: str
     alt: str
-    draw: Callable | None = None
-    to_file: Callable | None = None
+    draw: Callable
 
 
 @dataclass(frozen=True)
@@ -355,34 +356,30 @@ def _ranking_section(document: DesignDocument) -> Section:
 
 
 def _locus_figure(problem, fig: DesignFigures) -> Figure:
-    """The design's root locus, drawn by :func:`synth.outputs.report.locus_plot.plot_locus`."""
+    """The design's root locus, drawn by :func:`synth.outputs.report.locus_plot.draw_locus`."""
 
-    def to_file(path):
-        from synth.outputs.report.locus_plot import plot_locus
+    def draw(target):
+        from synth.outputs.report.locus_plot import draw_locus
 
         if fig.locus is None:
-            _placeholder(path, f"no root locus: {fig.locus_note}")
+            _placeholder(target, f"no root locus: {fig.locus_note}")
             return
-        plot_locus(fig.locus, path, region=problem.region, operating_gain=fig.locus_gain,
-                   title="root locus of the design's loop, "
-                   f"operating at K = {fig.locus_gain:.4g}")
+        draw_locus(target, fig.locus, region=problem.region, operating_gain=fig.locus_gain,
+                   title=f"root locus of the design's loop, operating at K = {fig.locus_gain:.4g}")
 
-    return Figure("locus", 4.4,
+    return Figure("locus", 4.6 if fig.locus is not None else 1.2,
                   "Root locus of the loop as the compensator gain K varies: open-loop poles x, "
                   "zeros o, the requirement region shaded, and the closed-loop poles at the "
-                  "design's gain marked.", "root locus", to_file=to_file)
+                  "design's gain marked. The main view frames the poles that shape the "
+                  "response; arrows at its edge point to far poles, zeros and special points, "
+                  "listed with their values beside the overview of the whole locus.",
+                  "root locus", draw=draw)
 
 
-def _placeholder(path, message: str) -> None:
-    """A small picture that says why a figure could not be drawn."""
-    from matplotlib.backends.backend_agg import FigureCanvasAgg
-    from matplotlib.figure import Figure as MplFigure
-
-    fig = MplFigure(figsize=(8.0, 2.0))
-    FigureCanvasAgg(fig)
-    fig.text(0.5, 0.5, "\n".join(textwrap.wrap(message, 90)), ha="center", va="center",
-             fontsize=10, color=_COLORS["muted"])
-    fig.savefig(path, format=Path(path).suffix[1:])
+def _placeholder(target, message: str) -> None:
+    """Say in a figure's place why it could not be drawn."""
+    target.text(0.5, 0.5, "\n".join(textwrap.wrap(message, 90)), ha="center", va="center",
+                fontsize=10, color=_COLORS["muted"])
 
 
 def _design_section(report: ReportInput, design: DesignRecord, fig: DesignFigures) -> Section:
@@ -645,22 +642,16 @@ def _svg_text(fig_block: Figure, salt: str) -> str:
 
     # text stays text (small, selectable); the salt keeps element ids unique per figure
     with matplotlib.rc_context({"svg.fonttype": "none", "svg.hashsalt": salt,
-                                "font.family": "DejaVu Sans"}):
-        if fig_block.to_file is not None:
-            with tempfile.TemporaryDirectory(prefix="synth-fig-") as tmp:
-                path = Path(tmp) / "figure.svg"
-                fig_block.to_file(path)
-                text = path.read_text(encoding="utf-8")
-        else:
-            from matplotlib.backends.backend_agg import FigureCanvasAgg
-            from matplotlib.figure import Figure as MplFigure
+                                "font.family": "DejaVu Sans", **SIMPLIFY}):
+        from matplotlib.backends.backend_agg import FigureCanvasAgg
+        from matplotlib.figure import Figure as MplFigure
 
-            fig = MplFigure(figsize=(7.4, fig_block.height_in))
-            FigureCanvasAgg(fig)
-            fig_block.draw(fig)
-            buf = io.StringIO()
-            fig.savefig(buf, format="svg", metadata={"Date": None})
-            text = buf.getvalue()
+        fig = MplFigure(figsize=(7.4, fig_block.height_in))
+        FigureCanvasAgg(fig)
+        fig_block.draw(fig)
+        buf = io.StringIO()
+        fig.savefig(buf, format="svg", metadata={"Date": None})
+        text = buf.getvalue()
     svg = _prefix_ids(text[text.find("<svg"):], salt)
     label = html.escape(fig_block.alt, quote=True)
     return svg.replace("<svg", f"<svg role=\"img\" aria-label=\"{label}\"", 1)
@@ -921,18 +912,7 @@ class _PdfWriter:
         self.y += 0.03
 
     def figure(self, f: Figure) -> None:
-        picture = None
         height = f.height_in
-        if f.to_file is not None:
-            from matplotlib.image import imread
-
-            with tempfile.TemporaryDirectory(prefix="synth-fig-") as tmp:
-                path = Path(tmp) / "figure.png"
-                f.to_file(path)
-                picture = imread(path)
-            # keep the picture's own aspect, at most the text width and the block's height
-            aspect = picture.shape[1] / picture.shape[0]
-            height = min(self.width_in / aspect, f.height_in)
         cap = self.wrap(f.caption, 8)
         self.room(height + len(cap) * 8 * 1.3 / 72 + 0.1)
         top, bottom = self.y, self.y + height
@@ -940,16 +920,9 @@ class _PdfWriter:
         # place it on a grid of hundredths of an inch
         rows, cols = int(round(_PAGE_H * 100)), int(round(_PAGE_W * 100))
         gs = self.page.add_gridspec(rows, cols, wspace=0, hspace=0)
-        width = self.width_in if picture is None else height * aspect
-        left = _MARGIN + 0.5 * (self.width_in - width)
-        c0, c1 = int(round(left * 100)), int(round((left + width) * 100))
+        c0, c1 = int(round(_MARGIN * 100)), int(round((_MARGIN + self.width_in) * 100))
         sub = self.page.add_subfigure(gs[int(round(top * 100)):int(round(bottom * 100)), c0:c1])
-        if picture is not None:
-            ax = sub.add_axes((0.0, 0.0, 1.0, 1.0))
-            ax.imshow(picture, interpolation="lanczos")
-            ax.set_axis_off()
-        else:
-            f.draw(sub)
+        f.draw(sub)
         self.y = bottom + 0.1
         self.text_lines(cap, 8, _COLORS["muted"])
         self.y += 0.08
@@ -966,7 +939,7 @@ def render_pdf(sections: list[Section], title: str, subtitle: str, path: Path) -
     import matplotlib
     from matplotlib.backends.backend_pdf import PdfPages
 
-    with matplotlib.rc_context({"pdf.fonttype": 42, "font.family": "DejaVu Sans"}):
+    with matplotlib.rc_context({"pdf.fonttype": 42, "font.family": "DejaVu Sans", **SIMPLIFY}):
         with PdfPages(path, metadata={"Title": title, "Creator": "synth",
                                       "CreationDate": None, "ModDate": None}) as pdf:
             w = _PdfWriter(pdf, title, subtitle)
