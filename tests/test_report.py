@@ -148,12 +148,13 @@ def rig_report(tmp_path_factory):
     return problem, doc, written, page, html_text
 
 
-def test_both_files_written_into_a_new_folder(rig_report):
+def test_every_file_written_into_a_new_folder(rig_report):
     _, _, written, _, _ = rig_report
-    assert [p.name for p in written] == ["report.html", "report.pdf"]
+    assert [p.name for p in written] == ["report.html", "report.pdf", "explore.html"]
     assert all(p.is_file() and p.stat().st_size > 1000 for p in written)
     # nothing else is left in the folder (no temporary files)
-    assert sorted(p.name for p in written[0].parent.iterdir()) == ["report.html", "report.pdf"]
+    assert sorted(p.name for p in written[0].parent.iterdir()) == ["explore.html", "report.html",
+                                                                   "report.pdf"]
 
 
 def test_every_section_and_heading_is_present(rig_report):

@@ -23,6 +23,7 @@ from synth.verify.frequency import LoopFrequency
 __all__ = [
     "PALETTE",
     "FigureData",
+    "bode_curves",
     "bode_window",
     "figure_data",
     "draw_step",
@@ -81,24 +82,14 @@ class FigureData:
 
 
 def _view(t, y, u, design, settling_limit, notes: list[str]):
-    """Crop the simulated response to the part worth looking at.
+    """Crop the simulated response to the part worth looking at (:func:`framing.time_window`)."""
+    from synth.outputs.report.framing import time_window
 
-    The simulation runs until the slowest closed-loop pole has decayed; a slow,
-    nearly cancelled pole can stretch that far beyond the settling time and
-    squash the transient into the first pixel. Show about twice the settling
-    time (or 1.5 times the settling-time limit, or ten rise times) instead.
-    """
-    cands = []
-    for key, factor in (("settling_time", 2.0), ("rise_time", 10.0)):
-        v = design.metric(key)
-        if isinstance(v, (int, float)) and math.isfinite(v) and v > 0:
-            cands.append(factor * v)
-    if settling_limit:
-        cands.append(1.5 * settling_limit)
-    if not cands or t.size < 3:
+    if t.size < 3:
         return t, y, u
-    t_view = max(cands)
-    if t_view >= 0.8 * t[-1]:
+    t_view = time_window(design.metric("settling_time"), design.metric("rise_time"),
+                         settling_limit, float(t[-1]))
+    if t_view is None or t_view >= t[-1]:
         return t, y, u
     keep = int(np.searchsorted(t, t_view)) + 1
     notes.append(f"the time axis shows the first {t[keep - 1]:.3g} s of a simulation to "
@@ -263,6 +254,29 @@ def draw_step(target, curves: FigureData, requirements=None, title: str | None =
     ax2.set_xlim(t[0], t[-1])
 
 
+def bode_curves(w, loop, facts) -> tuple[np.ndarray, np.ndarray]:
+    """Magnitude (dB) and unwrapped phase (deg) of ``L(jw)``, the phase placed near -180 deg.
+
+    The phase is shifted by whole turns so that at the gain crossover it reads
+    ``-180 + phase margin``, where the margin is read.
+
+    Parameters
+    ----------
+    w : ndarray
+    loop : ndarray of complex
+    facts : synth.verify.frequency.LoopFrequency
+        Its crossover frequency and phase margin.
+    """
+    with np.errstate(divide="ignore"):
+        mag = 20.0 * np.log10(np.abs(loop))
+    phase = np.degrees(np.unwrap(np.angle(loop)))
+    shift = 0.0
+    if facts.crossover_frequency is not None:
+        pc = float(np.interp(math.log10(facts.crossover_frequency), np.log10(w), phase))
+        shift = 360.0 * round((-180.0 + (facts.phase_margin_deg or 0.0) - pc) / 360.0)
+    return mag, phase + shift
+
+
 def draw_bode(target, curves: FigureData, title: str | None = None) -> None:
     """Loop magnitude (dB) and phase (deg) with the gain and phase margins marked."""
     gs = target.add_gridspec(2, 1, left=0.11, right=0.97, bottom=0.13, top=0.9, hspace=0.32)
@@ -270,16 +284,8 @@ def draw_bode(target, curves: FigureData, title: str | None = None) -> None:
     for a in (axm, axp):
         _style(a)
     w, L = curves.w, curves.loop
-    with np.errstate(divide="ignore"):
-        mag = 20.0 * np.log10(np.abs(L))
-    phase = np.degrees(np.unwrap(np.angle(L)))
-    # put the phase near -180 where the margins are read
     f = curves.facts
-    shift = 0.0
-    if f.crossover_frequency is not None:
-        pc = float(np.interp(math.log10(f.crossover_frequency), np.log10(w), phase))
-        shift = 360.0 * round((-180.0 + (f.phase_margin_deg or 0.0) - pc) / 360.0)
-    phase = phase + shift
+    mag, phase = bode_curves(w, L, f)
     axm.semilogx(w, mag, color=PALETTE["response"], linewidth=1.5, label="|L(jw)|")
     axm.axhline(0.0, color=PALETTE["muted"], linewidth=0.8)
     axp.semilogx(w, phase, color=PALETTE["phase"], linewidth=1.5, label="arg L(jw)")

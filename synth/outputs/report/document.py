@@ -1,4 +1,4 @@
-"""The design report: one self-contained HTML page and a PDF of the same content.
+"""The design report: one self-contained HTML page, a PDF of the same content, and a page to explore.
 
 :func:`write_report` builds the report once as a list of sections made of
 simple blocks (headings, paragraphs, lists, tables, preformatted lines and
@@ -7,19 +7,24 @@ figures), then renders that list twice:
 * ``report.html``: one file, figures as inline SVG, styles inline, no
   scripts and no external resources, with print rules so it prints cleanly;
 * ``report.pdf``: A4 pages laid out by matplotlib (``PdfPages``), text and
-  figures flowing in the same order.
+  figures flowing in the same order, every figure as vector paths with text
+  as text (matplotlib's path simplification keeps the file small).
 
-Both files are written to temporary names first and moved into place only
-when both succeeded, so a failure leaves no partial report.
+It also writes ``explore.html``, the interactive page
+(:mod:`synth.outputs.report.explore`): a gain slider along each top design's
+root locus, with the verifier's results at every gain embedded as data.
 
-The safety cautions come first in both.
+All files are written to temporary names first and moved into place only
+when all succeeded, so a failure leaves no partial report.
+
+The safety cautions come first in each.
 
 The report only formats.  Its input, :class:`ReportInput`, carries the
 document (read once, :mod:`synth.outputs.document`), the run's explanation
-and, for each design given a section, the verifier's curves and the design
-loop's root locus (:class:`DesignFigures`); ``synth.design.prepare_report``
-gathers them.  The requirement names and texts come from the catalogue
-(:mod:`synth.problem.catalogue`).
+and, for each design given a section, the verifier's curves, the design
+loop's root locus and the gain sweep (:class:`DesignFigures`);
+``synth.design.prepare_report`` gathers them.  The requirement names and
+texts come from the catalogue (:mod:`synth.problem.catalogue`).
 """
 
 from __future__ import annotations
@@ -79,6 +84,9 @@ class DesignFigures:
         The compensator gain at which the design operates on it.
     locus_note : str
         Why there is no locus, when there is none.
+    sweep : synth.verify.sweep.GainSweep or None
+        The verifier along the design's locus (0.2x to 5x its gain), for the
+        interactive page; ``None``: the page shows the design without a slider.
     """
 
     rank: int
@@ -86,6 +94,7 @@ class DesignFigures:
     locus: Any = None
     locus_gain: float | None = None
     locus_note: str = ""
+    sweep: Any = None
 
 
 @dataclass(frozen=True)
@@ -104,12 +113,22 @@ class ReportInput:
         is shown.
     figures : tuple of DesignFigures
         One per design given a full section, best rank first.
+    frontier : dict or None
+        A ``synth.frontier/1`` document, shown on the interactive page when
+        present.
+
+    Notes
+    -----
+    Every field after ``document`` is optional, so further content (per-model
+    curves, a load response, a frontier) joins as optional data and appears
+    where it is present.
     """
 
     problem: Any
     document: DesignDocument
     explanation: Any = None
     figures: tuple[DesignFigures, ...] = ()
+    frontier: Any = None
 
 
 # ---------------------------------------------------------------------------
@@ -974,7 +993,9 @@ def write_report(report: ReportInput, outdir) -> list[Path]:
     Returns
     -------
     list of pathlib.Path
-        The files written: ``[outdir/report.html, outdir/report.pdf]``.
+        The files written: ``[outdir/report.html, outdir/report.pdf,
+        outdir/explore.html]`` (the last is the interactive page,
+        :mod:`synth.outputs.report.explore`).
 
     Raises
     ------
@@ -984,9 +1005,9 @@ def write_report(report: ReportInput, outdir) -> list[Path]:
 
     Notes
     -----
-    Both files are written into a hidden staging folder
+    All files are written into a hidden staging folder
     (:func:`synth.outputs.files.atomic_folder`) and renamed into place only
-    when both are complete; on any failure or interrupt the staging folder is
+    when all are complete; on any failure or interrupt the staging folder is
     removed, and a folder that did not exist is not created.
     """
     from synth.outputs.files import atomic_folder, check_output_folder, interrupt_point
@@ -996,8 +1017,12 @@ def write_report(report: ReportInput, outdir) -> list[Path]:
     sections = build_sections(report)
     title, subtitle = _title(report.problem)
     page = render_html(sections, title, subtitle)
+    from synth.outputs.report.explore import render_explore
+
+    explore = render_explore(report)
     with atomic_folder(out, "--report") as stage:
         (stage / "report.html").write_text(page, encoding="utf-8")
+        (stage / "explore.html").write_text(explore, encoding="utf-8")
         interrupt_point("report")
         render_pdf(sections, title, subtitle, stage / "report.pdf")
-    return [out / "report.html", out / "report.pdf"]
+    return [out / "report.html", out / "report.pdf", out / "explore.html"]

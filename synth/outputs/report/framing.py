@@ -48,7 +48,9 @@ __all__ = [
     "dominant_share",
     "frequency_window",
     "locus_view",
+    "region_polygon",
     "resonances",
+    "time_window",
 ]
 
 #: A stable pole decaying this many times faster than the slowest one barely shapes the
@@ -309,6 +311,32 @@ def locus_view(poles, zeros, closed=(), crossings=(), breakaways=(), region=None
     return view
 
 
+def region_polygon(region, lims) -> list[tuple[float, float]]:
+    """Vertices of the requirement region, cut off well beyond the view ``lims``.
+
+    Parameters
+    ----------
+    region : Region
+        Decay rate ``sigma`` and damping ratio ``zeta``: ``Re s <= -sigma`` and
+        ``|Im s| <= -Re s * tan(acos(zeta))``.
+    lims : (x0, x1, y0, y1)
+
+    Returns
+    -------
+    list of (x, y)
+    """
+    x0, x1, y0, y1 = lims
+    big = 10.0 * max(x1 - x0, y1 - y0)
+    left = x0 - big
+    edge = -float(region.sigma)
+    zeta = float(region.zeta)
+    if zeta <= 0.0:
+        return [(edge, -big), (edge, big), (left, big), (left, -big)]
+    slope = math.tan(math.acos(zeta))
+    return [(edge, edge * slope), (edge, -edge * slope), (left, -left * slope),
+            (left, left * slope)]
+
+
 def resonances(*polys, damping: float = RESONANCE_DAMPING) -> np.ndarray:
     """Natural frequencies of the lightly damped root pairs of some polynomials.
 
@@ -367,3 +395,38 @@ def frequency_window(marks, grid) -> tuple[float, float]:
     if not hi > lo:
         return float(g[0]), float(g[-1])
     return lo, hi
+
+
+def time_window(settling_time=None, rise_time=None, settling_limit=None,
+                horizon: float | None = None) -> float | None:
+    """How much of a step response is worth showing.
+
+    The simulation runs until the slowest closed-loop pole has decayed; a
+    slow, nearly cancelled pole can stretch that far beyond the settling time
+    and squash the transient into the first pixel.  Show about twice the
+    settling time, 1.5 times the settling-time limit or ten rise times,
+    whichever is longest.
+
+    Parameters
+    ----------
+    settling_time, rise_time : float or None
+        The response's own (seconds).
+    settling_limit : float or None
+        The requirement's limit.
+    horizon : float, optional
+        The simulated length; when the window reaches 80 % of it, the whole.
+
+    Returns
+    -------
+    float or None
+        Seconds; ``None`` when nothing sets a window (show the whole horizon).
+    """
+    cands = [factor * v for v, factor in ((settling_time, 2.0), (rise_time, 10.0),
+                                          (settling_limit, 1.5))
+             if isinstance(v, (int, float)) and math.isfinite(v) and v > 0]
+    if not cands:
+        return horizon
+    t = max(cands)
+    if horizon is not None and t >= 0.8 * horizon:
+        return horizon
+    return t

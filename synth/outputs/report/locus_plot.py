@@ -23,7 +23,7 @@ from typing import Any
 import numpy as np
 
 from synth.errors import InputError
-from synth.outputs.report.framing import VIEW_ASPECT, LocusView, locus_view
+from synth.outputs.report.framing import VIEW_ASPECT, LocusView, locus_view, region_polygon
 
 __all__ = ["LocusAxes", "draw_locus", "frame_of", "plot_locus"]
 
@@ -96,19 +96,6 @@ class _Labels:
                                      "shrinkA": 0, "shrinkB": 4})
 
 
-def _region_polygon(region, x0: float, x1: float, y0: float, y1: float):
-    """Vertices of the allowed region clipped to a box far beyond the view."""
-    big = 10.0 * max(x1 - x0, y1 - y0)
-    left = x0 - big
-    edge = -float(region.sigma)
-    zeta = float(region.zeta)
-    if zeta <= 0.0:
-        return [(edge, -big), (edge, big), (left, big), (left, -big)]
-    slope = math.tan(math.acos(zeta))  # |Im s| <= -Re s * tan(phi)
-    top = lambda x: -x * slope  # noqa: E731
-    return [(edge, -top(edge)), (edge, top(edge)), (left, top(left)), (left, -top(left))]
-
-
 @dataclass(frozen=True)
 class LocusAxes:
     """The axes :func:`draw_locus` made, and how it framed them.
@@ -168,7 +155,7 @@ def _backdrop(ax, region, lims) -> None:
     ax.fill([0, big, big, 0], [-big, -big, big, big], color=_UNSTABLE_FILL, zorder=0.5,
             linewidth=0, label="_nolegend_")
     if region is not None:
-        poly = _region_polygon(region, x0, x1, y0, y1)
+        poly = region_polygon(region, lims)
         xs, ys = zip(*poly, strict=True)
         ax.fill(xs, ys, color=_REGION_FILL, alpha=0.85, zorder=0.6, linewidth=0,
                 label="required region\n(" + region.describe().replace(" and ", ",\n") + ")"
