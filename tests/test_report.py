@@ -264,6 +264,25 @@ def test_pdf_has_the_same_content(rig_report):
         assert everything.count(sub) == 3
 
 
+def test_pdf_locus_pages_are_vector_with_text_as_text(rig_report):
+    # pypdf (PdfReader, ContentStream): the pages holding a root locus carry no image
+    # XObject, draw with path operators, and their labels are text (extractable)
+    _, _, written, _, _ = rig_report
+    pypdf = pytest.importorskip("pypdf")
+    from pypdf.generic import ContentStream
+
+    reader = pypdf.PdfReader(str(written[1]))
+    pages = [p for p in reader.pages if "root locus of the design's loop" in p.extract_text()]
+    assert len(pages) == 3
+    for page in pages:
+        xobjects = page["/Resources"].get("/XObject") or {}
+        subtypes = [xobjects[name].get_object().get("/Subtype") for name in xobjects]
+        assert "/Image" not in subtypes
+        ops = [op for _, op in ContentStream(page.get_contents(), reader).operations]
+        assert ops.count(b"l") + ops.count(b"c") > 200  # line and curve segments
+        assert "real part of s" in page.extract_text()
+
+
 def _png_size(data: bytes) -> tuple[int, int]:
     assert data[:8] == b"\x89PNG\r\n\x1a\n"
     return int.from_bytes(data[16:20], "big"), int.from_bytes(data[20:24], "big")
@@ -390,6 +409,8 @@ def test_report_for_a_bundled_case_from_the_real_pipeline(tmp_path):
     page.feed(html_text)
     assert page.figures == list(FIGURE_KINDS) and page.svg_roots == 4
     assert page.sections[0] == "cautions"
+    # the report stays small: vector figures with simplified paths, never rasterised
+    assert all(p.stat().st_size < 2_000_000 for p in written)
     for title in (*SECTION_TITLES.values(), "Design 1: PI"):
         assert title in page.h2
     text = " ".join(page.text)

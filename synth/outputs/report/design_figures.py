@@ -26,6 +26,7 @@ __all__ = [
     "bode_curves",
     "bode_window",
     "figure_data",
+    "margin_frequency",
     "draw_step",
     "draw_bode",
     "draw_sensitivity",
@@ -115,9 +116,23 @@ def bode_window(curves, design, problem) -> tuple[float, float]:
     f = curves.frequency
     plant = problem.plant
     comp = design.compensator
-    marks = [f.crossover_frequency, f.bandwidth, f.peak_frequency, *f.phase_crossovers,
+    marks = [f.crossover_frequency, f.bandwidth, f.peak_frequency, margin_frequency(f),
              *resonances(plant.rational_num, plant.rational_den, comp.num, comp.den)]
     return frequency_window(marks, f.w)
+
+
+def margin_frequency(facts) -> float | None:
+    """The phase crossover where the gain margin is read (``None`` without a gain margin).
+
+    A dead time makes the phase cross -180 deg again and again; the margin is
+    read at the crossover with the largest ``|L|`` below 1, the one drawn.
+    """
+    if facts.gain_margin_db is None or not facts.phase_crossovers:
+        return None
+    with np.errstate(divide="ignore"):
+        mag = 20.0 * np.log10(np.abs(facts.loop))
+    at = np.interp(np.log10(facts.phase_crossovers), np.log10(facts.w), mag)
+    return float(facts.phase_crossovers[int(np.argmin(np.abs(at + facts.gain_margin_db)))])
 
 
 def figure_data(curves, design, problem) -> FigureData:
@@ -300,9 +315,8 @@ def draw_bode(target, curves: FigureData, title: str | None = None) -> None:
         pm_label = f"phase margin {pm:.3g}° at {wc:.3g} rad/s"
         axp.annotate(pm_label, (wc, -180.0 + pm / 2), xytext=(6, 0), textcoords="offset points",
                      fontsize=7.5, color=PALETTE["ink"], va="center")
-    if f.gain_margin_db is not None and f.phase_crossovers:
-        at = np.interp(np.log10(f.phase_crossovers), np.log10(w), mag)
-        wp = f.phase_crossovers[int(np.argmin(np.abs(at + f.gain_margin_db)))]
+    wp = margin_frequency(f)
+    if wp is not None:
         gm = f.gain_margin_db
         axm.axvline(wp, color=PALETTE["limit"], linestyle=":", linewidth=1.0)
         axm.plot([wp, wp], [-gm, 0.0], color=PALETTE["limit"], linewidth=2.6,

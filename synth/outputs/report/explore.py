@@ -388,13 +388,13 @@ def _time_frames(problem, sweep) -> dict:
 
 def _bode_frames(problem, design, sweep) -> tuple[dict, dict, dict]:
     """Magnitude and phase frames of the loop over the sweep, and the design's curves."""
-    from synth.outputs.report.design_figures import bode_curves
+    from synth.outputs.report.design_figures import bode_curves, margin_frequency
 
     p0 = sweep.design
     f = p0.curves.frequency
     plant = problem.plant
     comp = design.compensator
-    marks = [f.crossover_frequency, f.peak_frequency, f.bandwidth, *f.phase_crossovers,
+    marks = [f.crossover_frequency, f.peak_frequency, f.bandwidth, margin_frequency(f),
              *resonances(plant.rational_num, plant.rational_den, comp.num, comp.den)]
     for p in (sweep.points[0], sweep.points[-1]):
         marks.append(p.curves.frequency.crossover_frequency)
@@ -419,6 +419,8 @@ def _bode_frames(problem, design, sweep) -> tuple[dict, dict, dict]:
 
 def _point(problem, point, frames: dict, bode: dict, locus: tuple) -> dict:
     """One gain: the numbers, the verdict per requirement, and what each plot draws there."""
+    from synth.outputs.report.design_figures import margin_frequency
+
     v = point.verdict
     c = point.curves
     poles = np.asarray(v.closed_loop_poles, dtype=complex)
@@ -438,9 +440,8 @@ def _point(problem, point, frames: dict, bode: dict, locus: tuple) -> dict:
             plots["phase"] = [_vline(frames["phase"], lwc, "cross"),
                               {"k": "line", "c": "pm",
                                "s": [[_r(lwc), -180.0, _r(lwc), _r(-180.0 + ff.phase_margin_deg)]]}]
-    if ff.gain_margin_db is not None and ff.phase_crossovers:
-        at = np.interp(np.log10(ff.phase_crossovers), bode["lw"], bode["mag"] + shift)
-        wp = ff.phase_crossovers[int(np.argmin(np.abs(at + ff.gain_margin_db)))]
+    wp = margin_frequency(ff)
+    if wp is not None:
         mag_items.append({"k": "line", "c": "gm", "s": [[_r(math.log10(wp)),
                                                          _r(-ff.gain_margin_db),
                                                          _r(math.log10(wp)), 0.0]]})
