@@ -170,6 +170,14 @@ def _parse_pole_line(text: str) -> list[complex]:
     return [complex(float(text.split()[0]), 0.0)]
 
 
+def _assert_poles(lines: list[str], ref: np.ndarray) -> None:
+    """The poles shown (4 significant digits) are the reference poles, one for one."""
+    got = [z for line in lines for z in _parse_pole_line(line)]
+    assert len(got) == ref.size
+    for z in got:
+        assert np.min(np.abs(ref - z)) <= 1e-3 * abs(z)
+
+
 def _close(shown: float, ref: float, rel: float) -> bool:
     return abs(shown - ref) <= rel * abs(ref)
 
@@ -284,10 +292,7 @@ def test_slider_numbers_at_three_gains(built, browser, traced):
         # 2. the closed-loop poles: numpy.roots of den_C den_G + K num_C num_G
         char = np.polyadd(np.polymul(pd, problem.plant.den), k * np.polymul(zn, problem.plant.num))
         ref = np.roots(char)
-        got = [z for line in shown["poles"] for z in _parse_pole_line(line)]
-        assert len(got) == ref.size
-        for z in got:
-            assert np.min(np.abs(ref - z)) <= 1e-3 * abs(z)
+        _assert_poles(shown["poles"], ref)
         # 3. they lie on the branches that synth trace --design traced
         scale = float(np.max(np.abs(ref)))
         for z in ref:
@@ -335,12 +340,8 @@ def test_switching_designs(built, browser):
     # the second design's poles at its own gain: numpy.roots
     k, zn, pd = DESIGNS[1]
     problem = built["problem"]
-    ref = np.roots(np.polyadd(np.polymul(pd, problem.plant.den),
-                              k * np.polymul(zn, problem.plant.num)))
-    got = [z for line in shown["poles"] for z in _parse_pole_line(line)]
-    assert len(got) == ref.size
-    for z in got:
-        assert np.min(np.abs(ref - z)) <= 1e-3 * abs(z)
+    _assert_poles(shown["poles"], np.roots(np.polyadd(np.polymul(pd, problem.plant.den),
+                                                      k * np.polymul(zn, problem.plant.num))))
     assert errors == []
     page.close()
 
@@ -393,11 +394,8 @@ def test_models_load_and_frontier_appear_when_present(tmp_path, browser, monkeyp
     page.select_option("#model", "1")  # the heavy-load model alone
     shown = page.evaluate(_SHOWN)
     k, zn, pd = DESIGNS[0]
-    ref = np.roots(np.polyadd(np.polymul(pd, heavy.den), k * np.polymul(zn, heavy.num)))
-    got = [z for line in shown["poles"] for z in _parse_pole_line(line)]
-    assert len(got) == ref.size
-    for z in got:
-        assert np.min(np.abs(ref - z)) <= 1e-3 * abs(z)
+    _assert_poles(shown["poles"],
+                  np.roots(np.polyadd(np.polymul(pd, heavy.den), k * np.polymul(zn, heavy.num))))
     assert errors == []
     page.close()
 

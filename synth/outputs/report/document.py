@@ -579,12 +579,16 @@ def build_sections(report: ReportInput) -> list[Section]:
 # HTML
 # ---------------------------------------------------------------------------
 
-_CSS = """
+#: The palette and type shared by the report page and the interactive page.
+BASE_CSS = """
 :root { --ink:#22303c; --muted:#6b7885; --rule:#d5dce2; --accent:#1b6f8a; --bad:#9b2f45;
         --good:#24744a; --paper:#fbfaf7; --caution:#fff4e0; --cautionrule:#d08a1e; }
 * { box-sizing: border-box; }
 body { margin:0; background:var(--paper); color:var(--ink);
        font: 15px/1.5 "Source Sans 3", "Segoe UI", "DejaVu Sans", Helvetica, Arial, sans-serif; }
+"""
+
+_CSS = BASE_CSS + """
 main { max-width: 60rem; margin: 0 auto; padding: 1.5rem 1.5rem 4rem; }
 header.top { border-bottom: 3px solid var(--accent); margin-bottom: 1rem; }
 header.top h1 { font-size: 1.7rem; margin: 0 0 .2rem; letter-spacing: .01em; }

@@ -612,11 +612,6 @@ def explore_data(report) -> dict:
 # ---------------------------------------------------------------------------------------------
 
 _CSS = """
-:root { --ink:#22303c; --muted:#6b7885; --rule:#d5dce2; --accent:#1b6f8a; --bad:#9b2f45;
-        --good:#24744a; --paper:#fbfaf7; --caution:#fff4e0; --cautionrule:#d08a1e; }
-* { box-sizing: border-box; }
-body { margin:0; background:var(--paper); color:var(--ink);
-       font: 15px/1.45 "Source Sans 3", "Segoe UI", "DejaVu Sans", Helvetica, Arial, sans-serif; }
 main { max-width: 78rem; margin: 0 auto; padding: 1.2rem 1.2rem 3rem; }
 h1 { font-size: 1.5rem; margin: 0 0 .2rem; }
 h2 { font-size: 1.1rem; margin: 1rem 0 .4rem; color: var(--accent); }
@@ -853,12 +848,15 @@ def render_explore(report) -> str:
     blob = json.dumps(data, separators=(",", ":"), allow_nan=False).replace("<", "\\u003c")
     script = _SCRIPT % {"margin": json.dumps(list(_MARGIN)),
                         "plots": json.dumps({k: list(v) for k, v in PLOTS.items()})}
+    from synth.outputs.report.document import BASE_CSS
+
     cautions = "".join(f"<li>{html.escape(c)}</li>" for c in CAUTIONS)
     title = html.escape(data["title"])
     parts = [
         "<!DOCTYPE html>", "<html lang=\"en\">", "<head>", "<meta charset=\"utf-8\">",
         "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">",
-        f"<title>{title}: explore the gain</title>", f"<style>{_CSS}</style>", "</head>",
+        f"<title>{title}: explore the gain</title>", f"<style>{BASE_CSS}{_CSS}</style>",
+        "</head>",
         "<body>", "<main>",
         f"<h1>{title}: explore the gain</h1>",
         f"<p class=\"sub\">{html.escape(data['subtitle'])}; every number on this page was "
