@@ -184,3 +184,24 @@ def test_bode_window_follows_crossover_and_resonances(case):
     assert lo <= min(shown) * 1.01 and hi >= max(shown) * 0.99, (lo, hi, shown)
     # ... and the window not much wider: at most two decades beyond the marks on each side
     assert math.log10(hi / lo) <= math.log10(max(shown) / min(shown)) + 4.0 + 0.01
+
+
+@pytest.mark.parametrize("scale", [1e-4, 1e5])
+def test_framing_follows_the_loop_scale(scale):
+    # frequency scaling s -> s / a moves every pole, zero and special point by the factor a
+    # (common practice): the views move with them, with no absolute size anywhere
+    from synth.outputs.report.framing import locus_view
+    from synth.problem.region import Region
+
+    poles = np.array([0.0, -2.0, -40 + 49j, -40 - 49j, -1428.0])
+    zeros = np.array([-55 + 48j, -55 - 48j])
+    closed = np.array([-58.5, -44.85 + 66.2j, -44.85 - 66.2j, -1359.0])
+    base = locus_view(poles, zeros, closed, crossings=[700.0], breakaways=[-695.0],
+                      region=Region(sigma=19.6, zeta=0.59))
+    moved = locus_view(poles * scale, zeros * scale, closed * scale, crossings=[700.0 * scale],
+                       breakaways=[-695.0 * scale], region=Region(sigma=19.6 * scale, zeta=0.59))
+    assert np.allclose(np.asarray(moved.main), np.asarray(base.main) * scale, rtol=1e-12, atol=0)
+    assert np.allclose(np.asarray(moved.overview), np.asarray(base.overview) * scale,
+                       rtol=1e-12, atol=0)
+    assert np.allclose(np.sort_complex(moved.far_closed), np.sort_complex(base.far_closed) * scale,
+                       rtol=1e-12, atol=0)

@@ -170,13 +170,16 @@ def gain_sweep(problem, controller: Any, factors=GAIN_FACTORS,
     for f in fs:
         c = _scaled(controller, f)
         verdict = verify(problem, c)
-        nominal = curves(problem, c.num, c.den, t_end=t_end)
-        per_model: tuple[ModelPoint, ...] = ()
-        if len(models) > 1:
-            per_model = tuple(
-                ModelPoint(label, evaluate_model(problem, plant, c, label=label),
-                           curves(problem, c.num, c.den, t_end=t_end, plant=plant))
-                for label, plant in models)
+        # at an unstable gain the response grows without bound over the common span; its
+        # overflow is expected (the outputs clip what they draw)
+        with np.errstate(over="ignore", invalid="ignore"):
+            nominal = curves(problem, c.num, c.den, t_end=t_end)
+            per_model: tuple[ModelPoint, ...] = ()
+            if len(models) > 1:
+                per_model = tuple(
+                    ModelPoint(label, evaluate_model(problem, plant, c, label=label),
+                               curves(problem, c.num, c.den, t_end=t_end, plant=plant))
+                    for label, plant in models)
         points.append(GainPoint(factor=f, gain=float(f * k0), controller=c, verdict=verdict,
                                 curves=nominal, models=per_model))
     return GainSweep(points=tuple(points), t_end=t_end)
