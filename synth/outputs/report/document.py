@@ -532,7 +532,7 @@ def _implementation_blocks(im: dict) -> list:
     return blocks
 
 
-def _notes_section() -> Section:
+def _notes_section(explore: bool = False) -> Section:
     items = (
         "Loop convention: unity negative feedback around L = C G; the closed-loop characteristic "
         "polynomial is formed without cancelling common factors.",
@@ -546,8 +546,18 @@ def _notes_section() -> Section:
         "to 20 times the closed-loop bandwidth.",
         "PID forms: parallel and standard forms as in Astrom and Hagglund, PID Controllers: "
         "Theory, Design and Tuning.",
+        "Root-locus views frame the closed-loop poles that shape the response (a stable pole "
+        "five or more times faster than the slowest, or one a zero nearly cancels, does not; "
+        "common practice); farther poles and zeros are shown by edge arrows, a list of values "
+        "and an overview of the whole locus.",
     )
-    return Section("notes", SECTION_TITLES["notes"], (Bullets(items),))
+    blocks: tuple = (Bullets(items),)
+    if explore:
+        blocks += (Para("explore.html, beside this report, moves each top design's gain from "
+                        "0.2x to 5x along its root locus and shows the verifier's results at "
+                        "every gain: poles, step response, margins and each requirement.",
+                        "muted"),)
+    return Section("notes", SECTION_TITLES["notes"], blocks)
 
 
 def build_sections(report: ReportInput) -> list[Section]:
@@ -571,7 +581,7 @@ def build_sections(report: ReportInput) -> list[Section]:
     ]
     for fig in report.figures:
         sections.append(_design_section(report, report.document.design(fig.rank), fig))
-    sections.append(_notes_section())
+    sections.append(_notes_section(any(f.sweep is not None for f in report.figures)))
     return sections
 
 
