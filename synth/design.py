@@ -326,7 +326,31 @@ def _sampled_stage(problem, pairs: list) -> tuple[list, tuple]:
 # ----------------------------------------------------------------------------
 
 
-def prepare_report(problem, doc: dict, explanation=None, top: int | None = None):
+def _controller_of(design):
+    """The :class:`synth.verify.controller.Controller` a design record describes."""
+    from synth.verify.controller import AntiWindup, Controller, ReferenceShaping
+
+    c = design.compensator
+    shaping = None
+    if design.reference_filter is not None:
+        rf = design.reference_filter
+        shaping = ReferenceShaping(numerator=tuple(float(x) for x in rf["numerator"]),
+                                   denominator=tuple(float(x) for x in rf["denominator"]))
+    elif design.setpoint_weights is not None:
+        sw = design.setpoint_weights
+        shaping = ReferenceShaping(setpoint_weights=(float(sw.get("b", 1.0)),
+                                                     float(sw.get("c", 0.0))))
+    anti_windup = None
+    if design.anti_windup is not None:
+        aw = design.anti_windup
+        anti_windup = AntiWindup(str(aw.get("scheme", "")),
+                                 {k: float(v) for k, v in (aw.get("parameters") or {}).items()})
+    return Controller(tuple(float(x) for x in c.num), tuple(float(x) for x in c.den),
+                      shaping=shaping, anti_windup=anti_windup)
+
+
+def prepare_report(problem, doc: dict, explanation=None, top: int | None = None,
+                   sweep: bool = True, frontier: dict | None = None):
     """Gather what the report of a design run shows, so the report only formats.
 
     Parameters
@@ -340,20 +364,27 @@ def prepare_report(problem, doc: dict, explanation=None, top: int | None = None)
     top : int, optional
         How many designs get a full section (curves and root locus); default
         :data:`synth.outputs.report.document.TOP`.
+    sweep : bool
+        Also run the verifier along each of those designs' loci
+        (:func:`synth.verify.sweep.gain_sweep`, for the interactive page).
+    frontier : dict, optional
+        A ``synth.frontier/1`` document to show on the interactive page.
 
     Returns
     -------
     synth.outputs.report.document.ReportInput
         The document, the explanation and, per top design, the verifier's
-        curves (:func:`synth.verify.curves.curves`) and the design loop's root
-        locus (:func:`synth.locus.trace_design_loop`).
+        curves (:func:`synth.verify.curves.curves`), the design loop's root
+        locus (:func:`synth.locus.trace_design_loop`) and the gain sweep.
     """
     from synth.errors import InputError
     from synth.locus import trace_design_loop
     from synth.outputs.document import read_design
     from synth.outputs.implementation import add_implementation_forms
     from synth.outputs.report.document import TOP, DesignFigures, ReportInput
+    from synth.outputs.report.framing import time_window
     from synth.verify.curves import curves
+    from synth.verify.sweep import gain_sweep
 
     top = TOP if top is None else top
     document = read_design(doc)
@@ -373,7 +404,15 @@ def prepare_report(problem, doc: dict, explanation=None, top: int | None = None)
             note = ""
         except InputError as err:  # a zero gain: the loop has no locus to draw
             trace, gain, note = None, None, err.message
-        figures.append(DesignFigures(rank=d.rank, curves=curves(problem, c.num, c.den),
-                                     locus=trace, locus_gain=gain, locus_note=note))
+        own = curves(problem, c.num, c.den)
+        swept = None
+        if sweep and trace is not None:
+            horizon = own.step.t[-1] if own.step is not None else None
+            # one time span for every gain: the part of the design's own response worth seeing
+            span = time_window(d.metric("settling_time"), d.metric("rise_time"),
+                               problem.requirements.limit("settling_time"), horizon)
+            swept = gain_sweep(problem, _controller_of(d), t_end=span)
+        figures.append(DesignFigures(rank=d.rank, curves=own, locus=trace, locus_gain=gain,
+                                     locus_note=note, sweep=swept))
     return ReportInput(problem=problem, document=document, explanation=explanation,
-                       figures=tuple(figures))
+                       figures=tuple(figures), frontier=frontier)

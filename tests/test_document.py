@@ -151,7 +151,7 @@ def test_the_report_only_formats(tmp_path, monkeypatch):
                          (synth.verify.simulation, "simulate_step")):
         monkeypatch.setattr(module, name, forbidden)
     written = write_report(material, tmp_path / "r")
-    assert [p.name for p in written] == ["report.html", "report.pdf"]
+    assert [p.name for p in written] == ["report.html", "report.pdf", "explore.html"]
 
 
 def test_implementation_forms_need_no_problem(monkeypatch):

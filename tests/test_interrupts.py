@@ -61,7 +61,8 @@ def _check_aftermath(tmp_path: Path, returncode: int, stderr: str, sig: str) -> 
     assert leftovers == []  # no hidden temporary files or folders
     rep = out / "rep"
     if rep.exists():  # a report folder is never left empty or half-filled
-        assert sorted(p.name for p in rep.iterdir()) == ["report.html", "report.pdf"]
+        assert sorted(p.name for p in rep.iterdir()) == ["explore.html", "report.html",
+                                                         "report.pdf"]
     run = out / "run.json"
     if run.exists():
         assert json.loads(run.read_text())["schema"] == "synth.design/1"
@@ -81,7 +82,7 @@ def test_interrupt_at_a_writing_stage(tmp_path, point, sig):
     _check_aftermath(tmp_path, res.returncode, res.stderr, sig)
     if point == "commit":  # a signal during the final renames waits for them
         assert sorted(p.name for p in (tmp_path / "out" / "rep").iterdir()) == [
-            "report.html", "report.pdf"]
+            "explore.html", "report.html", "report.pdf"]
     if point in ("report", "folder"):  # the JSON came first and is complete
         assert (tmp_path / "out" / "run.json").exists()
         assert not (tmp_path / "out" / "rep").exists()

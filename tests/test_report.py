@@ -148,12 +148,13 @@ def rig_report(tmp_path_factory):
     return problem, doc, written, page, html_text
 
 
-def test_both_files_written_into_a_new_folder(rig_report):
+def test_every_file_written_into_a_new_folder(rig_report):
     _, _, written, _, _ = rig_report
-    assert [p.name for p in written] == ["report.html", "report.pdf"]
+    assert [p.name for p in written] == ["report.html", "report.pdf", "explore.html"]
     assert all(p.is_file() and p.stat().st_size > 1000 for p in written)
     # nothing else is left in the folder (no temporary files)
-    assert sorted(p.name for p in written[0].parent.iterdir()) == ["report.html", "report.pdf"]
+    assert sorted(p.name for p in written[0].parent.iterdir()) == ["explore.html", "report.html",
+                                                                   "report.pdf"]
 
 
 def test_every_section_and_heading_is_present(rig_report):
@@ -261,6 +262,25 @@ def test_pdf_has_the_same_content(rig_report):
         assert title in everything
     for sub in ("Step response and control effort", "Loop frequency response", "Discrete time"):
         assert everything.count(sub) == 3
+
+
+def test_pdf_locus_pages_are_vector_with_text_as_text(rig_report):
+    # pypdf (PdfReader, ContentStream): the pages holding a root locus carry no image
+    # XObject, draw with path operators, and their labels are text (extractable)
+    _, _, written, _, _ = rig_report
+    pypdf = pytest.importorskip("pypdf")
+    from pypdf.generic import ContentStream
+
+    reader = pypdf.PdfReader(str(written[1]))
+    pages = [p for p in reader.pages if "root locus of the design's loop" in p.extract_text()]
+    assert len(pages) == 3
+    for page in pages:
+        xobjects = page["/Resources"].get("/XObject") or {}
+        subtypes = [xobjects[name].get_object().get("/Subtype") for name in xobjects]
+        assert "/Image" not in subtypes
+        ops = [op for _, op in ContentStream(page.get_contents(), reader).operations]
+        assert ops.count(b"l") + ops.count(b"c") > 200  # line and curve segments
+        assert "real part of s" in page.extract_text()
 
 
 def _png_size(data: bytes) -> tuple[int, int]:
@@ -389,6 +409,8 @@ def test_report_for_a_bundled_case_from_the_real_pipeline(tmp_path):
     page.feed(html_text)
     assert page.figures == list(FIGURE_KINDS) and page.svg_roots == 4
     assert page.sections[0] == "cautions"
+    # the report stays small: vector figures with simplified paths, never rasterised
+    assert all(p.stat().st_size < 2_000_000 for p in written)
     for title in (*SECTION_TITLES.values(), "Design 1: PI"):
         assert title in page.h2
     text = " ".join(page.text)

@@ -42,15 +42,19 @@ class LoopCurves:
         Roots of the unreduced characteristic polynomial (engine form).
     stable : bool
         Every closed-loop pole in the open left half-plane.
+    load : StepResponse or None
+        Response to a unit load step at the plant input (``r = 0``), when the
+        verifier computes one; outputs draw it when present.
     """
 
     step: StepResponse | None
     frequency: LoopFrequency
     closed_loop_poles: np.ndarray
     stable: bool
+    load: StepResponse | None = None
 
 
-def curves(problem, num_c, den_c, t_end: float | None = None) -> LoopCurves:
+def curves(problem, num_c, den_c, t_end: float | None = None, plant=None) -> LoopCurves:
     """The curves of the loop around ``problem.plant`` with compensator ``num_c/den_c``.
 
     Parameters
@@ -61,18 +65,21 @@ def curves(problem, num_c, den_c, t_end: float | None = None) -> LoopCurves:
         Compensator polynomials.
     t_end : float, optional
         Simulation length (default: the verifier's horizon).
+    plant : synth.problem.plant.Plant, optional
+        Another plant model of the problem (default ``problem.plant``), as
+        :func:`synth.verify.verdict.plant_models` lists them.
 
     Returns
     -------
     LoopCurves
     """
+    plant = problem.plant if plant is None else plant
     nc, dc = trim(num_c), trim(den_c)
-    _, _, char = loop_polynomials(problem.plant, nc, dc)
+    _, _, char = loop_polynomials(plant, nc, dc)
     poles = np.roots(char) if char.size > 1 else np.zeros(0, complex)
     stable = bool(np.all(poles.real < 0))
     step = None
     if nc.size <= dc.size:
-        step = simulate_step(problem.plant, nc, dc, t_end=t_end,
-                             requirements=problem.requirements)
-    return LoopCurves(step=step, frequency=loop_frequency(problem.plant, nc, dc),
+        step = simulate_step(plant, nc, dc, t_end=t_end, requirements=problem.requirements)
+    return LoopCurves(step=step, frequency=loop_frequency(plant, nc, dc),
                       closed_loop_poles=poles, stable=stable)

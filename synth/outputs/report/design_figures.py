@@ -23,7 +23,10 @@ from synth.verify.frequency import LoopFrequency
 __all__ = [
     "PALETTE",
     "FigureData",
+    "bode_curves",
+    "bode_window",
     "figure_data",
+    "margin_frequency",
     "draw_step",
     "draw_bode",
     "draw_sensitivity",
@@ -80,29 +83,56 @@ class FigureData:
 
 
 def _view(t, y, u, design, settling_limit, notes: list[str]):
-    """Crop the simulated response to the part worth looking at.
+    """Crop the simulated response to the part worth looking at (:func:`framing.time_window`)."""
+    from synth.outputs.report.framing import time_window
 
-    The simulation runs until the slowest closed-loop pole has decayed; a slow,
-    nearly cancelled pole can stretch that far beyond the settling time and
-    squash the transient into the first pixel. Show about twice the settling
-    time (or 1.5 times the settling-time limit, or ten rise times) instead.
-    """
-    cands = []
-    for key, factor in (("settling_time", 2.0), ("rise_time", 10.0)):
-        v = design.metric(key)
-        if isinstance(v, (int, float)) and math.isfinite(v) and v > 0:
-            cands.append(factor * v)
-    if settling_limit:
-        cands.append(1.5 * settling_limit)
-    if not cands or t.size < 3:
+    if t.size < 3:
         return t, y, u
-    t_view = max(cands)
-    if t_view >= 0.8 * t[-1]:
+    t_view = time_window(design.metric("settling_time"), design.metric("rise_time"),
+                         settling_limit, float(t[-1]))
+    if t_view is None or t_view >= t[-1]:
         return t, y, u
     keep = int(np.searchsorted(t, t_view)) + 1
     notes.append(f"the time axis shows the first {t[keep - 1]:.3g} s of a simulation to "
                  f"{t[-1]:.3g} s (a slow closed-loop pole sets its length)")
     return t[:keep], y[:keep], (None if u is None else u[:keep])
+
+
+def bode_window(curves, design, problem) -> tuple[float, float]:
+    """The frequency range of a design's Bode and sensitivity plots.
+
+    It follows the crossovers (gain and phase), the sensitivity peak, the
+    closed-loop bandwidth and the resonances of the loop's rational part
+    (lightly damped poles and zeros of the plant and the compensator):
+    :func:`synth.outputs.report.framing.frequency_window` around them.
+
+    Returns
+    -------
+    (lo, hi) : float
+        rad/s, within the verifier's frequency grid.
+    """
+    from synth.outputs.report.framing import frequency_window, resonances
+
+    f = curves.frequency
+    plant = problem.plant
+    comp = design.compensator
+    marks = [f.crossover_frequency, f.bandwidth, f.peak_frequency, margin_frequency(f),
+             *resonances(plant.rational_num, plant.rational_den, comp.num, comp.den)]
+    return frequency_window(marks, f.w)
+
+
+def margin_frequency(facts) -> float | None:
+    """The phase crossover where the gain margin is read (``None`` without a gain margin).
+
+    A dead time makes the phase cross -180 deg again and again; the margin is
+    read at the crossover with the largest ``|L|`` below 1, the one drawn.
+    """
+    if facts.gain_margin_db is None or not facts.phase_crossovers:
+        return None
+    with np.errstate(divide="ignore"):
+        mag = 20.0 * np.log10(np.abs(facts.loop))
+    at = np.interp(np.log10(facts.phase_crossovers), np.log10(facts.w), mag)
+    return float(facts.phase_crossovers[int(np.argmin(np.abs(at + facts.gain_margin_db)))])
 
 
 def figure_data(curves, design, problem) -> FigureData:
@@ -141,13 +171,10 @@ def figure_data(curves, design, problem) -> FigureData:
     t, y, u = _view(t, y, u, design, problem.requirements.limit("settling_time"), notes)
     f = curves.frequency
     w, L = f.w, f.loop
-    marks = [v for v in (f.crossover_frequency, f.bandwidth, f.peak_frequency,
-                         *f.phase_crossovers) if v]
-    if marks:
-        # frame the interesting part: two decades either side of the marked frequencies
-        keep = (w >= min(marks) / 100.0) & (w <= max(marks) * 100.0)
-        if np.count_nonzero(keep) >= 2:
-            w, L = w[keep], L[keep]
+    lo, hi = bode_window(curves, design, problem)
+    keep = (w >= lo) & (w <= hi)
+    if np.count_nonzero(keep) >= 2:
+        w, L = w[keep], L[keep]
     return FigureData(t=t, y=y, u=u, final_value=final, stable=curves.stable, w=w, loop=L,
                       facts=f, notes=tuple(notes))
 
@@ -242,6 +269,29 @@ def draw_step(target, curves: FigureData, requirements=None, title: str | None =
     ax2.set_xlim(t[0], t[-1])
 
 
+def bode_curves(w, loop, facts) -> tuple[np.ndarray, np.ndarray]:
+    """Magnitude (dB) and unwrapped phase (deg) of ``L(jw)``, the phase placed near -180 deg.
+
+    The phase is shifted by whole turns so that at the gain crossover it reads
+    ``-180 + phase margin``, where the margin is read.
+
+    Parameters
+    ----------
+    w : ndarray
+    loop : ndarray of complex
+    facts : synth.verify.frequency.LoopFrequency
+        Its crossover frequency and phase margin.
+    """
+    with np.errstate(divide="ignore"):
+        mag = 20.0 * np.log10(np.abs(loop))
+    phase = np.degrees(np.unwrap(np.angle(loop)))
+    shift = 0.0
+    if facts.crossover_frequency is not None:
+        pc = float(np.interp(math.log10(facts.crossover_frequency), np.log10(w), phase))
+        shift = 360.0 * round((-180.0 + (facts.phase_margin_deg or 0.0) - pc) / 360.0)
+    return mag, phase + shift
+
+
 def draw_bode(target, curves: FigureData, title: str | None = None) -> None:
     """Loop magnitude (dB) and phase (deg) with the gain and phase margins marked."""
     gs = target.add_gridspec(2, 1, left=0.11, right=0.97, bottom=0.13, top=0.9, hspace=0.32)
@@ -249,16 +299,8 @@ def draw_bode(target, curves: FigureData, title: str | None = None) -> None:
     for a in (axm, axp):
         _style(a)
     w, L = curves.w, curves.loop
-    with np.errstate(divide="ignore"):
-        mag = 20.0 * np.log10(np.abs(L))
-    phase = np.degrees(np.unwrap(np.angle(L)))
-    # put the phase near -180 where the margins are read
     f = curves.facts
-    shift = 0.0
-    if f.crossover_frequency is not None:
-        pc = float(np.interp(math.log10(f.crossover_frequency), np.log10(w), phase))
-        shift = 360.0 * round((-180.0 + (f.phase_margin_deg or 0.0) - pc) / 360.0)
-    phase = phase + shift
+    mag, phase = bode_curves(w, L, f)
     axm.semilogx(w, mag, color=PALETTE["response"], linewidth=1.5, label="|L(jw)|")
     axm.axhline(0.0, color=PALETTE["muted"], linewidth=0.8)
     axp.semilogx(w, phase, color=PALETTE["phase"], linewidth=1.5, label="arg L(jw)")
@@ -273,9 +315,8 @@ def draw_bode(target, curves: FigureData, title: str | None = None) -> None:
         pm_label = f"phase margin {pm:.3g}° at {wc:.3g} rad/s"
         axp.annotate(pm_label, (wc, -180.0 + pm / 2), xytext=(6, 0), textcoords="offset points",
                      fontsize=7.5, color=PALETTE["ink"], va="center")
-    if f.gain_margin_db is not None and f.phase_crossovers:
-        at = np.interp(np.log10(f.phase_crossovers), np.log10(w), mag)
-        wp = f.phase_crossovers[int(np.argmin(np.abs(at + f.gain_margin_db)))]
+    wp = margin_frequency(f)
+    if wp is not None:
         gm = f.gain_margin_db
         axm.axvline(wp, color=PALETTE["limit"], linestyle=":", linewidth=1.0)
         axm.plot([wp, wp], [-gm, 0.0], color=PALETTE["limit"], linewidth=2.6,

@@ -1,4 +1,4 @@
-"""The design report: one self-contained HTML page and a PDF of the same content.
+"""The design report: one self-contained HTML page, a PDF of the same content, and a page to explore.
 
 :func:`write_report` builds the report once as a list of sections made of
 simple blocks (headings, paragraphs, lists, tables, preformatted lines and
@@ -7,19 +7,24 @@ figures), then renders that list twice:
 * ``report.html``: one file, figures as inline SVG, styles inline, no
   scripts and no external resources, with print rules so it prints cleanly;
 * ``report.pdf``: A4 pages laid out by matplotlib (``PdfPages``), text and
-  figures flowing in the same order.
+  figures flowing in the same order, every figure as vector paths with text
+  as text (matplotlib's path simplification keeps the file small).
 
-Both files are written to temporary names first and moved into place only
-when both succeeded, so a failure leaves no partial report.
+It also writes ``explore.html``, the interactive page
+(:mod:`synth.outputs.report.explore`): a gain slider along each top design's
+root locus, with the verifier's results at every gain embedded as data.
 
-The safety cautions come first in both.
+All files are written to temporary names first and moved into place only
+when all succeeded, so a failure leaves no partial report.
+
+The safety cautions come first in each.
 
 The report only formats.  Its input, :class:`ReportInput`, carries the
 document (read once, :mod:`synth.outputs.document`), the run's explanation
-and, for each design given a section, the verifier's curves and the design
-loop's root locus (:class:`DesignFigures`); ``synth.design.prepare_report``
-gathers them.  The requirement names and texts come from the catalogue
-(:mod:`synth.problem.catalogue`).
+and, for each design given a section, the verifier's curves, the design
+loop's root locus and the gain sweep (:class:`DesignFigures`);
+``synth.design.prepare_report`` gathers them.  The requirement names and
+texts come from the catalogue (:mod:`synth.problem.catalogue`).
 """
 
 from __future__ import annotations
@@ -27,7 +32,6 @@ from __future__ import annotations
 import html
 import math
 import re
-import tempfile
 import textwrap
 from collections.abc import Callable
 from dataclasses import dataclass, field
@@ -60,6 +64,10 @@ FIGURE_KINDS = ("locus", "step", "bode", "sensitivity")
 #: Designs given a full section (by default, in ``synth.design.prepare_report``).
 TOP = 3
 
+#: matplotlib's own path simplification, at a third of a point: curves keep what the page
+#: resolution shows and the files stay small (vector, never rasterised).
+SIMPLIFY = {"path.simplify": True, "path.simplify_threshold": 1.0 / 3.0}
+
 
 @dataclass(frozen=True)
 class DesignFigures:
@@ -76,6 +84,9 @@ class DesignFigures:
         The compensator gain at which the design operates on it.
     locus_note : str
         Why there is no locus, when there is none.
+    sweep : synth.verify.sweep.GainSweep or None
+        The verifier along the design's locus (0.2x to 5x its gain), for the
+        interactive page; ``None``: the page shows the design without a slider.
     """
 
     rank: int
@@ -83,6 +94,7 @@ class DesignFigures:
     locus: Any = None
     locus_gain: float | None = None
     locus_note: str = ""
+    sweep: Any = None
 
 
 @dataclass(frozen=True)
@@ -101,12 +113,22 @@ class ReportInput:
         is shown.
     figures : tuple of DesignFigures
         One per design given a full section, best rank first.
+    frontier : dict or None
+        A ``synth.frontier/1`` document, shown on the interactive page when
+        present.
+
+    Notes
+    -----
+    Every field after ``document`` is optional, so further content (per-model
+    curves, a load response, a frontier) joins as optional data and appears
+    where it is present.
     """
 
     problem: Any
     document: DesignDocument
     explanation: Any = None
     figures: tuple[DesignFigures, ...] = ()
+    frontier: Any = None
 
 
 # ---------------------------------------------------------------------------
@@ -144,19 +166,17 @@ class Pre:
 
 @dataclass(frozen=True)
 class Figure:
-    """A drawing, made one of two ways.
+    """A drawing: ``draw(target)`` draws into a matplotlib Figure or SubFigure.
 
-    ``draw(target)`` draws into a matplotlib Figure or SubFigure (vector in
-    both outputs); ``to_file(path)`` writes a ``.svg`` or ``.png`` picture
-    itself (used for pictures made by other modules, such as the root locus).
+    The same drawing becomes inline SVG in the HTML page and vector paths
+    (text as text) on a PDF page; nothing is rasterised.
     """
 
     kind: str
     height_in: float
     caption: str
     alt: str
-    draw: Callable | None = None
-    to_file: Callable | None = None
+    draw: Callable
 
 
 @dataclass(frozen=True)
@@ -355,34 +375,30 @@ def _ranking_section(document: DesignDocument) -> Section:
 
 
 def _locus_figure(problem, fig: DesignFigures) -> Figure:
-    """The design's root locus, drawn by :func:`synth.outputs.report.locus_plot.plot_locus`."""
+    """The design's root locus, drawn by :func:`synth.outputs.report.locus_plot.draw_locus`."""
 
-    def to_file(path):
-        from synth.outputs.report.locus_plot import plot_locus
+    def draw(target):
+        from synth.outputs.report.locus_plot import draw_locus
 
         if fig.locus is None:
-            _placeholder(path, f"no root locus: {fig.locus_note}")
+            _placeholder(target, f"no root locus: {fig.locus_note}")
             return
-        plot_locus(fig.locus, path, region=problem.region, operating_gain=fig.locus_gain,
-                   title="root locus of the design's loop, "
-                   f"operating at K = {fig.locus_gain:.4g}")
+        draw_locus(target, fig.locus, region=problem.region, operating_gain=fig.locus_gain,
+                   title=f"root locus of the design's loop, operating at K = {fig.locus_gain:.4g}")
 
-    return Figure("locus", 4.4,
+    return Figure("locus", 4.6 if fig.locus is not None else 1.2,
                   "Root locus of the loop as the compensator gain K varies: open-loop poles x, "
                   "zeros o, the requirement region shaded, and the closed-loop poles at the "
-                  "design's gain marked.", "root locus", to_file=to_file)
+                  "design's gain marked. The main view frames the poles that shape the "
+                  "response; arrows at its edge point to far poles, zeros and special points, "
+                  "listed with their values beside the overview of the whole locus.",
+                  "root locus", draw=draw)
 
 
-def _placeholder(path, message: str) -> None:
-    """A small picture that says why a figure could not be drawn."""
-    from matplotlib.backends.backend_agg import FigureCanvasAgg
-    from matplotlib.figure import Figure as MplFigure
-
-    fig = MplFigure(figsize=(8.0, 2.0))
-    FigureCanvasAgg(fig)
-    fig.text(0.5, 0.5, "\n".join(textwrap.wrap(message, 90)), ha="center", va="center",
-             fontsize=10, color=_COLORS["muted"])
-    fig.savefig(path, format=Path(path).suffix[1:])
+def _placeholder(target, message: str) -> None:
+    """Say in a figure's place why it could not be drawn."""
+    target.text(0.5, 0.5, "\n".join(textwrap.wrap(message, 90)), ha="center", va="center",
+                fontsize=10, color=_COLORS["muted"])
 
 
 def _design_section(report: ReportInput, design: DesignRecord, fig: DesignFigures) -> Section:
@@ -521,7 +537,7 @@ def _implementation_blocks(im: dict, sampled: bool = False) -> list:
     return blocks
 
 
-def _notes_section() -> Section:
+def _notes_section(explore: bool = False) -> Section:
     items = (
         "Loop convention: unity negative feedback around L = C G; the closed-loop characteristic "
         "polynomial is formed without cancelling common factors.",
@@ -535,8 +551,18 @@ def _notes_section() -> Section:
         "to 30 times the closed-loop bandwidth.",
         "PID forms: parallel and standard forms as in Astrom and Hagglund, PID Controllers: "
         "Theory, Design and Tuning.",
+        "Root-locus views frame the closed-loop poles that shape the response (a stable pole "
+        "five or more times faster than the slowest, or one a zero nearly cancels, does not; "
+        "common practice); farther poles and zeros are shown by edge arrows, a list of values "
+        "and an overview of the whole locus.",
     )
-    return Section("notes", SECTION_TITLES["notes"], (Bullets(items),))
+    blocks: tuple = (Bullets(items),)
+    if explore:
+        blocks += (Para("explore.html, beside this report, moves each top design's gain from "
+                        "0.2x to 5x along its root locus and shows the verifier's results at "
+                        "every gain: poles, step response, margins and each requirement.",
+                        "muted"),)
+    return Section("notes", SECTION_TITLES["notes"], blocks)
 
 
 def build_sections(report: ReportInput) -> list[Section]:
@@ -560,7 +586,7 @@ def build_sections(report: ReportInput) -> list[Section]:
     ]
     for fig in report.figures:
         sections.append(_design_section(report, report.document.design(fig.rank), fig))
-    sections.append(_notes_section())
+    sections.append(_notes_section(any(f.sweep is not None for f in report.figures)))
     return sections
 
 
@@ -568,12 +594,16 @@ def build_sections(report: ReportInput) -> list[Section]:
 # HTML
 # ---------------------------------------------------------------------------
 
-_CSS = """
+#: The palette and type shared by the report page and the interactive page.
+BASE_CSS = """
 :root { --ink:#22303c; --muted:#6b7885; --rule:#d5dce2; --accent:#1b6f8a; --bad:#9b2f45;
         --good:#24744a; --paper:#fbfaf7; --caution:#fff4e0; --cautionrule:#d08a1e; }
 * { box-sizing: border-box; }
 body { margin:0; background:var(--paper); color:var(--ink);
        font: 15px/1.5 "Source Sans 3", "Segoe UI", "DejaVu Sans", Helvetica, Arial, sans-serif; }
+"""
+
+_CSS = BASE_CSS + """
 main { max-width: 60rem; margin: 0 auto; padding: 1.5rem 1.5rem 4rem; }
 header.top { border-bottom: 3px solid var(--accent); margin-bottom: 1rem; }
 header.top h1 { font-size: 1.7rem; margin: 0 0 .2rem; letter-spacing: .01em; }
@@ -650,22 +680,16 @@ def _svg_text(fig_block: Figure, salt: str) -> str:
 
     # text stays text (small, selectable); the salt keeps element ids unique per figure
     with matplotlib.rc_context({"svg.fonttype": "none", "svg.hashsalt": salt,
-                                "font.family": "DejaVu Sans"}):
-        if fig_block.to_file is not None:
-            with tempfile.TemporaryDirectory(prefix="synth-fig-") as tmp:
-                path = Path(tmp) / "figure.svg"
-                fig_block.to_file(path)
-                text = path.read_text(encoding="utf-8")
-        else:
-            from matplotlib.backends.backend_agg import FigureCanvasAgg
-            from matplotlib.figure import Figure as MplFigure
+                                "font.family": "DejaVu Sans", **SIMPLIFY}):
+        from matplotlib.backends.backend_agg import FigureCanvasAgg
+        from matplotlib.figure import Figure as MplFigure
 
-            fig = MplFigure(figsize=(7.4, fig_block.height_in))
-            FigureCanvasAgg(fig)
-            fig_block.draw(fig)
-            buf = io.StringIO()
-            fig.savefig(buf, format="svg", metadata={"Date": None})
-            text = buf.getvalue()
+        fig = MplFigure(figsize=(7.4, fig_block.height_in))
+        FigureCanvasAgg(fig)
+        fig_block.draw(fig)
+        buf = io.StringIO()
+        fig.savefig(buf, format="svg", metadata={"Date": None})
+        text = buf.getvalue()
     svg = _prefix_ids(text[text.find("<svg"):], salt)
     label = html.escape(fig_block.alt, quote=True)
     return svg.replace("<svg", f"<svg role=\"img\" aria-label=\"{label}\"", 1)
@@ -926,18 +950,7 @@ class _PdfWriter:
         self.y += 0.03
 
     def figure(self, f: Figure) -> None:
-        picture = None
         height = f.height_in
-        if f.to_file is not None:
-            from matplotlib.image import imread
-
-            with tempfile.TemporaryDirectory(prefix="synth-fig-") as tmp:
-                path = Path(tmp) / "figure.png"
-                f.to_file(path)
-                picture = imread(path)
-            # keep the picture's own aspect, at most the text width and the block's height
-            aspect = picture.shape[1] / picture.shape[0]
-            height = min(self.width_in / aspect, f.height_in)
         cap = self.wrap(f.caption, 8)
         self.room(height + len(cap) * 8 * 1.3 / 72 + 0.1)
         top, bottom = self.y, self.y + height
@@ -945,16 +958,9 @@ class _PdfWriter:
         # place it on a grid of hundredths of an inch
         rows, cols = int(round(_PAGE_H * 100)), int(round(_PAGE_W * 100))
         gs = self.page.add_gridspec(rows, cols, wspace=0, hspace=0)
-        width = self.width_in if picture is None else height * aspect
-        left = _MARGIN + 0.5 * (self.width_in - width)
-        c0, c1 = int(round(left * 100)), int(round((left + width) * 100))
+        c0, c1 = int(round(_MARGIN * 100)), int(round((_MARGIN + self.width_in) * 100))
         sub = self.page.add_subfigure(gs[int(round(top * 100)):int(round(bottom * 100)), c0:c1])
-        if picture is not None:
-            ax = sub.add_axes((0.0, 0.0, 1.0, 1.0))
-            ax.imshow(picture, interpolation="lanczos")
-            ax.set_axis_off()
-        else:
-            f.draw(sub)
+        f.draw(sub)
         self.y = bottom + 0.1
         self.text_lines(cap, 8, _COLORS["muted"])
         self.y += 0.08
@@ -971,7 +977,7 @@ def render_pdf(sections: list[Section], title: str, subtitle: str, path: Path) -
     import matplotlib
     from matplotlib.backends.backend_pdf import PdfPages
 
-    with matplotlib.rc_context({"pdf.fonttype": 42, "font.family": "DejaVu Sans"}):
+    with matplotlib.rc_context({"pdf.fonttype": 42, "font.family": "DejaVu Sans", **SIMPLIFY}):
         with PdfPages(path, metadata={"Title": title, "Creator": "synth",
                                       "CreationDate": None, "ModDate": None}) as pdf:
             w = _PdfWriter(pdf, title, subtitle)
@@ -1006,7 +1012,9 @@ def write_report(report: ReportInput, outdir) -> list[Path]:
     Returns
     -------
     list of pathlib.Path
-        The files written: ``[outdir/report.html, outdir/report.pdf]``.
+        The files written: ``[outdir/report.html, outdir/report.pdf,
+        outdir/explore.html]`` (the last is the interactive page,
+        :mod:`synth.outputs.report.explore`).
 
     Raises
     ------
@@ -1016,9 +1024,9 @@ def write_report(report: ReportInput, outdir) -> list[Path]:
 
     Notes
     -----
-    Both files are written into a hidden staging folder
+    All files are written into a hidden staging folder
     (:func:`synth.outputs.files.atomic_folder`) and renamed into place only
-    when both are complete; on any failure or interrupt the staging folder is
+    when all are complete; on any failure or interrupt the staging folder is
     removed, and a folder that did not exist is not created.
     """
     from synth.outputs.files import atomic_folder, check_output_folder, interrupt_point
@@ -1028,8 +1036,12 @@ def write_report(report: ReportInput, outdir) -> list[Path]:
     sections = build_sections(report)
     title, subtitle = _title(report.problem)
     page = render_html(sections, title, subtitle)
+    from synth.outputs.report.explore import render_explore
+
+    explore = render_explore(report)
     with atomic_folder(out, "--report") as stage:
         (stage / "report.html").write_text(page, encoding="utf-8")
+        (stage / "explore.html").write_text(explore, encoding="utf-8")
         interrupt_point("report")
         render_pdf(sections, title, subtitle, stage / "report.pdf")
-    return [out / "report.html", out / "report.pdf"]
+    return [out / "report.html", out / "report.pdf", out / "explore.html"]

@@ -1,8 +1,11 @@
-"""Picture of a traced root locus (PNG or SVG).
+"""Picture of a traced root locus (PNG, SVG, or a region of a report page).
 
-The view frames the part of the s-plane that holds the poles, zeros and
-special points (and the closed-loop poles at an operating gain), so far
-asymptote tails leave the picture instead of shrinking it.  Poles are drawn
+The main view frames the dominant region (:mod:`synth.outputs.report.framing`):
+the closed-loop poles that shape the response at the operating gain, the
+requirement region, and the poles, zeros, crossings and breakaways near
+them.  Far poles and zeros (a lead pole two decades out, the fast all-pass
+poles of a Pade form) get arrows at the edge, their values in a note and a
+zoomed-out overview beside the main view; they never shrink it.  Poles are drawn
 as x and zeros as o (the trade's convention); everything else (palette,
 markers for special points, layout) is synth's own.
 
@@ -13,11 +16,16 @@ and drifts.
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 
 from synth.errors import InputError
+from synth.outputs.report.framing import VIEW_ASPECT, LocusView, locus_view, region_polygon
+
+__all__ = ["LocusAxes", "draw_locus", "frame_of", "plot_locus"]
 
 # synth's own palette: muted inks on a warm paper tone
 _PAPER = "#fbfaf7"
@@ -35,59 +43,19 @@ _BRANCHES = ("#2f6690", "#bc4b51", "#5b8e7d", "#8c6a4f", "#6c5b7b",
              "#d08c30", "#3a7ca5", "#9b4f96", "#4d7c0f", "#a0522d")
 
 
-def _fmt(x: float) -> str:
+def _fmt(x: float, digits: int = 3) -> str:
     x = float(x)
-    if abs(x) < 1e-12:
+    if x == 0.0:
         return "0"
-    return f"{x:.3g}"
+    return f"{x:.{digits}g}"
 
 
-def _frame(trace, extra: np.ndarray, region) -> tuple[float, float, float, float]:
-    """Axis limits (x0, x1, y0, y1) around the interesting points.
-
-    The poles, zeros, centroid and operating poles always count; breakaway
-    points and axis crossings count when they lie within three sizes of that
-    core box (a crossing at an absurd gain far out would otherwise shrink the
-    part that matters).
-    """
-    p = trace.points
-    core = [trace.poles, trace.zeros, np.asarray(extra, dtype=complex)]
-    if p.asymptotes.centroid is not None:
-        core.append(np.asarray([p.asymptotes.centroid], dtype=complex))
-    z = np.concatenate(core)
-    z = z[np.isfinite(z)]
-    if z.size == 0:
-        z = np.zeros(1, dtype=complex)
-    cx0, cx1 = float(z.real.min()), float(z.real.max())
-    cy = float(np.abs(z.imag).max())
-    size = max(cx1 - cx0, 2 * cy)
-    if size <= 1e-9 * max(abs(cx0), abs(cx1), 1e-300):
-        size = trace.scale  # a single point: use the locus's own size
-    w = np.asarray([c.frequency for c in p.crossings], dtype=float)
-    special = np.concatenate([np.asarray([b.s for b in p.breakaways], dtype=complex),
-                              1j * w, -1j * w])
-    if special.size:
-        dx = np.maximum(np.maximum(cx0 - special.real, special.real - cx1), 0.0)
-        dy = np.maximum(np.abs(special.imag) - cy, 0.0)
-        z = np.concatenate([z, special[np.hypot(dx, dy) <= 3.0 * size]])
-    x0, x1 = float(z.real.min()), float(z.real.max())
-    y1 = float(np.abs(z.imag).max())
-    span = max(x1 - x0, 2 * y1, 1e-9 * max(abs(x0), abs(x1)), 1e-12)
-    if span <= 1e-9 * max(abs(x0), abs(x1), 1.0):
-        span = max(trace.scale, abs(x0), 1.0)
-    # keep the imaginary axis in view when it is not far away
-    if x1 < 0 and -x1 < 1.5 * span:
-        x1 = 0.0
-    if x0 > 0 and x0 < 1.5 * span:
-        x0 = 0.0
-    if region is not None and getattr(region, "sigma", 0.0) > 0 and -region.sigma > x1 - 2 * span:
-        x1 = max(x1, -float(region.sigma))
-    span = max(x1 - x0, 2 * y1, span)
-    pad = 0.28 * span
-    half_h = max(y1 + pad, 0.5 * (x1 - x0 + 2 * pad) / 1.3)
-    half_w = max(0.5 * (x1 - x0) + pad, 1.3 * half_h)
-    cx = 0.5 * (x0 + x1)
-    return cx - half_w, cx + half_w, -half_h, half_h
+def _cfmt(z: complex, digits: int = 3) -> str:
+    """A complex value for a label: ``-40 ± 50j`` for a pair, ``-1428`` on the axis."""
+    z = complex(z)
+    if z.imag == 0.0 or abs(z.imag) <= 1e-9 * abs(z):
+        return _fmt(z.real, digits)
+    return f"{_fmt(z.real, digits)} ± {_fmt(abs(z.imag), digits)}j"
 
 
 class _Labels:
@@ -128,17 +96,259 @@ class _Labels:
                                      "shrinkA": 0, "shrinkB": 4})
 
 
-def _region_polygon(region, x0: float, x1: float, y0: float, y1: float):
-    """Vertices of the allowed region clipped to a box far beyond the view."""
+@dataclass(frozen=True)
+class LocusAxes:
+    """The axes :func:`draw_locus` made, and how it framed them.
+
+    Attributes
+    ----------
+    main : matplotlib.axes.Axes
+        The dominant region.
+    overview : matplotlib.axes.Axes or None
+        The zoomed-out view of the whole locus (only when something is far).
+    view : synth.outputs.report.framing.LocusView
+    """
+
+    main: Any
+    overview: Any
+    view: LocusView
+
+
+def _clean_region(region):
+    """The region to shade, or None for 'stable only' (nothing to shade beyond the half-plane)."""
+    if region is None:
+        return None
+    if getattr(region, "sigma", 0.0) == 0.0 and getattr(region, "zeta", 0.0) == 0.0:
+        return None
+    return region
+
+
+def _operating_roots(trace, operating_gain) -> np.ndarray:
+    if operating_gain is None:
+        return np.zeros(0, dtype=complex)
+    roots = trace.roots_at(float(operating_gain))
+    return roots[np.isfinite(roots)]
+
+
+def frame_of(trace, region=None, operating_gain: float | None = None,
+             aspect: float = VIEW_ASPECT) -> LocusView:
+    """How :func:`draw_locus` frames ``trace`` (see :func:`synth.outputs.report.framing.locus_view`)."""
+    pts = trace.points
+    return locus_view(trace.poles, trace.zeros, _operating_roots(trace, operating_gain),
+                      crossings=[c.frequency for c in pts.crossings],
+                      breakaways=[b.s for b in pts.breakaways], region=_clean_region(region),
+                      scale=float(trace.scale), aspect=aspect)
+
+
+def _style(ax) -> None:
+    ax.set_facecolor(_PAPER)
+    ax.grid(True, color=_GRID, linewidth=0.7, zorder=0)
+    ax.set_axisbelow(True)
+    for side in ("top", "right"):
+        ax.spines[side].set_visible(False)
+
+
+def _backdrop(ax, region, lims) -> None:
+    """The unstable half-plane tinted, the allowed region shaded, the axes drawn."""
+    x0, x1, y0, y1 = lims
     big = 10.0 * max(x1 - x0, y1 - y0)
-    left = x0 - big
-    edge = -float(region.sigma)
-    zeta = float(region.zeta)
-    if zeta <= 0.0:
-        return [(edge, -big), (edge, big), (left, big), (left, -big)]
-    slope = math.tan(math.acos(zeta))  # |Im s| <= -Re s * tan(phi)
-    top = lambda x: -x * slope  # noqa: E731
-    return [(edge, -top(edge)), (edge, top(edge)), (left, top(left)), (left, -top(left))]
+    ax.fill([0, big, big, 0], [-big, -big, big, big], color=_UNSTABLE_FILL, zorder=0.5,
+            linewidth=0, label="_nolegend_")
+    if region is not None:
+        poly = region_polygon(region, lims)
+        xs, ys = zip(*poly, strict=True)
+        ax.fill(xs, ys, color=_REGION_FILL, alpha=0.85, zorder=0.6, linewidth=0,
+                label="required region\n(" + region.describe().replace(" and ", ",\n") + ")"
+                if hasattr(region, "describe") else "required region")
+        ax.plot([*xs, xs[0]], [*ys, ys[0]], color=_REGION_EDGE, linewidth=1.0, zorder=0.7)
+    ax.axhline(0.0, color=_AXIS, linewidth=0.8, zorder=1)
+    ax.axvline(0.0, color=_AXIS, linewidth=0.8, zorder=1)
+
+
+def _branches(ax, trace, lims, width: float, legend: bool) -> None:
+    """Asymptotes, branches, open-loop poles (x) and zeros (o)."""
+    x0, x1, y0, y1 = lims
+    a = trace.points.asymptotes
+    if a.centroid is not None:
+        reach = 30.0 * max(x1 - x0, y1 - y0) + abs(a.centroid)
+        for k, ang in enumerate(a.angles_deg):
+            t = math.radians(ang)
+            ax.plot([a.centroid, a.centroid + reach * math.cos(t)],
+                    [0.0, reach * math.sin(t)], linestyle=(0, (6, 4)), color=_ASYMPTOTE,
+                    linewidth=0.9, zorder=2,
+                    label="asymptotes" if k == 0 and legend else "_nolegend_")
+    roots = trace.roots
+    sign = "K < 0" if trace.negative else "K > 0"
+    for j in range(roots.shape[1]):
+        b = roots[:, j]
+        ok = np.isfinite(b)
+        ax.plot(b.real[ok], b.imag[ok], color=_BRANCHES[j % len(_BRANCHES)], linewidth=width,
+                zorder=4, solid_capstyle="round",
+                label=f"branches ({sign})" if j == 0 and legend else "_nolegend_")
+    small = width < 1.5
+    ax.plot(trace.poles.real, trace.poles.imag, linestyle="none", marker="x",
+            markersize=7 if small else 10, markeredgewidth=1.6 if small else 2.2, color=_INK,
+            zorder=6, label="open-loop poles" if legend else "_nolegend_")
+    if trace.zeros.size:
+        ax.plot(trace.zeros.real, trace.zeros.imag, linestyle="none", marker="o",
+                markersize=6 if small else 9, markerfacecolor="none",
+                markeredgewidth=1.5 if small else 2.0, color=_INK, zorder=6,
+                label="open-loop zeros" if legend else "_nolegend_")
+
+
+def _edge_markers(ax, view: LocusView) -> None:
+    """A small arrow at the main view's edge toward each far point."""
+    x0, x1, y0, y1 = view.main
+    cx, cy = 0.5 * (x0 + x1), 0.0
+    hw, hh = 0.5 * (x1 - x0), 0.5 * (y1 - y0)
+    items = ([(z, _INK) for z in view.far_poles] + [(z, _INK) for z in view.far_zeros]
+             + [(z, _OPERATING) for z in view.far_closed]
+             + [(z, _CROSSING if kind == "crossing" else _BREAK) for kind, z in view.far_points])
+    for z, colour in items:
+        for zz in {complex(z), complex(z).conjugate()}:
+            dx, dy = zz.real - cx, zz.imag - cy
+            t = 0.97 / max(abs(dx) / hw, abs(dy) / hh)
+            ex, ey = cx + t * dx, cy + t * dy
+            angle = math.degrees(math.atan2(dy / hh, dx / hw))
+            ax.plot([ex], [ey], linestyle="none", marker=(3, 0, angle - 90.0), markersize=8,
+                    color=colour, zorder=9, clip_on=False)
+
+
+def _far_text(view: LocusView) -> str:
+    """What lies outside the main view, with values (the edge markers point at them)."""
+    lines = []
+    for label, values in (("open-loop poles", view.far_poles), ("open-loop zeros", view.far_zeros),
+                          ("closed-loop poles", view.far_closed)):
+        if values.size:
+            shown = [_cfmt(v, 4) for v in sorted(values, key=lambda v: (-abs(v), v.real))[:4]]
+            more = f" (+{values.size - 4})" if values.size > 4 else ""
+            lines.append(f"{label}: " + ", ".join(shown) + more)
+    for kind, z in view.far_points[:4]:
+        lines.append(f"{kind} at {_cfmt(z, 4)}")
+    return "outside the main view (edge arrows):\n" + "\n".join(lines) if lines else ""
+
+
+def draw_locus(target, trace, region=None, operating_gain: float | None = None,
+               title: str | None = None) -> LocusAxes:
+    """Draw ``trace`` into a matplotlib ``Figure`` or ``SubFigure`` (vector in any format).
+
+    The main view frames the dominant region (:func:`frame_of`); far poles,
+    zeros and special points get arrows at its edge, their values in a note,
+    and a zoomed-out overview beside it.  Legend and notes stand outside the
+    views, so nothing covers the poles.
+
+    Parameters
+    ----------
+    target : matplotlib.figure.Figure or SubFigure
+    trace : LocusTrace
+    region : Region, optional
+        Requirement region to shade (default: the trace's own region).
+    operating_gain : float, optional
+        Mark the closed-loop poles at this gain.
+    title : str, optional
+
+    Returns
+    -------
+    LocusAxes
+    """
+    region = _clean_region(region if region is not None else trace.region)
+    op_roots = _operating_roots(trace, operating_gain)
+    # the main axes' rectangle (fractions of the target) and its shape in inches
+    # the main axes' rectangle (fractions of the target): beside an overview when something is
+    # far, else the whole width; its shape in inches sets the view's aspect
+    bbox = target.bbox
+    rect = (0.085, 0.27, 0.6, 0.64)
+    view = frame_of(trace, region, operating_gain,
+                    aspect=(rect[2] * bbox.width) / (rect[3] * bbox.height))
+    if not view.has_far:
+        rect = (0.085, 0.27, 0.89, 0.64)
+        view = frame_of(trace, region, operating_gain,
+                        aspect=(rect[2] * bbox.width) / (rect[3] * bbox.height))
+    x0, x1, y0, y1 = view.main
+
+    ax = target.add_axes(rect)
+    _style(ax)
+    _backdrop(ax, region, view.main)
+    _branches(ax, trace, view.main, 1.8, legend=True)
+    ax.set_xlim(x0, x1)
+    ax.set_ylim(y0, y1)
+    ax.set_aspect("equal", adjustable="box")
+    ax.apply_aspect()  # final pixel frame before the labels are placed
+    label_box = {"boxstyle": "round,pad=0.25", "facecolor": "white", "edgecolor": "none",
+                 "alpha": 0.85}
+    labels = _Labels(ax, x0, x1, y0, y1)
+
+    # repeated poles and zeros: say how many sit on one mark (relative: exact at the origin)
+    for values in (trace.poles, trace.zeros):
+        done = np.zeros(values.size, dtype=bool)
+        for i, v in enumerate(values):
+            if done[i]:
+                continue
+            same = np.abs(values - v) <= 1e-9 * abs(v)
+            done |= same
+            if int(np.sum(same)) > 1:
+                ax.annotate(f"{int(np.sum(same))}", (v.real, v.imag), xytext=(7, 7),
+                            textcoords="offset points", fontsize=8, color=_INK, zorder=8)
+
+    pts = trace.points
+    if pts.crossings:
+        w = np.asarray([c.frequency for c in pts.crossings])
+        ax.plot(np.zeros(2 * w.size), np.concatenate([w, -w]), linestyle="none", marker="D",
+                markersize=7, color=_CROSSING, zorder=7, label="imaginary-axis crossings")
+        for c in pts.crossings:
+            labels.add(f"K = {_fmt(c.gain)}\nw = {_fmt(c.frequency)}", 0.0, c.frequency,
+                       _CROSSING, label_box)
+    if pts.breakaways:
+        s = np.asarray([b.s for b in pts.breakaways])
+        ax.plot(s.real, s.imag, linestyle="none", marker="s", markersize=7, color=_BREAK,
+                zorder=7, label="roots meet (breakaway / break-in)")
+        for b in sorted((b for b in pts.breakaways if b.s.imag >= 0), key=lambda b: b.s.real):
+            labels.add(f"K = {_fmt(b.gain)}", b.s.real, b.s.imag, _BREAK, label_box)
+    if op_roots.size:
+        ax.plot(op_roots.real, op_roots.imag, linestyle="none", marker="p", markersize=10,
+                markerfacecolor=_OPERATING, markeredgecolor=_INK, markeredgewidth=0.8, zorder=9,
+                label=f"closed-loop poles at K = {_fmt(operating_gain)}")
+    _edge_markers(ax, view)
+    ax.set_xlabel("real part of s  (1/s)", fontsize=9)
+    ax.set_ylabel("imaginary part of s  (rad/s)", fontsize=9)
+    ax.tick_params(labelsize=8)
+    sign = "K < 0" if trace.negative else "K > 0"
+    ax.set_title(title or f"root locus of the loop, {sign}", fontsize=10, color=_INK, loc="left")
+
+    overview = None
+    if view.overview is not None:
+        ox0, ox1, oy0, oy1 = view.overview
+        orect = (0.74, 0.52, 0.25, 0.39)
+        overview = target.add_axes(orect)
+        _style(overview)
+        _backdrop(overview, region, view.overview)
+        _branches(overview, trace, view.overview, 1.0, legend=False)
+        if op_roots.size:
+            overview.plot(op_roots.real, op_roots.imag, linestyle="none", marker="p",
+                          markersize=6, markerfacecolor=_OPERATING, markeredgecolor=_INK,
+                          markeredgewidth=0.5, zorder=9)
+        from matplotlib.patches import Rectangle
+
+        overview.add_patch(Rectangle((x0, y0), x1 - x0, y1 - y0, fill=False, edgecolor=_INK,
+                                     linewidth=1.0, linestyle="--", zorder=10))
+        overview.set_xlim(ox0, ox1)
+        overview.set_ylim(oy0, oy1)
+        overview.set_aspect("equal", adjustable="box")
+        overview.tick_params(labelsize=6.5)
+        overview.set_title("whole locus (dashed: main view)", fontsize=7.5, color=_INK,
+                           loc="left")
+    handles, texts = ax.get_legend_handles_labels()
+    legend = target.legend(handles, texts, loc="lower left", bbox_to_anchor=(0.01, 0.005),
+                           ncols=4, fontsize=6.5, framealpha=0.92, facecolor="white",
+                           edgecolor=_GRID, columnspacing=1.2, handletextpad=0.5)
+    legend.set_zorder(10)
+    note = _far_text(view)
+    if note:
+        target.text(0.725, 0.43, note, fontsize=6.5, color=_INK, va="top", ha="left",
+                    linespacing=1.35)
+    target.text(0.995, 0.995, "linear model: check on the real machine", ha="right", va="top",
+                fontsize=6.5, color=_AXIS)
+    return LocusAxes(main=ax, overview=overview, view=view)
 
 
 def plot_locus(trace, path, region=None, operating_gain: float | None = None,
@@ -174,121 +384,17 @@ def plot_locus(trace, path, region=None, operating_gain: float | None = None,
         raise InputError(f"the picture must be a .png or .svg file, not {out.name!r}")
     if operating_gain is not None and not np.isfinite(float(operating_gain)):
         raise InputError(f"the operating gain must be a finite number, not {operating_gain}")
-    region = region if region is not None else trace.region
-    if region is not None and getattr(region, "sigma", 0.0) == 0.0 and getattr(region, "zeta", 0.0) == 0.0:
-        region = None
-
-    from matplotlib.backends.backend_agg import FigureCanvasAgg
-    from matplotlib.figure import Figure
-
-    op_roots = np.zeros(0, dtype=complex)
-    if operating_gain is not None:
-        op_roots = trace.roots_at(float(operating_gain))
-        op_roots = op_roots[np.isfinite(op_roots)]
-    x0, x1, y0, y1 = _frame(trace, op_roots, region)
-
-    fig = Figure(figsize=(8.0, 6.2), dpi=120, facecolor="white")
-    FigureCanvasAgg(fig)
-    ax = fig.add_subplot(1, 1, 1)
-    ax.set_facecolor(_PAPER)
-    ax.grid(True, color=_GRID, linewidth=0.7, zorder=0)
-    ax.set_axisbelow(True)
-    for side in ("top", "right"):
-        ax.spines[side].set_visible(False)
-
-    # half-plane context: the unstable side faintly tinted, the allowed region shaded
-    big = 10.0 * max(x1 - x0, y1 - y0)
-    ax.fill([0, big, big, 0], [-big, -big, big, big], color=_UNSTABLE_FILL, zorder=0.5,
-            linewidth=0, label="_nolegend_")
-    if region is not None:
-        poly = _region_polygon(region, x0, x1, y0, y1)
-        xs, ys = zip(*poly, strict=True)
-        ax.fill(xs, ys, color=_REGION_FILL, alpha=0.85, zorder=0.6, linewidth=0,
-                label=f"required region ({region.describe()})" if hasattr(region, "describe")
-                else "required region")
-        ax.plot([*xs, xs[0]], [*ys, ys[0]], color=_REGION_EDGE, linewidth=1.0, zorder=0.7)
-    ax.axhline(0.0, color=_AXIS, linewidth=0.8, zorder=1)
-    ax.axvline(0.0, color=_AXIS, linewidth=0.8, zorder=1)
-
-    pts = trace.points
-    a = pts.asymptotes
-    if a.centroid is not None:
-        reach = 3.0 * big
-        for k, ang in enumerate(a.angles_deg):
-            t = math.radians(ang)
-            ax.plot([a.centroid, a.centroid + reach * math.cos(t)],
-                    [0.0, reach * math.sin(t)], linestyle=(0, (6, 4)), color=_ASYMPTOTE,
-                    linewidth=1.0, zorder=2, label="asymptotes" if k == 0 else "_nolegend_")
-        ax.plot([a.centroid], [0.0], marker="+", markersize=9, color=_ASYMPTOTE, zorder=3,
-                linestyle="none")
-
-    roots = trace.roots
-    for j in range(roots.shape[1]):
-        b = roots[:, j]
-        ok = np.isfinite(b)
-        ax.plot(b.real[ok], b.imag[ok], color=_BRANCHES[j % len(_BRANCHES)], linewidth=1.8,
-                zorder=4, solid_capstyle="round",
-                label=f"branches ({'K < 0' if trace.negative else 'K > 0'})" if j == 0 else "_nolegend_")
-
-    ax.plot(trace.poles.real, trace.poles.imag, linestyle="none", marker="x", markersize=10,
-            markeredgewidth=2.2, color=_INK, zorder=6, label="open-loop poles")
-    if trace.zeros.size:
-        ax.plot(trace.zeros.real, trace.zeros.imag, linestyle="none", marker="o", markersize=9,
-                markerfacecolor="none", markeredgewidth=2.0, color=_INK, zorder=6,
-                label="open-loop zeros")
-
-    label_box = {"boxstyle": "round,pad=0.25", "facecolor": "white", "edgecolor": "none", "alpha": 0.85}
-    # limits first, so that label placement works in the final pixel frame
-    ax.set_xlim(x0, x1)
-    ax.set_ylim(y0, y1)
-    ax.set_aspect("equal", adjustable="box")
-    labels = _Labels(ax, x0, x1, y0, y1)
-
-    # repeated poles and zeros: say how many sit on one mark
-    for values in (trace.poles, trace.zeros):
-        seen: list[complex] = []
-        for v in values:
-            if any(abs(v - u) <= 1e-9 * max(1.0, abs(v)) for u in seen):
-                continue
-            seen.append(v)
-            count = int(np.sum(np.abs(values - v) <= 1e-9 * max(1.0, abs(v))))
-            if count > 1:
-                ax.annotate(f"{count}", (v.real, v.imag), xytext=(7, 7), textcoords="offset points",
-                            fontsize=8, color=_INK, zorder=8)
-
-    if pts.crossings:
-        w = np.asarray([c.frequency for c in pts.crossings])
-        ax.plot(np.zeros(2 * w.size), np.concatenate([w, -w]), linestyle="none", marker="D",
-                markersize=7, color=_CROSSING, zorder=7, label="imaginary-axis crossings")
-        for c in pts.crossings:
-            labels.add(f"K = {_fmt(c.gain)}\nw = {_fmt(c.frequency)}", 0.0, c.frequency,
-                       _CROSSING, label_box)
-    if pts.breakaways:
-        s = np.asarray([b.s for b in pts.breakaways])
-        ax.plot(s.real, s.imag, linestyle="none", marker="s", markersize=7, color=_BREAK,
-                zorder=7, label="roots meet (breakaway / break-in)")
-        for b in sorted((b for b in pts.breakaways if b.s.imag >= 0), key=lambda b: b.s.real):
-            labels.add(f"K = {_fmt(b.gain)}", b.s.real, b.s.imag, _BREAK, label_box)
-    if op_roots.size:
-        ax.plot(op_roots.real, op_roots.imag, linestyle="none", marker="p", markersize=10,
-                markerfacecolor=_OPERATING, markeredgecolor=_INK, markeredgewidth=0.8, zorder=9,
-                label=f"closed-loop poles at K = {_fmt(operating_gain)}")
-
-    ax.set_xlabel("real part of s  (1/s)")
-    ax.set_ylabel("imaginary part of s  (rad/s)")
-    sign = "K < 0" if trace.negative else "K > 0"
-    ax.set_title(title or f"root locus of the loop, {sign}", fontsize=11, color=_INK, loc="left")
-    legend = ax.legend(loc="upper left", fontsize=8, framealpha=0.92, facecolor="white",
-                       edgecolor=_GRID)
-    legend.set_zorder(10)
-    fig.text(0.99, 0.01, "linear model: check on the real machine", ha="right", va="bottom",
-             fontsize=7, color=_AXIS)
-    fig.tight_layout()
-
     target = out.resolve()
     folder = target.parent
     if not folder.is_dir():
         raise InputError(f"cannot write {out}: the folder {folder} does not exist")
+
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from matplotlib.figure import Figure
+
+    fig = Figure(figsize=(10.0, 6.2), dpi=120, facecolor="white")
+    FigureCanvasAgg(fig)
+    draw_locus(fig, trace, region=region, operating_gain=operating_gain, title=title)
     from synth.outputs.files import atomic_file
 
     with atomic_file(target) as tmp:
