@@ -1,7 +1,8 @@
 """The requirements file: TOML schema, validation and the s-plane region.
 
-A requirements file (format 1, see ``docs/requirements-file.md``) has three
-tables: ``[plant]``, ``[requirements]`` and ``[search]``.  Everything is
+A requirements file (format 1, see ``docs/requirements-file.md``) has the
+tables ``[plant]``, ``[requirements]``, ``[search]`` and the optional
+``[actuator]`` (:mod:`synth.problem.actuator`).  Everything is
 validated strictly: unknown keys, wrong types, non-finite numbers and values
 out of range raise :class:`synth.errors.InputError` naming the file and key.
 The ``[requirements]`` keys, their allowed values and their meaning come from
@@ -36,6 +37,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from synth.errors import InputError
+from synth.problem.actuator import Actuator, parse_actuator
 from synth.problem.catalogue import REQUIREMENTS, RangeSpec, Requirement, requirement_for
 from synth.problem.limits import (
     MAX_MAGNITUDE,
@@ -63,7 +65,7 @@ def __getattr__(name: str):
         return structure_names()
     raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
-_TOP_KEYS = {"format", "plant", "requirements", "search"}
+_TOP_KEYS = {"format", "plant", "requirements", "search", "actuator"}
 
 
 _PLANT_KEYS = {"label", "numerator", "denominator", "zeros", "poles", "gain", "expression",
@@ -184,12 +186,17 @@ class SearchSettings:
 
 @dataclass(frozen=True)
 class Problem:
-    """Everything a command needs: plant, requirements, search settings, source file."""
+    """Everything a command needs: plant, requirements, search settings, source file.
+
+    ``actuator`` is the ``[actuator]`` table (:class:`synth.problem.actuator.Actuator`),
+    ``None`` when the file has none: then the loop is judged linear.
+    """
 
     plant: Plant
     requirements: Requirements = field(default_factory=Requirements)
     search: SearchSettings = field(default_factory=SearchSettings)
     source: str = "<string>"
+    actuator: Actuator | None = None
 
     @property
     def region(self) -> Region:
@@ -448,8 +455,9 @@ def parse_problem(doc: dict, source: str = "<string>", *, read_data=None) -> Pro
     st = _table(doc, "search", src)
     _unknown(st, set(_SEARCH_SPEC), src, "search.")
     search = SearchSettings(**{k: _SEARCH_SPEC[k](v, src, f"search.{k}") for k, v in st.items()})
+    actuator = parse_actuator(doc["actuator"], src) if "actuator" in doc else None
     check_time_scales(_rates(plant, req), src)
-    return Problem(plant=plant, requirements=req, search=search, source=src)
+    return Problem(plant=plant, requirements=req, search=search, source=src, actuator=actuator)
 
 
 def problem_from_text(text: str, source: str = "<string>", *, read_data=None) -> Problem:
