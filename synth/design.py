@@ -55,6 +55,10 @@ ProgressFn = Callable[[float, float, str], None]
 #: for the search's initial sample: a few nearest designs to list).
 FUTILE_EFFORT = 0.02
 
+#: With actuator limits, the anti-windup finishing stage runs for at most this many
+#: times ``search.keep`` designs (each costs a few saturated simulations).
+FINISH_LIMIT = 3
+
 
 # ----------------------------------------------------------------------------
 # helpers
@@ -161,9 +165,56 @@ class DesignRun:
 # ----------------------------------------------------------------------------
 
 
-def _verify_all(problem, cands, exact: bool) -> list:
-    return [verify(problem, c.controller, exact_delay=exact)
+def _verify_all(problem, cands, exact: bool, actuator: bool = True) -> list:
+    return [verify(problem, c.controller, exact_delay=exact, actuator=actuator)
             for c in cands]
+
+
+def _final_verification(problem, pairs) -> tuple[list, dict[str, Any]]:
+    """Re-verify, in rank order, every design that would be reported, until all of them are final.
+
+    The first pass verified every candidate quickly: the Pade form of a dead
+    time in the simulation, the actuator's limits left out.  A final verdict
+    has the exact delay and, with ``[actuator]``, the anti-windup finishing
+    stage (:func:`synth.windup.finish_anti_windup`) and the limited actuator.
+    With an actuator the stage runs for at most :data:`FINISH_LIMIT` times
+    ``search.keep`` designs; designs it could not reach are left out of the
+    ranking (the JSON's ``search.anti_windup.limit_reached`` says so).
+
+    Returns the pairs to rank and the stage's bookkeeping for ``stats``.
+    """
+    from synth.windup import finish_anti_windup
+
+    pairs = list(pairs)
+    final = [False] * len(pairs)
+    index = {id(c): i for i, (c, _) in enumerate(pairs)}
+    limit = FINISH_LIMIT * problem.search.keep
+    tuned = work = 0
+    stopped = False
+    actuator = problem.actuator is not None
+    while True:
+        ranked = rank_designs([p for i, p in enumerate(pairs) if final[i] or tuned < limit],
+                              problem)
+        todo = [index[id(d.candidate)] for d in ranked if not final[index[id(d.candidate)]]]
+        if not todo:
+            break
+        for i in todo:
+            c, quick = pairs[i]
+            if actuator:
+                if tuned >= limit:
+                    stopped = True
+                    break
+                done = finish_anti_windup(problem, c, quick)
+                c = done.candidate
+                index[id(c)] = i
+                tuned += 1
+                work += done.work
+            pairs[i] = (c, verify(problem, c.controller))
+            final[i] = True
+    out: dict[str, Any] = {}
+    if actuator:
+        out = {"anti_windup": {"finished": tuned, "work": work, "limit_reached": stopped}}
+    return [p for i, p in enumerate(pairs) if final[i]], out
 
 
 def _checked(new, family, strategy) -> list:
@@ -252,21 +303,11 @@ def run_design(problem, strategies=None, families=None,
     search_seconds = time.monotonic() - t_search
 
     dead = problem.plant.dead_time > 0
-    verdicts = _verify_all(problem, candidates, exact=not dead)
+    verdicts = _verify_all(problem, candidates, exact=not dead, actuator=False)
     pairs = list(zip(candidates, verdicts, strict=True))
-    if dead:
-        # make every reported design carry an exact-delay verdict
-        exact = [False] * len(pairs)
-        index = {id(c): i for i, c in enumerate(candidates)}
-        while True:
-            ranked = rank_designs(pairs, problem)
-            todo = [index[id(d.candidate)] for d in ranked if not exact[index[id(d.candidate)]]]
-            if not todo:
-                break
-            for i in todo:
-                c = candidates[i]
-                pairs[i] = (c, verify(problem, c.controller))
-                exact[i] = True
+    finishing: dict[str, Any] = {}
+    if dead or problem.actuator is not None:
+        pairs, finishing = _final_verification(problem, pairs)
     ranked = rank_designs(pairs, problem)
     if progress is not None:
         progress(total, total, "verified")
@@ -274,7 +315,7 @@ def run_design(problem, strategies=None, families=None,
              "effort": search.effort, "work": work, "futile": futile,
              "candidates": len(candidates), "search_seconds": round(search_seconds, 3),
              "family_seconds": per_family, "time_capped": capped,
-             "time_budget_reached": bool(capped), "declined": declined}
+             "time_budget_reached": bool(capped), "declined": declined, **finishing}
     return DesignRun(problem=problem, designs=tuple(ranked), proportional=proportional,
                      explanation=explanation, stats=stats)
 

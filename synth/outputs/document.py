@@ -196,6 +196,60 @@ class DesignRecord:
         """Whether the document gives this metric (possibly as ``null``)."""
         return key in self.metrics or key == "gain"
 
+    def controller(self, source: str = "<design>"):
+        """The design as a :class:`synth.verify.controller.Controller`.
+
+        The compensator with the document's reference shaping (a
+        ``reference_filter`` with ``numerator`` and ``denominator``, or
+        ``setpoint_weights`` ``b``, ``c``) and ``anti_windup`` (scheme and
+        parameters), so what a document carries is verified, drawn and
+        exported as one controller.
+
+        Raises
+        ------
+        InputError
+            Naming the field when shaping or anti-windup is malformed.
+        """
+        from synth.verify.antiwindup import SCHEMES
+        from synth.verify.controller import AntiWindup, Controller, ReferenceShaping
+
+        key = f"designs[{self.index}]"
+        shaping = None
+        weights = self.setpoint_weights
+        rf = self.reference_filter
+        if rf is not None and "setpoint_weights" in rf:
+            weights = rf["setpoint_weights"]
+        if weights is not None:
+            b, c = (weights.get("b"), weights.get("c")) if isinstance(weights, Mapping) \
+                else (None, None)
+            if not (_is_number(b) and _is_number(c) and math.isfinite(b) and math.isfinite(c)):
+                raise InputError("needs numbers b and c", source, f"{key}.setpoint_weights")
+            shaping = ReferenceShaping(setpoint_weights=(float(b), float(c)))
+        elif rf is not None:
+            num = _coefficients(_thawed(rf.get("numerator")), source,
+                                f"{key}.reference_filter.numerator", zero_ok=False)
+            den = _coefficients(_thawed(rf.get("denominator")), source,
+                                f"{key}.reference_filter.denominator", zero_ok=False)
+            shaping = ReferenceShaping(numerator=num, denominator=den)
+        aw = None
+        if self.anti_windup is not None:
+            scheme = self.anti_windup.get("scheme")
+            if scheme not in SCHEMES:
+                raise InputError(f"scheme must be one of {', '.join(SCHEMES)}, got {scheme!r}",
+                                 source, f"{key}.anti_windup.scheme")
+            params = self.anti_windup.get("parameters") or {}
+            if not isinstance(params, Mapping) or not all(
+                    _is_number(v) and math.isfinite(v) and v > 0 for v in params.values()):
+                raise InputError("must map names to positive numbers", source,
+                                 f"{key}.anti_windup.parameters")
+            if scheme != "none" and "tracking_time" not in params:
+                raise InputError(f"scheme {scheme!r} needs tracking_time", source,
+                                 f"{key}.anti_windup.parameters")
+            aw = AntiWindup(scheme, {k: float(v) for k, v in params.items()})
+        c = self.compensator
+        return Controller(tuple(float(x) for x in c.numerator),
+                          tuple(float(x) for x in c.denominator), shaping, aw)
+
 
 @dataclass(frozen=True)
 class DesignDocument:
@@ -217,6 +271,9 @@ class DesignDocument:
         Second round: what "best" meant.
     raw : mapping
         The document as read (read-only).
+    actuator : mapping or None
+        The ``[actuator]`` table the run used (``limits``, ``operating_point``,
+        ``max_rate``, ``reference_step``, ``load_step``), when it had one.
     """
 
     source: str
@@ -228,6 +285,7 @@ class DesignDocument:
     search: Mapping[str, Any] | None
     objective: str | None
     raw: Mapping[str, Any]
+    actuator: Mapping[str, Any] | None = None
 
     def design(self, rank: int) -> DesignRecord:
         """The design of rank ``rank`` (InputError naming the ranks present)."""
@@ -281,6 +339,11 @@ def _roots(value: Any, source: str, key: str) -> tuple[complex, ...]:
             raise InputError("must be a list of finite [re, im] pairs", source, key)
         out.append(complex(v[0], v[1]))
     return tuple(out)
+
+
+def _thawed(value: Any) -> Any:
+    """A read-only value back as plain JSON (lists for tuples) for the coefficient reader."""
+    return thaw(value)
 
 
 def _mapping(value: Any, source: str, key: str) -> Mapping | None:
@@ -449,7 +512,7 @@ def read_design(doc: Any, source: str = "<design>") -> DesignDocument:
         proportional=_mapping(doc.get("proportional"), source, "proportional"),
         search=_mapping(doc.get("search"), source, "search"),
         objective=objective if isinstance(objective, str) else None,
-        raw=_frozen(doc))
+        raw=_frozen(doc), actuator=_mapping(doc.get("actuator"), source, "actuator"))
 
 
 def load_design(path: str | Path) -> DesignDocument:

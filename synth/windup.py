@@ -1,0 +1,129 @@
+"""The anti-windup finishing stage: each design to be reported gets its tracking time.
+
+The search itself stays linear: every strategy proposes compensators for the
+linear loop, and every candidate is first verified without the actuator
+limits (quick).  A design that :func:`synth.design.run_design` would report
+then passes through :func:`finish_anti_windup`: its anti-windup scheme is
+chosen (:func:`synth.verify.antiwindup.tracking_range`) and its tracking time
+``Tt`` picked from a grid by simulating the loop with the limited actuator,
+after which the design is verified in full with the actuator.
+
+Choice of ``Tt``.  The grid is the default tracking time and
+:data:`synth.verify.antiwindup.GRID_POINTS` geometric points over the
+scheme's range, all simulated together on one time grid (one batch of
+:func:`synth.verify.saturated.simulate_saturated` on the nominal plant).
+Each point is judged on the time-domain requirements of the file, each
+metric the worse of the linear and the saturated response (as the
+verifier judges it): the least total shortfall wins, then the shortest
+saturated settling time (to three digits), then the least saturated
+overshoot (to 0.1 %), then the point nearest the default (on a log scale).  Work: one unit per grid point.
+
+References
+----------
+.. [1] K. J. Astrom and T. Hagglund, *Advanced PID Control*, ISA, 2006,
+   sec. 3.5 (the tracking time constant and its effect).
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+from dataclasses import dataclass
+
+from synth.verify.antiwindup import tracking_grid, tracking_range
+from synth.verify.controller import AntiWindup
+
+__all__ = ["Finished", "finish_anti_windup"]
+
+#: Metric concerns the tracking time can change (the catalogue's ``concerns``).
+_TIME_DOMAIN = ("reference", "load")
+
+
+@dataclass(frozen=True)
+class Finished:
+    """A candidate with its anti-windup, and the work spent choosing it.
+
+    Attributes
+    ----------
+    candidate : synth.strategies.Candidate
+        The candidate with ``anti_windup`` set (and the choice in its provenance).
+    work : int
+        Grid points simulated (0 for a scheme without parameters).
+    """
+
+    candidate: object
+    work: int
+
+
+def _judge(problem, linear: dict, saturated: dict) -> tuple[float, float, float]:
+    """``(shortfall, settling, overshoot)`` of one tracking time (smaller is better)."""
+    from synth.verify.saturated import combine_responses
+
+    metrics = combine_responses(linear, saturated)
+    short = 0.0
+    for entry, limit in problem.requirements.limits():
+        if entry.concerns not in _TIME_DOMAIN:
+            continue
+        found = entry.assess(metrics.get(entry.metric), limit)
+        if found is not None:
+            short += found[0]
+    # settling to three digits and overshoot to 0.1 %: closer values are the same response
+    # (the simulation's own error), and the tie goes to the point nearest the default
+    ts = saturated.get("settling_time")
+    os_ = saturated.get("overshoot_percent")
+    return (round(short, 6), math.inf if ts is None else float(f"{ts:.3g}"),
+            math.inf if os_ is None else round(os_, 1))
+
+
+def finish_anti_windup(problem, candidate, linear_verdict) -> Finished:
+    """Give ``candidate`` its anti-windup for ``problem.actuator`` (see the module docstring).
+
+    Parameters
+    ----------
+    problem : synth.problem.Problem
+        With ``actuator`` set (else the candidate comes back unchanged).
+    candidate : synth.strategies.Candidate
+    linear_verdict : synth.verify.Verdict
+        The candidate's verdict without the actuator (its linear time-domain
+        metrics and its gain crossover).
+
+    Returns
+    -------
+    Finished
+    """
+    if problem.actuator is None:
+        return Finished(candidate, 0)
+    from synth.verify.saturated import response_metrics, simulate_saturated
+
+    crossover = linear_verdict.metrics.get("crossover_frequency")
+    found = tracking_range(candidate.num, candidate.den, crossover)
+    if found is None or not linear_verdict.stable:
+        scheme = "none" if found is None else found[0]
+        params = {} if found is None else {"tracking_time": float(found[1])}
+        return Finished(dataclasses.replace(candidate, anti_windup=AntiWindup(scheme, params)), 0)
+    scheme, t0, _, _ = found
+    grid = tracking_grid(candidate.num, candidate.den, crossover)
+    controllers = [dataclasses.replace(candidate,
+                                       anti_windup=AntiWindup(scheme, {"tracking_time": tt}))
+                   .controller for tt in grid]
+    loops, _ = simulate_saturated(problem.plant, controllers, problem.actuator,
+                                  problem.requirements)
+    band = problem.requirements.settling_band
+    linear = linear_verdict.metrics
+    tried = []
+    for tt, loop in zip(grid, loops, strict=True):
+        judged = _judge(problem, linear, response_metrics(loop, band))
+        tried.append((*judged, abs(math.log(tt / t0)), tt))
+    best = min(tried)
+    tt = best[-1]
+    provenance = dict(candidate.provenance)
+    provenance["anti_windup_choice"] = {
+        "scheme": scheme, "default_tracking_time": t0, "tracking_time": tt,
+        "tried": [{"tracking_time": t[-1], "shortfall": t[0],
+                   "settling_time": None if math.isinf(t[1]) else t[1],
+                   "overshoot_percent": None if math.isinf(t[2]) else t[2]} for t in tried],
+        "criterion": "least time-domain shortfall, then saturated settling time, then "
+                     "overshoot, then nearest the default"}
+    done = dataclasses.replace(candidate, anti_windup=AntiWindup(scheme, {"tracking_time": tt}),
+                               provenance=provenance)
+    return Finished(done, len(grid))
