@@ -14,6 +14,7 @@ K. J. Astrom and R. M. Murray, *Feedback Systems*, Princeton University Press,
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
 
@@ -21,6 +22,9 @@ from synth.numerics.poly import trim
 from synth.verify.frequency import LoopFrequency, loop_frequency
 from synth.verify.loop import loop_polynomials
 from synth.verify.simulation import StepResponse, simulate_step
+
+if TYPE_CHECKING:
+    from synth.verify.saturated import SaturatedLoop
 
 __all__ = ["LoopCurves", "curves"]
 
@@ -42,31 +46,42 @@ class LoopCurves:
         Roots of the unreduced characteristic polynomial (engine form).
     stable : bool
         Every closed-loop pole in the open left half-plane.
+    saturated : synth.verify.saturated.SaturatedLoop or None
+        With ``problem.actuator``: the reference and load steps through the
+        actuator's limits, with the controller's anti-windup (``None``
+        without an actuator, for an unstable loop or an improper compensator).
     """
 
     step: StepResponse | None
     frequency: LoopFrequency
     closed_loop_poles: np.ndarray
     stable: bool
+    saturated: SaturatedLoop | None = None
 
 
-def curves(problem, num_c, den_c, t_end: float | None = None) -> LoopCurves:
+def curves(problem, num_c, den_c=None, t_end: float | None = None) -> LoopCurves:
     """The curves of the loop around ``problem.plant`` with compensator ``num_c/den_c``.
 
     Parameters
     ----------
     problem : synth.problem.requirements.Problem
-        Its plant (exact dead time) and requirements (the simulation horizon).
-    num_c, den_c : array_like
-        Compensator polynomials.
+        Its plant (exact dead time), requirements (the simulation horizon)
+        and actuator.
+    num_c, den_c : array_like, or a Controller and None
+        Compensator polynomials, or a whole
+        :class:`synth.verify.controller.Controller` (its shaping and
+        anti-windup matter for the saturated responses).
     t_end : float, optional
-        Simulation length (default: the verifier's horizon).
+        Simulation length of the linear step (default: the verifier's horizon).
 
     Returns
     -------
     LoopCurves
     """
-    nc, dc = trim(num_c), trim(den_c)
+    from synth.verify.controller import Controller
+
+    controller = Controller.of(num_c, den_c)
+    nc, dc = trim(controller.num), trim(controller.den)
     _, _, char = loop_polynomials(problem.plant, nc, dc)
     poles = np.roots(char) if char.size > 1 else np.zeros(0, complex)
     stable = bool(np.all(poles.real < 0))
@@ -74,5 +89,11 @@ def curves(problem, num_c, den_c, t_end: float | None = None) -> LoopCurves:
     if nc.size <= dc.size:
         step = simulate_step(problem.plant, nc, dc, t_end=t_end,
                              requirements=problem.requirements)
+    saturated = None
+    if problem.actuator is not None and stable and nc.size <= dc.size:
+        from synth.verify.saturated import simulate_saturated
+
+        (saturated,), _ = simulate_saturated(problem.plant, [controller], problem.actuator,
+                                             problem.requirements)
     return LoopCurves(step=step, frequency=loop_frequency(problem.plant, nc, dc),
-                      closed_loop_poles=poles, stable=stable)
+                      closed_loop_poles=poles, stable=stable, saturated=saturated)

@@ -46,6 +46,7 @@ References
 
 from __future__ import annotations
 
+import dataclasses
 import math
 import warnings
 from dataclasses import dataclass
@@ -212,12 +213,14 @@ def _system(plant_num, plant_den, impl: Implementation, r0: float) -> _System:
 
 
 def _rest(impl: Implementation, gnum, gden, r0: float, d0: float, lo: float, hi: float):
-    """Output at rest ``(y, u)`` of the limited loop (see :attr:`SaturatedResponse.final_value`).
+    """Output at rest of the limited loop, per unit of the step (see :attr:`SaturatedResponse.final_value`).
 
-    The linear loop's equilibrium from the unreduced polynomials at s = 0;
+    One of ``r0`` (reference step) and ``d0`` (load step) is non-zero.  The
+    linear loop's equilibrium comes from the unreduced polynomials at s = 0;
     when its actuator value lies outside ``[lo, hi]`` the actuator rests at
-    the nearer limit and the plant's static gain gives the output
-    (``None`` for a plant with a pole at 0 held at a non-zero input).
+    the nearer limit and the plant's static gain gives the output (``None``
+    for a plant with a pole at 0 held at a non-zero input, or a loop with a
+    closed-loop pole at 0).
     """
     R0, S0, T0 = (float(np.polyval(p, 0.0)) for p in (impl.R, impl.S, impl.T))
     F0 = 1.0 if impl.prefilter is None else float(np.polyval(impl.prefilter[0], 0.0)
@@ -225,23 +228,31 @@ def _rest(impl: Implementation, gnum, gden, r0: float, d0: float, lo: float, hi:
     gn0, gd0 = float(np.polyval(gnum, 0.0)), float(np.polyval(gden, 0.0))
     char0 = R0 * gd0 + S0 * gn0
     if char0 == 0.0:
-        return None, None
-    y = (r0 * F0 * T0 * gn0 + d0 * gn0 * R0) / char0
-    u = (r0 * F0 * T0 * gd0 - d0 * S0 * gn0) / char0
-    if lo <= u <= hi:
-        return y, u
-    u = min(max(u, lo), hi)
+        return None
+    size = r0 if r0 else d0
+    if r0:   # per unit of reference: y = F T Gn / char, u = F T Gd / char
+        y, u = F0 * T0 * gn0 / char0, F0 * T0 * gd0 / char0
+    else:    # per unit of load at the plant input: y = Gn R / char, u = -S Gn / char
+        y, u = gn0 * R0 / char0, -S0 * gn0 / char0
+    if lo <= u * size <= hi:
+        return y
+    held = min(max(u * size, lo), hi)
+    load = d0 if not r0 else 0.0
     if gd0 == 0.0:
-        return (None, u) if u + d0 != 0.0 else (0.0, u)
-    return gn0 / gd0 * (u + d0), u
+        return None if held + load != 0.0 else 0.0
+    return gn0 / gd0 * (held + load) / size
 
 
 # ----------------------------------------------------------------------------------------------
 # the time loop: affine modes, advanced a block of steps at a time
 # ----------------------------------------------------------------------------------------------
 
-#: Steps advanced by one block (matrix powers up to this order per mode).
-BLOCK = 64
+#: Steps advanced by one block without dead time (matrix powers up to this order per mode).
+BLOCK = 256
+
+#: Steps of one block with a dead time (at most the steps per dead time): the block's
+#: convolution with the delayed input grows with the square of its length.
+DELAY_BLOCK = 64
 
 #: Actuator modes: unlimited, at the upper or lower end, ramping up or down at the rate limit.
 _MODES = ("free", "high", "low", "up", "down")
@@ -260,13 +271,18 @@ class _Row:
     Scratch values live on the instance only while it runs.
     """
 
-    def __init__(self, sysm: _System, h: float, m: int, lo: float, hi: float,
-                 rate: float | None, d0: float, k_cap: int):
+    def __init__(self, sysm: _System, hold, h: float, m: int, lo: float, hi: float,
+                 rate: float | None, r0: float, d0: float, k_cap: int):
         n = sysm.A.shape[0]
         self.n, self.m, self.d0 = n, m, d0
         self.lo, self.hi = lo, hi
         self.rh = math.inf if rate is None else rate * h
-        Phi, G0, G1 = hold_integrals(sysm.A, sysm.Bw, h)
+        # the system was built for a unit reference: the reference enters linearly
+        Phi, G0, G1 = hold
+        G0, G1 = G0.copy(), G1.copy()
+        G0[:, 2] *= r0
+        G1[:, 2] *= r0
+        sysm = dataclasses.replace(sysm, dv_1=sysm.dv_1 * r0)
         if m:
             g0, g1 = G0[:, 0], G1[:, 0]
             gc = G0[:, 2] + G1[:, 2]
@@ -322,11 +338,16 @@ class _Row:
             F[:n, n + 1] += self.g1 * step
             F[n, n] = 1.0
             F[n, n + 1] = step
-        L = min(BLOCK, self.m) if self.m else BLOCK
+        L = min(DELAY_BLOCK, self.m) if self.m else BLOCK
+        # F^0 .. F^L by doubling: the first 2^i powers times F^(2^i) give the next 2^i
         powers = np.empty((L + 1, n + 2, n + 2))
         powers[0] = np.eye(n + 2)
-        for j in range(1, L + 1):
-            powers[j] = F @ powers[j - 1]
+        have, Fp = 1, F
+        while have <= L:
+            take = min(have, L + 1 - have)
+            powers[have:have + take] = powers[:take] @ Fp
+            have += take
+            Fp = Fp @ Fp
         conv = None
         if self.m:
             # s_{k+j} gets sum_{i<j} F^(j-1-i) E pi_{k+i}: a block-Toeplitz matrix on the pi's
@@ -402,7 +423,7 @@ class _Row:
         while k < k_end:
             s = self.S[k]
             if m:
-                Lmax = min(BLOCK, m)
+                Lmax = min(DELAY_BLOCK, m)
                 Pi = self._forcing(k, Lmax)
                 v_next = float(alpha @ s + rho @ Pi[0])
             else:
@@ -510,11 +531,12 @@ def simulate_saturated(plant, controllers, actuator, requirements=None,
     loops, ill = [], []
     for i, impl in enumerate(impls):
         pair = []
+        sysm = _system(gnum, gden, impl, 1.0)
+        hold = hold_integrals(sysm.A, sysm.Bw, h)
         for kind in EXPERIMENTS:
             r0 = actuator.reference_step if kind == "reference" else 0.0
             d0 = actuator.load_step if kind == "load" else 0.0
-            row = _Row(_system(gnum, gden, impl, r0), h, m, lo, hi, actuator.max_rate, d0,
-                       k_cap)
+            row = _Row(sysm, hold, h, m, lo, hi, actuator.max_rate, r0, d0, k_cap)
             if row.ill_posed and i not in ill:
                 ill.append(i)
             row.start()
@@ -529,10 +551,10 @@ def simulate_saturated(plant, controllers, actuator, requirements=None,
             steps = row.k + 1
             y, u, v, limited = row.outputs(steps)
             size = r0 if kind == "reference" else d0
-            y_rest, _ = _rest(impl, plant.rational_num, plant.rational_den, r0, d0, lo, hi)
+            y_rest = _rest(impl, plant.rational_num, plant.rational_den, r0, d0, lo, hi)
             pair.append(SaturatedResponse(
                 kind=kind, step=size, t=h * np.arange(steps), y=y / size, u=u / size,
-                v=v / size, final_value=None if y_rest is None else y_rest / size,
+                v=v / size, final_value=y_rest,
                 limited_time=float(np.count_nonzero(limited[:-1]) * h),
                 capped=bool(row.k >= k_cap and limited[-1]),
                 exact_delay=use_delay or plant.dead_time == 0))
@@ -631,12 +653,13 @@ def combine_responses(linear: dict[str, Any], saturated: dict[str, Any]) -> dict
     return out
 
 
-def saturation_remark(entry, linear_value, saturated_value, limit) -> str:
+def saturation_remark(entry, linear_value, saturated_value, limit, context=None) -> str:
     """What a violated time-domain limit's text adds with actuator limits: which response breaks it.
 
     ``" with the actuator limited; without saturation 8.1 %, which meets it"``:
     a design that meets a requirement only without saturation says so in
-    its violations.
+    its violations.  ``context`` is what :meth:`Requirement.assess` formats
+    texts with (the file's requirements by key).
     """
     from synth.problem.catalogue import METRICS
 
@@ -645,8 +668,8 @@ def saturation_remark(entry, linear_value, saturated_value, limit) -> str:
     def shown(v):
         return "undefined" if v is None else f"{v:.3g}{' ' + unit if unit else ''}"
 
-    lin_ok = entry.assess(linear_value, limit) is None
-    sat_ok = entry.assess(saturated_value, limit) is None
+    lin_ok = entry.assess(linear_value, limit, context) is None
+    sat_ok = entry.assess(saturated_value, limit, context) is None
     if lin_ok and not sat_ok:
         return (f" with the actuator limited; without saturation {shown(linear_value)}, "
                 "which meets it")

@@ -427,5 +427,5 @@ def _check_limits(req, metrics, witnesses, stable, violations, short, responses=
                 from synth.verify.saturated import saturation_remark
 
                 text += saturation_remark(entry, responses[0].get(entry.metric),
-                                          responses[1][entry.metric], limit)
+                                          responses[1][entry.metric], limit, context)
             violations.append(text)
