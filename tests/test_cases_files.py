@@ -251,6 +251,6 @@ def test_booster_pump_follows_the_affinity_law_and_its_lags():
     # the header's claims: 250 kPa needs about 42 % more speed, close to the top of the range,
     # and the drive's ramp alone needs over 4 s to supply it
     need = act.reference_step / slope
-    assert need == pytest.approx(42.0, rel=0.01)
+    assert need == pytest.approx(42.0, rel=0.02)
     assert act.operating_point + need > 0.9 * act.limits[1]
     assert need / act.max_rate > 4.0
