@@ -11,7 +11,8 @@ after which the design is verified in full with the actuator.
 Choice of ``Tt``.  The default tracking time is simulated first (on the
 nominal plant, :func:`synth.verify.saturated.simulate_saturated`); when the
 actuator never reaches a limit in either step, nothing depends on ``Tt`` and
-the default stays.  Otherwise :data:`synth.verify.antiwindup.GRID_POINTS`
+the default stays (and a step that never reaches a limit is not simulated
+again for the other points).  Otherwise :data:`synth.verify.antiwindup.GRID_POINTS`
 geometric points over the scheme's range are simulated too, on the same
 time grid.
 Each point is judged on the time-domain requirements of the file, each
@@ -98,7 +99,12 @@ def finish_anti_windup(problem, candidate, linear_verdict) -> Finished:
     """
     if problem.actuator is None:
         return Finished(candidate, 0)
-    from synth.verify.saturated import response_metrics, simulate_saturated
+    from synth.verify.saturated import (
+        EXPERIMENTS,
+        SaturatedLoop,
+        response_metrics,
+        simulate_saturated,
+    )
 
     crossover = linear_verdict.metrics.get("crossover_frequency")
     found = tracking_range(candidate.num, candidate.den, crossover)
@@ -108,21 +114,27 @@ def finish_anti_windup(problem, candidate, linear_verdict) -> Finished:
         return Finished(dataclasses.replace(candidate, anti_windup=AntiWindup(scheme, params)), 0)
     scheme, t0, _, _ = found
 
-    def simulate(times):
+    def simulate(times, experiments=EXPERIMENTS):
         controllers = [dataclasses.replace(
             candidate, anti_windup=AntiWindup(scheme, {"tracking_time": tt})).controller
             for tt in times]
         return simulate_saturated(problem.plant, controllers, problem.actuator,
-                                  problem.requirements)[0]
+                                  problem.requirements, experiments=experiments)[0]
 
     # the default first: an actuator that never reaches a limit leaves nothing to tune
     (first,) = simulate([t0])
     grid = [t0]
     loops = [first]
-    if first.reference.limited_time > 0 or first.load.limited_time > 0:
+    ref_limited = first.reference.limited_time > 0
+    load_limited = first.load.limited_time > 0
+    if ref_limited or load_limited:
         rest = [tt for tt in tracking_grid(candidate.num, candidate.den, crossover) if tt != t0]
+        # a step whose actuator never reaches a limit does not depend on Tt: reuse it
+        kinds = tuple(k for k, hit in (("reference", ref_limited), ("load", load_limited))
+                      if hit)
         grid += rest
-        loops += simulate(rest)
+        loops += [SaturatedLoop(reference=lp.reference or first.reference,
+                                load=lp.load or first.load) for lp in simulate(rest, kinds)]
     band = problem.requirements.settling_band
     linear = linear_verdict.metrics
     tried = []

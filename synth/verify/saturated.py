@@ -134,10 +134,10 @@ class SaturatedResponse:
 
 @dataclass(frozen=True)
 class SaturatedLoop:
-    """The two saturated experiments of one controller."""
+    """The two saturated experiments of one controller (``None``: not simulated)."""
 
-    reference: SaturatedResponse
-    load: SaturatedResponse
+    reference: SaturatedResponse | None
+    load: SaturatedResponse | None
 
 
 # ----------------------------------------------------------------------------------------------
@@ -304,6 +304,8 @@ class _Row:
         self.cy, self.dy = sysm.cy, sysm.dy
         self.dv_1, self.dv_p = sysm.dv_1, sysm.dv_p
         self._modes: dict[str, tuple] = {}
+        self._maps: dict[str, tuple] = {}
+        self._registers: dict[str, tuple] = {}
         self.S = np.zeros((k_cap + 1, n + 2))    # s_k
         self.S[:, n + 1] = 1.0
         self.V = np.zeros(k_cap + 1)             # v*_k, the controller's unlimited output
@@ -338,16 +340,9 @@ class _Row:
             F[:n, n + 1] += self.g1 * step
             F[n, n] = 1.0
             F[n, n + 1] = step
+        self._maps[name] = (F, E)
         L = min(DELAY_BLOCK, self.m) if self.m else BLOCK
-        # F^0 .. F^L by doubling: the first 2^i powers times F^(2^i) give the next 2^i
-        powers = np.empty((L + 1, n + 2, n + 2))
-        powers[0] = np.eye(n + 2)
-        have, Fp = 1, F
-        while have <= L:
-            take = min(have, L + 1 - have)
-            powers[have:have + take] = powers[:take] @ Fp
-            have += take
-            Fp = Fp @ Fp
+        powers = _powers(F, L)
         conv = None
         if self.m:
             # s_{k+j} gets sum_{i<j} F^(j-1-i) E pi_{k+i}: a block-Toeplitz matrix on the pi's
@@ -358,6 +353,41 @@ class _Row:
             conv = conv.reshape(L * (n + 2), L * 3)
         self._modes[name] = (powers[1:], conv)
         return self._modes[name]
+
+    def _register_mode(self, name: str):
+        """``(powers, a)`` of a mode on the state with the delay line, ``[s, u_{k-1} .. u_{k-m}]``.
+
+        With fewer than :data:`DELAY_BLOCK` steps per dead time, the delayed
+        input is known only a few steps ahead; past step ``m`` it is the
+        actuator's own output ``m`` steps back, so the state carries those
+        ``m`` values and a block spans many dead times.  ``a`` gives ``v*`` at
+        the next step from the state.
+        """
+        if name in self._registers:
+            return self._registers[name]
+        self._mode(name)
+        F, E = self._maps[name]
+        n, m, d0 = self.n, self.m, self.d0
+        D = n + 2 + m
+        reg = n + 2                                   # index of u_{k-1}; u_{k-i} at reg + i - 1
+        late = n if m == 1 else reg + m - 2           # u_{k+1-m}: the plant input's end value
+        Fa = np.zeros((D, D))
+        Fa[:n + 2, :n + 2] = F
+        Fa[:n + 2, n + 1] += E @ np.full(3, d0)
+        Fa[:n + 2, reg + m - 1] += E[:, 0]
+        Fa[:n + 2, late] += E[:, 1] + E[:, 2]
+        Fa[reg, n] = 1.0
+        for i in range(1, m):
+            Fa[reg + i, reg + i - 1] = 1.0
+        a = np.zeros(D)
+        a[:n + 2] = self.alpha
+        a[n + 1] += float(self.rho.sum()) * d0
+        a[reg + m - 1] += self.rho[0]
+        a[late] += self.rho[1] + self.rho[2]
+        # a block as long as memory allows (about 2 MB of powers), 64 to 256 steps
+        L = int(min(BLOCK, max(DELAY_BLOCK, (1 << 18) // (D * D))))
+        self._registers[name] = (_powers(Fa, L)[1:], a)
+        return self._registers[name]
 
     def _forcing(self, k0: int, L: int) -> np.ndarray:
         """``pi_k`` for k0 <= k < k0 + L: the delayed plant input, known ``m`` steps ahead.
@@ -421,9 +451,12 @@ class _Row:
         alpha, rho = self.alpha, self.rho
         k = self.k
         while k < k_end:
+            if m and m < DELAY_BLOCK and k >= m:
+                k = self._register_block(k, k_end)
+                continue
             s = self.S[k]
             if m:
-                Lmax = min(DELAY_BLOCK, m)
+                Lmax = min(DELAY_BLOCK, m - k) if m < DELAY_BLOCK else DELAY_BLOCK
                 Pi = self._forcing(k, Lmax)
                 v_next = float(alpha @ s + rho @ Pi[0])
             else:
@@ -433,20 +466,44 @@ class _Row:
             L = min(powers.shape[0], k_end - k)
             block = powers[:L] @ s
             if m:
-                block += (conv @ Pi.ravel()).reshape(-1, n + 2)[:L]
+                L = min(L, Lmax)
+                block = block[:L] + (conv @ np.pad(Pi, ((0, conv.shape[1] // 3 - Lmax), (0, 0)))
+                                     .ravel()).reshape(-1, n + 2)[:L]
                 vstar = block[:-1] @ alpha + Pi[1:L] @ rho
             else:
                 vstar = block[:-1] @ alpha
-            # the mode each later step of the block really takes; the first that differs
-            # ends the block (its state is right: the step before it was in this mode)
-            wrong = np.flatnonzero(self._label(vstar, block[:-1, n]) != mode)
-            take = L if wrong.size == 0 else int(wrong[0]) + 1
-            self.S[k + 1:k + 1 + take] = block[:take]
-            self.V[k + 1] = v_next
-            self.V[k + 2:k + 1 + take] = vstar[:take - 1]
-            self.limited[k + 1:k + 1 + take] = mode != 0
-            k += take
+            k = self._accept(k, mode, v_next, block, vstar)
         self.k = k
+
+    def _accept(self, k: int, mode: int, v_next: float, block, vstar) -> int:
+        """Keep the block's steps up to the first whose own mode differs; the new step index.
+
+        The first step that differs ends the block: its state is right (the
+        step before it was in the block's mode), and the next block starts
+        from it in its own mode.
+        """
+        n = self.n
+        wrong = np.flatnonzero(self._label(vstar, block[:-1, n]) != mode)
+        take = block.shape[0] if wrong.size == 0 else int(wrong[0]) + 1
+        self.S[k + 1:k + 1 + take] = block[:take, :n + 2]
+        self.V[k + 1] = v_next
+        self.V[k + 2:k + 1 + take] = vstar[:take - 1]
+        self.limited[k + 1:k + 1 + take] = mode != 0
+        return k + take
+
+    def _register_block(self, k: int, k_end: int) -> int:
+        """One block on the state with the delay line (:meth:`_register_mode`), from step k >= m."""
+        n, m = self.n, self.m
+        sigma = np.concatenate([self.S[k], self.S[k - 1::-1, n][:m] if k >= 1 else []])
+        # the mode of the step from k, then the block in it
+        a0 = self._register_mode("free")[1]
+        v_next = float(a0 @ sigma)
+        mode = self._label_one(v_next, float(sigma[n]))
+        powers, a = self._register_mode(_MODES[mode])
+        L = min(powers.shape[0], k_end - k)
+        full = powers[:L] @ sigma
+        vstar = full[:-1] @ a
+        return self._accept(k, mode, v_next, full, vstar)
 
     def outputs(self, steps: int):
         """``(y, u, v, limited)`` at steps ``0..steps-1``."""
@@ -459,6 +516,20 @@ class _Row:
             p = u + self.d0
         y = self.S[:steps, :n] @ self.cy + self.dy * p
         return y, u, self.V[:steps], self.limited[:steps]
+
+
+def _powers(F: np.ndarray, L: int) -> np.ndarray:
+    """``F^0 .. F^L`` by doubling: the first ``2^i`` powers times ``F^(2^i)`` give the next ones."""
+    D = F.shape[0]
+    powers = np.empty((L + 1, D, D))
+    powers[0] = np.eye(D)
+    have, Fp = 1, F
+    while have <= L:
+        take = min(have, L + 1 - have)
+        powers[have:have + take] = powers[:take] @ Fp
+        have += take
+        Fp = Fp @ Fp
+    return powers
 
 
 def _step_size(plant, poles_fast: float, horizon: float, use_delay: bool):
@@ -475,7 +546,8 @@ def _step_size(plant, poles_fast: float, horizon: float, use_delay: bool):
 
 
 def simulate_saturated(plant, controllers, actuator, requirements=None,
-                       exact_delay: bool = True) -> tuple[list[SaturatedLoop], dict[str, Any]]:
+                       exact_delay: bool = True, experiments=EXPERIMENTS
+                       ) -> tuple[list[SaturatedLoop], dict[str, Any]]:
     """Reference and load steps of the loop with a limited actuator, for several controllers.
 
     Parameters
@@ -488,6 +560,8 @@ def simulate_saturated(plant, controllers, actuator, requirements=None,
         For the horizon (settling and rise-time limits).
     exact_delay : bool
         Simulate a dead time exactly (default) or by the plant's Pade form.
+    experiments : tuple of {"reference", "load"}
+        Which steps to simulate (default both; the others are ``None``).
 
     Returns
     -------
@@ -530,10 +604,10 @@ def simulate_saturated(plant, controllers, actuator, requirements=None,
     k_cap = int(math.ceil(HORIZON_CAP * horizon / h))
     loops, ill = [], []
     for i, impl in enumerate(impls):
-        pair = []
+        pair = {}
         sysm = _system(gnum, gden, impl, 1.0)
         hold = hold_integrals(sysm.A, sysm.Bw, h)
-        for kind in EXPERIMENTS:
+        for kind in experiments:
             r0 = actuator.reference_step if kind == "reference" else 0.0
             d0 = actuator.load_step if kind == "load" else 0.0
             row = _Row(sysm, hold, h, m, lo, hi, actuator.max_rate, r0, d0, k_cap)
@@ -552,13 +626,13 @@ def simulate_saturated(plant, controllers, actuator, requirements=None,
             y, u, v, limited = row.outputs(steps)
             size = r0 if kind == "reference" else d0
             y_rest = _rest(impl, plant.rational_num, plant.rational_den, r0, d0, lo, hi)
-            pair.append(SaturatedResponse(
+            pair[kind] = (SaturatedResponse(
                 kind=kind, step=size, t=h * np.arange(steps), y=y / size, u=u / size,
                 v=v / size, final_value=y_rest,
                 limited_time=float(np.count_nonzero(limited[:-1]) * h),
                 capped=bool(row.k >= k_cap and limited[-1]),
                 exact_delay=use_delay or plant.dead_time == 0))
-        loops.append(SaturatedLoop(reference=pair[0], load=pair[1]))
+        loops.append(SaturatedLoop(reference=pair.get("reference"), load=pair.get("load")))
     info = {"step": h, "horizon": horizon, "coarse": coarse, "ill_posed": ill}
     return loops, info
 
@@ -692,7 +766,11 @@ def _notes(loop: SaturatedLoop, info, act, problem) -> list[str]:
         notes.append(f"saturated simulation step {info['step']:.3g} s is coarser than the "
                      "fastest closed-loop pole asks for: its metrics are approximate")
     for r, what in ((ref, "reference"), (loop.load, "load")):
-        if r.capped:
+        scale = max(1.0, abs(r.final_value or 0.0))
+        if not np.isfinite(r.y[-1]) or abs(r.y[-1]) > 100.0 * scale:
+            notes.append(f"the output runs away after the {what} step of {r.step:.4g}: with the "
+                         "actuator at a limit the loop cannot hold the plant")
+        elif r.capped:
             notes.append(f"the actuator is still limited after {r.t[-1]:.4g} s of the {what} "
                          f"step of {r.step:.4g}: the loop cannot reach rest within its range")
     if ref.final_value is not None and ref.limited_time > 0:
