@@ -392,3 +392,28 @@ def test_bundled_pump_case_top_design_holds_through_the_limits(pump_run):
     naive = verify(p, Controller(tuple(cn), tuple(cd)))
     assert not naive.feasible
     assert any("which meets it" in v for v in naive.violations)
+
+
+def test_report_of_the_pump_case_draws_linear_and_saturated_side_by_side(pump_run):
+    # behaviour: with an actuator the design section gains the saturation figure, right after
+    # the step response, and it draws (matplotlib Agg) without error
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from matplotlib.figure import Figure as MplFigure
+
+    from synth.design import prepare_report
+    from synth.outputs.report.document import SATURATION_FIGURE, Figure, build_sections
+
+    case, _, doc = pump_run
+    problem = problem_from_text(case.read_text(), str(case))
+    report = prepare_report(problem, doc, top=1)
+    sat = report.figures[0].curves.saturated
+    assert sat is not None and sat.reference.step == 250.0
+    kinds = [b.kind for sec in build_sections(report) for b in sec.blocks
+             if isinstance(b, Figure)]
+    assert kinds[kinds.index("step") + 1] == SATURATION_FIGURE
+    (fig,) = [b for sec in build_sections(report) for b in sec.blocks
+              if isinstance(b, Figure) and b.kind == SATURATION_FIGURE]
+    target = MplFigure(figsize=(8, 3.6))
+    FigureCanvasAgg(target)
+    fig.draw(target)
+    assert len(target.axes) == 4
