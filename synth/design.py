@@ -183,9 +183,18 @@ def _final_verification(problem, pairs) -> tuple[list, dict[str, Any]]:
 
     Returns the pairs to rank and the stage's bookkeeping for ``stats``.
     """
+    from threadpoolctl import threadpool_limits
+
+    # the stage's matrices are tiny (a dozen states): BLAS threads only wait for each other,
+    # and on a busy machine a 10x10 matrix exponential then takes milliseconds, not microseconds
+    with threadpool_limits(limits=1, user_api="blas"):
+        return _final_loop(problem, list(pairs))
+
+
+def _final_loop(problem, pairs) -> tuple[list, dict[str, Any]]:
+    """The loop of :func:`_final_verification`."""
     from synth.windup import finish_anti_windup
 
-    pairs = list(pairs)
     final = [False] * len(pairs)
     index = {id(c): i for i, (c, _) in enumerate(pairs)}
     limit = FINISH_LIMIT * problem.search.keep

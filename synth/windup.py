@@ -8,7 +8,10 @@ chosen (:func:`synth.verify.antiwindup.tracking_range`) and its tracking time
 ``Tt`` picked from a grid by simulating the loop with the limited actuator,
 after which the design is verified in full with the actuator.
 
-Choice of ``Tt``.  The default tracking time is simulated first (on the
+Choice of ``Tt``.  A design that fails a requirement already in the linear
+loop keeps the default (every time-domain metric is judged as the worse of
+the linear and the saturated response, so no tracking time makes it
+feasible).  Otherwise the default tracking time is simulated first (on the
 nominal plant, :func:`synth.verify.saturated.simulate_saturated`); when the
 actuator never reaches a limit in either step, nothing depends on ``Tt`` and
 the default stays (and a step that never reaches a limit is not simulated
@@ -108,7 +111,9 @@ def finish_anti_windup(problem, candidate, linear_verdict) -> Finished:
 
     crossover = linear_verdict.metrics.get("crossover_frequency")
     found = tracking_range(candidate.num, candidate.den, crossover)
-    if found is None or not linear_verdict.stable:
+    # a design the linear loop already rules out is listed only as a nearest design: the
+    # worse-of verdict cannot make it feasible, so it keeps the default
+    if found is None or not linear_verdict.feasible:
         scheme = "none" if found is None else found[0]
         params = {} if found is None else {"tracking_time": float(found[1])}
         return Finished(dataclasses.replace(candidate, anti_windup=AntiWindup(scheme, params)), 0)

@@ -72,7 +72,7 @@ __all__ = [
 SCHEMES = ("back-calculation", "observer", "none")
 
 #: Points of the tracking-time grid the finishing stage tries (besides the default).
-GRID_POINTS = 7
+GRID_POINTS = 5
 
 
 @dataclass(frozen=True)
