@@ -417,3 +417,39 @@ def test_report_of_the_pump_case_draws_linear_and_saturated_side_by_side(pump_ru
     FigureCanvasAgg(target)
     fig.draw(target)
     assert len(target.axes) == 4
+
+
+@pytest.mark.parametrize("field,value,key", [
+    ("anti_windup", {"scheme": "clamp-it", "parameters": {}}, "designs[0].anti_windup.scheme"),
+    ("anti_windup", {"scheme": "back-calculation", "parameters": {}},
+     "designs[0].anti_windup.parameters"),
+    ("anti_windup", {"scheme": "observer", "parameters": {"tracking_time": -1.0}},
+     "designs[0].anti_windup.parameters"),
+    ("reference_filter", {"setpoint_weights": {"b": "half"}}, "designs[0].setpoint_weights"),
+    ("reference_filter", {"numerator": [], "denominator": [1.0]},
+     "designs[0].reference_filter.numerator"),
+])
+def test_a_documents_controller_fields_are_checked(field, value, key):
+    # behaviour: the one reader names the field of a malformed anti-windup or shaping
+    from synth.outputs.document import read_design
+
+    doc = {"schema": "synth.design/1", "designs": [{
+        "rank": 1, "structure": "PI", "compensator": {"numerator": [2.0, 1.5],
+                                                      "denominator": [1.0, 0.0]},
+        field: value}]}
+    with pytest.raises(InputError) as err:
+        read_design(doc, "run.json").designs[0].controller("run.json")
+    assert str(err.value).startswith(f"run.json: {key}:")
+
+
+def test_a_documents_controller_carries_shaping_and_anti_windup():
+    from synth.outputs.document import read_design
+
+    doc = {"schema": "synth.design/1", "designs": [{
+        "rank": 1, "structure": "PI", "compensator": {"numerator": [2.0, 1.5],
+                                                      "denominator": [1.0, 0.0]},
+        "setpoint_weights": {"b": 0.5, "c": 0.0},
+        "anti_windup": {"scheme": "back-calculation", "parameters": {"tracking_time": 1.3}}}]}
+    c = read_design(doc).designs[0].controller()
+    assert c.shaping.setpoint_weights == (0.5, 0.0)
+    assert c.anti_windup == AntiWindup("back-calculation", {"tracking_time": 1.3})
