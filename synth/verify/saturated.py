@@ -267,8 +267,11 @@ class _Row:
     plant input, which is known ``m`` steps ahead.  A block of up to
     :data:`BLOCK` steps in one mode is one matrix product with precomputed
     powers; the first step whose own mode differs (``u = clip(v*, L, H)``
-    decides it) ends the block and starts the next one in that mode.
-    Scratch values live on the instance only while it runs.
+    decides it) ends the block and starts the next one in that mode.  When a
+    dead time spans fewer than :data:`DELAY_BLOCK` steps, the state past step
+    ``m`` also carries the last ``m`` actuator outputs (the delay line,
+    :meth:`_register_mode`), so a block may span many dead times.  The
+    instance is the simulation's scratch space, used by one call only.
     """
 
     def __init__(self, sysm: _System, hold, h: float, m: int, lo: float, hi: float,
