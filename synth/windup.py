@@ -110,6 +110,11 @@ def finish_anti_windup(problem, candidate, linear_verdict) -> Finished:
     )
 
     crossover = linear_verdict.metrics.get("crossover_frequency")
+    if crossover is None:
+        # an unstable loop has no margins: the problem's own characteristic frequency
+        from synth.families.base import SearchSpace
+
+        crossover = SearchSpace.for_problem(problem).w_char
     found = tracking_range(candidate.num, candidate.den, crossover)
     # a design the linear loop already rules out is listed only as a nearest design: the
     # worse-of verdict cannot make it feasible, so it keeps the default

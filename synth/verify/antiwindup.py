@@ -159,8 +159,8 @@ def tracking_range(num, den, crossover: float | None = None
       ``Td`` is not below ``Ti`` or not positive is treated as a PI.
     * Any other compensator (``"observer"``): ``Tt = 1 / w_c`` with ``w_c``
       the loop's gain crossover when given (else the geometric mean of the
-      compensator's non-zero root magnitudes), searched over
-      ``[Tt/4, 2 Tt]``.
+      compensator's non-zero root magnitudes; ValueError for a pure
+      integrator without a crossover), searched over ``[Tt/4, 2 Tt]``.
     """
     if windup_roots(den).size == 0:
         return None
@@ -177,7 +177,12 @@ def tracking_range(num, den, crossover: float | None = None
     else:
         n, d = _monic(num, den)
         mags = [abs(r) for p in (n, d) if p.size > 1 for r in np.roots(p) if r != 0]
-        t0 = 1.0 / math.exp(float(np.mean(np.log(mags)))) if mags else 1.0
+        if not mags:
+            # a pure integrator K/s has no time scale of its own; its loop always crosses
+            # 0 dB (|L| falls from infinity to 0), so callers have the crossover to give
+            raise ValueError("the compensator has no non-zero pole or zero: give the loop's "
+                             "crossover frequency to set the tracking time")
+        t0 = 1.0 / math.exp(float(np.mean(np.log(mags))))
     return ("observer", t0, t0 / 4.0, 2.0 * t0)
 
 
