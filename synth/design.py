@@ -381,7 +381,9 @@ def prepare_report(problem, doc: dict, explanation=None, top: int | None = None)
             note = ""
         except InputError as err:  # a zero gain: the loop has no locus to draw
             trace, gain, note = None, None, err.message
-        figures.append(DesignFigures(rank=d.rank, curves=curves(problem, d.controller(document.source)),
-                                     locus=trace, locus_gain=gain, locus_note=note))
+        # the whole controller: its anti-windup and shaping shape the saturated curves
+        loop = curves(problem, d.controller(document.source))
+        figures.append(DesignFigures(rank=d.rank, curves=loop, locus=trace, locus_gain=gain,
+                                     locus_note=note))
     return ReportInput(problem=problem, document=document, explanation=explanation,
                        figures=tuple(figures))

@@ -285,8 +285,8 @@ def evaluate_model(problem, plant, controller, exact_delay: bool = True,
     linear: dict[str, Any] = {}
     saturated: dict[str, Any] = {}
     if stable and actuator and problem.actuator is not None:
-        linear = _saturate(problem, plant, controller, exact_delay, metrics, violations,
-                           short, notes, saturated)
+        linear, saturated = _saturate(problem, plant, controller, exact_delay, metrics,
+                                      violations, short, notes)
     if plant.dead_time > 0 and not exact and exact_delay:
         notes.append("dead time too short to resolve against the horizon: time-domain "
                      "metrics from the Pade form")
@@ -298,13 +298,14 @@ def evaluate_model(problem, plant, controller, exact_delay: bool = True,
 
 
 def _saturate(problem, plant, controller, exact_delay, metrics, violations, short,
-              notes, saturated) -> dict[str, Any]:
+              notes) -> tuple[dict[str, Any], dict[str, Any]]:
     """Judge the time-domain metrics on the linear loop and on the loop with the limited actuator.
 
-    Each becomes the worse of the two (:func:`synth.verify.saturated.combine_responses`);
-    returns the linear values and fills ``saturated`` with the other (for the
-    violation texts).  An improper compensator (an ideal derivative) cannot
-    drive a limited actuator: a violation says so.
+    Each metric in ``metrics`` becomes the worse of the two
+    (:func:`synth.verify.saturated.combine_responses`); returns the linear and
+    the saturated values (for the violation texts and the JSON).  An improper
+    compensator (an ideal derivative) cannot drive a limited actuator: a
+    violation says so.
     """
     from synth.verify.saturated import combine_responses, saturated_metrics
 
@@ -313,13 +314,12 @@ def _saturate(problem, plant, controller, exact_delay, metrics, violations, shor
         violations.append("improper compensator: it cannot be implemented with the actuator "
                           "limits (its answer to a step is an impulse)")
         short["actuator"] = 1.0
-        return {}
+        return {}, {}
     sat = saturated_metrics(problem, plant, controller, exact_delay)
     linear = {k: metrics[k] for k in sat.metrics if k in metrics}
     metrics.update(combine_responses(linear, sat.metrics))
     notes.extend(sat.notes)
-    saturated.update(sat.metrics)
-    return linear
+    return linear, dict(sat.metrics)
 
 
 def verify(problem, num_c, den_c=None, exact_delay: bool = True,
