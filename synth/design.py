@@ -65,6 +65,10 @@ ProgressFn = Callable[[float, float, str], None]
 #: for the search's initial sample: a few nearest designs to list).
 FUTILE_EFFORT = 0.02
 
+#: With actuator limits, the anti-windup finishing stage runs for at most this many
+#: times ``search.keep`` designs (each costs a few saturated simulations).
+FINISH_LIMIT = 3
+
 
 # ----------------------------------------------------------------------------
 # helpers
@@ -176,9 +180,65 @@ class DesignRun:
 # ----------------------------------------------------------------------------
 
 
-def _verify_all(problem, cands, exact: bool) -> list:
-    return [verify(problem, c.controller, exact_delay=exact)
+def _verify_all(problem, cands, exact: bool, actuator: bool = True) -> list:
+    return [verify(problem, c.controller, exact_delay=exact, actuator=actuator)
             for c in cands]
+
+
+def _final_verification(problem, pairs) -> tuple[list, dict[str, Any]]:
+    """Re-verify, in rank order, every design that would be reported, until all of them are final.
+
+    The first pass verified every candidate quickly: the Pade form of a dead
+    time in the simulation, the actuator's limits left out.  A final verdict
+    has the exact delay and, with ``[actuator]``, the anti-windup finishing
+    stage (:func:`synth.windup.finish_anti_windup`) and the limited actuator.
+    With an actuator the stage runs for at most :data:`FINISH_LIMIT` times
+    ``search.keep`` designs; designs it could not reach are left out of the
+    ranking (the JSON's ``search.anti_windup.limit_reached`` says so).
+
+    Returns the pairs to rank and the stage's bookkeeping for ``stats``.
+    """
+    from threadpoolctl import threadpool_limits
+
+    # the stage's matrices are tiny (a dozen states): BLAS threads only wait for each other,
+    # and on a busy machine a 10x10 matrix exponential then takes milliseconds, not microseconds
+    with threadpool_limits(limits=1, user_api="blas"):
+        return _final_loop(problem, list(pairs))
+
+
+def _final_loop(problem, pairs) -> tuple[list, dict[str, Any]]:
+    """The loop of :func:`_final_verification`."""
+    from synth.windup import finish_anti_windup
+
+    final = [False] * len(pairs)
+    index = {id(c): i for i, (c, _) in enumerate(pairs)}
+    limit = FINISH_LIMIT * problem.search.keep
+    tuned = work = 0
+    stopped = False
+    actuator = problem.actuator is not None
+    while True:
+        ranked = rank_designs([p for i, p in enumerate(pairs) if final[i] or tuned < limit],
+                              problem)
+        todo = [index[id(d.candidate)] for d in ranked if not final[index[id(d.candidate)]]]
+        if not todo:
+            break
+        for i in todo:
+            c, quick = pairs[i]
+            if actuator:
+                if tuned >= limit:
+                    stopped = True
+                    break
+                done = finish_anti_windup(problem, c, quick)
+                c = done.candidate
+                index[id(c)] = i
+                tuned += 1
+                work += done.work
+            pairs[i] = (c, verify(problem, c.controller))
+            final[i] = True
+    out: dict[str, Any] = {}
+    if actuator:
+        out = {"anti_windup": {"finished": tuned, "work": work, "limit_reached": stopped}}
+    return [p for i, p in enumerate(pairs) if final[i]], out
 
 
 def _checked(new, family, strategy) -> list:
@@ -267,21 +327,11 @@ def run_design(problem, strategies=None, families=None,
     search_seconds = time.monotonic() - t_search
 
     dead = problem.plant.dead_time > 0
-    verdicts = _verify_all(problem, candidates, exact=not dead)
+    verdicts = _verify_all(problem, candidates, exact=not dead, actuator=False)
     pairs = list(zip(candidates, verdicts, strict=True))
-    if dead:
-        # make every reported design carry an exact-delay verdict
-        exact = [False] * len(pairs)
-        index = {id(c): i for i, c in enumerate(candidates)}
-        while True:
-            ranked = rank_designs(pairs, problem)
-            todo = [index[id(d.candidate)] for d in ranked if not exact[index[id(d.candidate)]]]
-            if not todo:
-                break
-            for i in todo:
-                c = candidates[i]
-                pairs[i] = (c, verify(problem, c.controller))
-                exact[i] = True
+    finishing: dict[str, Any] = {}
+    if dead or problem.actuator is not None:
+        pairs, finishing = _final_verification(problem, pairs)
     ranked = rank_designs(pairs, problem)
     sampled: tuple = ()
     if problem.sampling is not None:
@@ -292,7 +342,7 @@ def run_design(problem, strategies=None, families=None,
              "effort": search.effort, "work": work, "futile": futile,
              "candidates": len(candidates), "search_seconds": round(search_seconds, 3),
              "family_seconds": per_family, "time_capped": capped,
-             "time_budget_reached": bool(capped), "declined": declined}
+             "time_budget_reached": bool(capped), "declined": declined, **finishing}
     return DesignRun(problem=problem, designs=tuple(ranked), proportional=proportional,
                      explanation=explanation, stats=stats, sampled=sampled)
 
@@ -306,7 +356,9 @@ def _sampled_stage(problem, pairs: list) -> tuple[list, tuple]:
     """
     from synth.verify.sampled import sampled_design, sampled_verdict
 
-    # HOOK(actuator): pass the [actuator] limits and max_rate here when Problem carries them
+    act = problem.actuator
+    limits = None if act is None or act.limits is None else act.deviation_limits
+    rate = None if act is None else act.max_rate
     index = {id(c): i for i, (c, _) in enumerate(pairs)}
     done: dict[int, Any] = {}
     while True:
@@ -316,7 +368,8 @@ def _sampled_stage(problem, pairs: list) -> tuple[list, tuple]:
             return ranked, tuple(done[index[id(d.candidate)]] for d in ranked)
         for i in todo:
             c, v = pairs[i]
-            sd = sampled_design(problem.plant, c.controller, problem.sampling)
+            sd = sampled_design(problem.plant, c.controller, problem.sampling, limits=limits,
+                                max_rate=rate)
             done[i] = sd
             pairs[i] = (c, sampled_verdict(v, sd))
 
@@ -324,29 +377,6 @@ def _sampled_stage(problem, pairs: list) -> tuple[list, tuple]:
 # ----------------------------------------------------------------------------
 # what a report of a run shows
 # ----------------------------------------------------------------------------
-
-
-def _controller_of(design):
-    """The :class:`synth.verify.controller.Controller` a design record describes."""
-    from synth.verify.controller import AntiWindup, Controller, ReferenceShaping
-
-    c = design.compensator
-    shaping = None
-    if design.reference_filter is not None:
-        rf = design.reference_filter
-        shaping = ReferenceShaping(numerator=tuple(float(x) for x in rf["numerator"]),
-                                   denominator=tuple(float(x) for x in rf["denominator"]))
-    elif design.setpoint_weights is not None:
-        sw = design.setpoint_weights
-        shaping = ReferenceShaping(setpoint_weights=(float(sw.get("b", 1.0)),
-                                                     float(sw.get("c", 0.0))))
-    anti_windup = None
-    if design.anti_windup is not None:
-        aw = design.anti_windup
-        anti_windup = AntiWindup(str(aw.get("scheme", "")),
-                                 {k: float(v) for k, v in (aw.get("parameters") or {}).items()})
-    return Controller(tuple(float(x) for x in c.num), tuple(float(x) for x in c.den),
-                      shaping=shaping, anti_windup=anti_windup)
 
 
 def prepare_report(problem, doc: dict, explanation=None, top: int | None = None,
@@ -404,14 +434,16 @@ def prepare_report(problem, doc: dict, explanation=None, top: int | None = None,
             note = ""
         except InputError as err:  # a zero gain: the loop has no locus to draw
             trace, gain, note = None, None, err.message
-        own = curves(problem, c.num, c.den)
+        # the whole controller: its shaping and anti-windup shape the saturated curves
+        controller = document.controller(d)
+        own = curves(problem, controller)
         swept = None
         if sweep and trace is not None:
             horizon = own.step.t[-1] if own.step is not None else None
             # one time span for every gain: the part of the design's own response worth seeing
             span = time_window(d.metric("settling_time"), d.metric("rise_time"),
                                problem.requirements.limit("settling_time"), horizon)
-            swept = gain_sweep(problem, _controller_of(d), t_end=span)
+            swept = gain_sweep(problem, controller, t_end=span)
         figures.append(DesignFigures(rank=d.rank, curves=own, locus=trace, locus_gain=gain,
                                      locus_note=note, sweep=swept))
     return ReportInput(problem=problem, document=document, explanation=explanation,

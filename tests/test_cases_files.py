@@ -236,3 +236,21 @@ def test_no_stable_first_order_compensator_stabilises_it_but_the_header_example_
     # the header's C(s) = 5 (s + 3.4) / (s - 3) puts all three poles at -1 (numpy.roots)
     char = np.polyadd(np.polymul([1.0, -3.0], dg), np.polymul([5.0, 17.0], ng))
     assert np.roots(char) == pytest.approx([-1.0, -1.0, -1.0], abs=1e-4)
+
+
+def test_booster_pump_follows_the_affinity_law_and_its_lags():
+    # pressure grows with the square of speed (the pump affinity laws, common practice):
+    # p = p0 (n / 100)^2 with p0 = 550 kPa, slope 2 p0 n / 100^2 at n = 55 %, in kPa per %
+    pump = _load("booster-pump-pressure.toml")
+    slope = 2 * 550.0 * 55.0 / 100.0 ** 2
+    assert pump.plant.dc_gain() == pytest.approx(slope, rel=0.01)
+    assert np.sort(-np.roots(pump.plant.den).real) == pytest.approx([1 / 4.0, 1 / 1.5])
+    # the actuator at rest must lie in the drive's range, with room to act both ways
+    act = pump.actuator
+    assert act.limits[0] < act.operating_point < act.limits[1]
+    # the header's claims: 250 kPa needs about 42 % more speed, close to the top of the range,
+    # and the drive's ramp alone needs over 4 s to supply it
+    need = act.reference_step / slope
+    assert need == pytest.approx(42.0, rel=0.02)
+    assert act.operating_point + need > 0.9 * act.limits[1]
+    assert need / act.max_rate > 4.0

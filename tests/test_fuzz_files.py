@@ -126,6 +126,11 @@ def documents(draw):
         doc["sampling"] = draw(st.one_of(
             st.fixed_dictionaries({}, optional={"period": VALUES, "compute_delay": VALUES,
                                                 "rate": VALUES}), WRONG))
+    if draw(st.integers(0, 3)) == 3:
+        doc["actuator"] = draw(st.one_of(st.fixed_dictionaries({}, optional={
+            "limits": st.one_of(RANGES, st.lists(st.floats(-50, 50), min_size=2, max_size=2)),
+            "operating_point": VALUES, "max_rate": VALUES, "reference_step": VALUES,
+            "load_step": VALUES, _ODD_KEYS[0]: VALUES}), WRONG))
     if draw(st.integers(0, 7)) == 7:
         doc[draw(st.sampled_from(_ODD_KEYS))] = draw(VALUES)
     if draw(st.integers(0, 7)) == 7:

@@ -180,11 +180,25 @@ class ActuatorRecord:
         Units per second.
     reference_step : float
         Size of the reference step of the saturated simulations (default 1).
+    operating_point : float
+        Actuator output at which the plant model was linearised; the loop's
+        control signal is the deviation from it (default 0).
+    load_step : float
+        Size of the load step of the saturated simulations (default 1).
     """
 
     limits: tuple[float, float] | None
     max_rate: float | None
     reference_step: float = 1.0
+    operating_point: float = 0.0
+    load_step: float = 1.0
+
+    @property
+    def deviation_limits(self) -> tuple[float, float] | None:
+        """The limits on the loop's control signal: the range less the operating point."""
+        if self.limits is None:
+            return None
+        return (self.limits[0] - self.operating_point, self.limits[1] - self.operating_point)
 
 
 @dataclass(frozen=True)
@@ -248,7 +262,6 @@ class DesignRecord:
     def has_metric(self, key: str) -> bool:
         """Whether the document gives this metric (possibly as ``null``)."""
         return key in self.metrics or key == "gain"
-
 
 @dataclass(frozen=True)
 class DesignDocument:
@@ -416,6 +429,11 @@ def _roots(value: Any, source: str, key: str) -> tuple[complex, ...]:
     return tuple(out)
 
 
+def _thawed(value: Any) -> Any:
+    """A read-only value back as plain JSON (lists for tuples) for the coefficient reader."""
+    return thaw(value)
+
+
 def _mapping(value: Any, source: str, key: str) -> Mapping | None:
     if value is None:
         return None
@@ -555,7 +573,14 @@ def _actuator(a: Any, source: str) -> ActuatorRecord | None:
     step = 1.0 if step is None else _number(step, source, "actuator.reference_step")
     if step == 0:
         raise InputError("must not be 0", source, "actuator.reference_step")
-    return ActuatorRecord(limits=limits, max_rate=rate, reference_step=step)
+    op = a.get("operating_point", 0.0)
+    op = 0.0 if op is None else _number(op, source, "actuator.operating_point")
+    load = a.get("load_step", 1.0)
+    load = 1.0 if load is None else _number(load, source, "actuator.load_step")
+    if load == 0:
+        raise InputError("must not be 0", source, "actuator.load_step")
+    return ActuatorRecord(limits=limits, max_rate=rate, reference_step=step,
+                          operating_point=op, load_step=load)
 
 
 def _text_list(value: Any, source: str, key: str) -> tuple[str, ...]:

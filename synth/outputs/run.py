@@ -79,6 +79,24 @@ def _design_json(run, d, sampled=None) -> dict:
         out["params"] = params
     if sampled is not None:
         out["discrete"] = sampled.to_json()
+    if run.problem.actuator is not None:
+        out.update(_actuator_json(c, v))
+    return out
+
+
+def _actuator_json(candidate, verdict) -> dict:
+    """A design's anti-windup (the contract's ``anti_windup``) and its two responses.
+
+    ``saturation`` holds the time-domain metrics of the linear loop (small
+    steps) and of the loop with the limited actuator (the actuator table's
+    steps, normalised by their sizes); ``metrics`` holds the worse of each.
+    """
+    aw = candidate.anti_windup
+    out: dict = {"anti_windup": None if aw is None else
+                 {"scheme": aw.scheme, "parameters": dict(aw.parameters)}}
+    if verdict.saturated_metrics:
+        out["saturation"] = {"linear": dict(verdict.linear_metrics),
+                             "saturated": dict(verdict.saturated_metrics)}
     return out
 
 
@@ -122,6 +140,8 @@ def design_json(run) -> dict:
         from synth.problem.sampling import sampling_advice
 
         out["sampling"] = sampling_advice(problem.sampling, problem.requirements).to_json()
+    if problem.actuator is not None:
+        out["actuator"] = problem.actuator.to_json()
     if problem.source:
         out["source"] = problem.source
     return clean(out)
@@ -183,6 +203,14 @@ def _proportional_lines(run) -> list[str]:
             f"for {_ivs_text(ivs)}; no plain gain met every requirement.", ""]
 
 
+def _anti_windup_text(aw) -> str:
+    """``"back-calculation, tracking time 1.3 s"``, or ``"none (no integral action)"``."""
+    if aw.scheme == "none":
+        return "none (no integrator or unstable pole to wind up)"
+    tt = aw.parameters.get("tracking_time")
+    return aw.scheme + ("" if tt is None else f", tracking time {tt:.4g} s")
+
+
 def design_text(run) -> TextReport:
     """The terminal account of a run: proportional verdict, ranked table, caution.
 
@@ -201,6 +229,11 @@ def design_text(run) -> TextReport:
         before.append(f"  requirement region: {pr.region.describe()}")
     if pr.sampling is not None:
         before.extend(_sampling_lines(pr))
+    if pr.actuator is not None:
+        act = pr.actuator
+        before.append(f"  actuator: {act.describe()}; time-domain limits judged on small steps "
+                      f"and on a reference step of {act.reference_step:.4g} and a load step of "
+                      f"{act.load_step:.4g} through the limits")
     before.append("")
     cols = [(entry.column(limit), entry.metric, entry.key) for entry, limit in req.limits()]
     cols += [(METRICS[m].symbol, m, None) for m in _ALWAYS_SHOWN if req.limit(m) is None]
@@ -227,6 +260,9 @@ def design_text(run) -> TextReport:
             marks.append(mark)
         num, den = np.asarray(d.candidate.num), np.asarray(d.candidate.den)
         details = [f"C(s) = {describe_factored(num, den)}"]
+        aw = d.candidate.anti_windup
+        if pr.actuator is not None and aw is not None:
+            details.append("anti-windup: " + _anti_windup_text(aw))
         details += [f"fails: {text}" for text in v.violations]
         details += [f"note: {text}" for text in v.notes
                     if text.startswith("slow closed-loop pole")]  # worth an engineer's eye

@@ -1,8 +1,10 @@
 """The requirements file: TOML schema, validation and the s-plane region.
 
 A requirements file (format 1, see ``docs/requirements-file.md``) has the
-tables ``[plant]``, ``[requirements]``, ``[search]`` and, optionally,
-``[sampling]`` (:mod:`synth.problem.sampling`).  Everything is validated strictly: unknown keys, wrong types, non-finite numbers and values
+tables ``[plant]``, ``[requirements]``, ``[search]`` and the optional
+``[sampling]`` (:mod:`synth.problem.sampling`) and ``[actuator]``
+(:mod:`synth.problem.actuator`).  Everything is
+validated strictly: unknown keys, wrong types, non-finite numbers and values
 out of range raise :class:`synth.errors.InputError` naming the file and key.
 The ``[requirements]`` keys, their allowed values and their meaning come from
 the requirement catalogue (:mod:`synth.problem.catalogue`); this module only
@@ -36,6 +38,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from synth.errors import InputError
+from synth.problem.actuator import Actuator, parse_actuator
 from synth.problem.catalogue import REQUIREMENTS, RangeSpec, Requirement, requirement_for
 from synth.problem.limits import (
     MAX_MAGNITUDE,
@@ -64,7 +67,7 @@ def __getattr__(name: str):
         return structure_names()
     raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
-_TOP_KEYS = {"format", "plant", "requirements", "search", "sampling"}
+_TOP_KEYS = {"format", "plant", "requirements", "search", "sampling", "actuator"}
 
 
 _PLANT_KEYS = {"label", "numerator", "denominator", "zeros", "poles", "gain", "expression",
@@ -188,6 +191,8 @@ class Problem:
     """Everything a command needs: plant, requirements, search settings, source file.
 
     ``sampling`` is the ``[sampling]`` table (``None``: a continuous-time controller).
+    ``actuator`` is the ``[actuator]`` table (:class:`synth.problem.actuator.Actuator`),
+    ``None`` when the file has none: then the loop is judged linear.
     """
 
     plant: Plant
@@ -195,6 +200,7 @@ class Problem:
     search: SearchSettings = field(default_factory=SearchSettings)
     source: str = "<string>"
     sampling: Sampling | None = None
+    actuator: Actuator | None = None
 
     @property
     def region(self) -> Region:
@@ -458,8 +464,10 @@ def parse_problem(doc: dict, source: str = "<string>", *, read_data=None) -> Pro
     _unknown(st, set(_SEARCH_SPEC), src, "search.")
     search = SearchSettings(**{k: _SEARCH_SPEC[k](v, src, f"search.{k}") for k, v in st.items()})
     sampling = parse_sampling(doc["sampling"], src, _num) if "sampling" in doc else None
+    actuator = parse_actuator(doc["actuator"], src) if "actuator" in doc else None
     check_time_scales(_rates(plant, req, sampling), src)
-    return Problem(plant=plant, requirements=req, search=search, source=src, sampling=sampling)
+    return Problem(plant=plant, requirements=req, search=search, source=src, sampling=sampling,
+                   actuator=actuator)
 
 
 def problem_from_text(text: str, source: str = "<string>", *, read_data=None) -> Problem:

@@ -14,6 +14,7 @@ K. J. Astrom and R. M. Murray, *Feedback Systems*, Princeton University Press,
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
 
@@ -21,6 +22,9 @@ from synth.numerics.poly import trim
 from synth.verify.frequency import LoopFrequency, loop_frequency
 from synth.verify.loop import loop_polynomials
 from synth.verify.simulation import StepResponse, simulate_step
+
+if TYPE_CHECKING:
+    from synth.verify.saturated import SaturatedLoop
 
 __all__ = ["LoopCurves", "curves"]
 
@@ -45,6 +49,10 @@ class LoopCurves:
     load : StepResponse or None
         Response to a unit load step at the plant input (``r = 0``), when the
         verifier computes one; outputs draw it when present.
+    saturated : synth.verify.saturated.SaturatedLoop or None
+        With ``problem.actuator``: the reference and load steps through the
+        actuator's limits, with the controller's anti-windup (``None``
+        without an actuator, for an unstable loop or an improper compensator).
     """
 
     step: StepResponse | None
@@ -52,19 +60,23 @@ class LoopCurves:
     closed_loop_poles: np.ndarray
     stable: bool
     load: StepResponse | None = None
+    saturated: SaturatedLoop | None = None
 
 
-def curves(problem, num_c, den_c, t_end: float | None = None, plant=None) -> LoopCurves:
+def curves(problem, num_c, den_c=None, t_end: float | None = None, plant=None) -> LoopCurves:
     """The curves of the loop around ``problem.plant`` with compensator ``num_c/den_c``.
 
     Parameters
     ----------
     problem : synth.problem.requirements.Problem
-        Its plant (exact dead time) and requirements (the simulation horizon).
-    num_c, den_c : array_like
-        Compensator polynomials.
+        Its plant (exact dead time), requirements (the simulation horizon)
+        and actuator.
+    num_c, den_c : array_like, or a Controller and None
+        Compensator polynomials, or a whole
+        :class:`synth.verify.controller.Controller` (its shaping and
+        anti-windup matter for the saturated responses).
     t_end : float, optional
-        Simulation length (default: the verifier's horizon).
+        Simulation length of the linear step (default: the verifier's horizon).
     plant : synth.problem.plant.Plant, optional
         Another plant model of the problem (default ``problem.plant``), as
         :func:`synth.verify.verdict.plant_models` lists them.
@@ -73,13 +85,22 @@ def curves(problem, num_c, den_c, t_end: float | None = None, plant=None) -> Loo
     -------
     LoopCurves
     """
+    from synth.verify.controller import Controller
+
     plant = problem.plant if plant is None else plant
-    nc, dc = trim(num_c), trim(den_c)
+    controller = Controller.of(num_c, den_c)
+    nc, dc = trim(controller.num), trim(controller.den)
     _, _, char = loop_polynomials(plant, nc, dc)
     poles = np.roots(char) if char.size > 1 else np.zeros(0, complex)
     stable = bool(np.all(poles.real < 0))
     step = None
     if nc.size <= dc.size:
         step = simulate_step(plant, nc, dc, t_end=t_end, requirements=problem.requirements)
+    saturated = None
+    if problem.actuator is not None and stable and nc.size <= dc.size:
+        from synth.verify.saturated import simulate_saturated
+
+        (saturated,), _ = simulate_saturated(plant, [controller], problem.actuator,
+                                             problem.requirements)
     return LoopCurves(step=step, frequency=loop_frequency(plant, nc, dc),
-                      closed_loop_poles=poles, stable=stable)
+                      closed_loop_poles=poles, stable=stable, saturated=saturated)

@@ -80,7 +80,8 @@ __all__ = [
 ]
 
 #: Anti-windup schemes the discrete controller implements (see the module text).
-ANTI_WINDUP_SCHEMES = ("back-calculation", "observer", "conditioning")
+#: ``"none"`` is the scheme synth writes for a compensator with nothing to wind up.
+ANTI_WINDUP_SCHEMES = ("back-calculation", "observer", "conditioning", "none")
 
 #: Map methods: Tustin pre-warped at ``warp_frequency``, plain Tustin, or a controller given in z.
 METHODS = ("tustin-prewarp", "tustin", "direct")
@@ -829,6 +830,8 @@ def discrete_controller(controller, zmap: ZMap, *, compute_delay: float = 0.0,
     den = trim(np.asarray(controller.den, dtype=float))
     shaping = controller.shaping
     aw = controller.anti_windup
+    if aw is not None and aw.scheme == "none":
+        aw = None  # nothing to wind up: a plain saturation
     weights = None if shaping is None else shaping.setpoint_weights
 
     # -- the compensator in z (zeros, poles, gain) --------------------------------------------

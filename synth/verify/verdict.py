@@ -106,6 +106,11 @@ class Verdict:
     exact_delay : bool
         Time-domain metrics from the exact-delay simulation (always true
         without dead time).
+    linear_metrics, saturated_metrics : dict
+        With ``[actuator]``: the time-domain metrics of the linear loop (small
+        steps, the actuator within its limits) and of the loop with the
+        limited actuator (steps of the actuator table's sizes); ``metrics``
+        holds the worse of the two.
     """
 
     metrics: dict[str, Any]
@@ -119,6 +124,8 @@ class Verdict:
     exact_delay: bool = True
     shortfalls: dict[str, float] = field(default_factory=dict)
     witnesses: dict[str, str] = field(default_factory=dict)
+    linear_metrics: dict[str, Any] = field(default_factory=dict)
+    saturated_metrics: dict[str, Any] = field(default_factory=dict)
 
 
 def _cancellations(plant, nc, dc) -> list[tuple[str, complex]]:
@@ -159,6 +166,10 @@ class ModelResult:
         Their shortfalls (``"stability"``, ``"internal_stability"``).
     notes : tuple of str
     exact_delay : bool
+    linear_metrics, saturated_metrics : dict
+        With ``[actuator]``: the time-domain metrics of the linear loop (small
+        steps) and of the loop with the limited actuator (the actuator's
+        steps); ``metrics`` holds the worse of the two (empty otherwise).
     """
 
     label: str
@@ -171,10 +182,12 @@ class ModelResult:
     shortfalls: dict[str, float] = field(default_factory=dict)
     notes: tuple[str, ...] = ()
     exact_delay: bool = True
+    linear_metrics: dict[str, Any] = field(default_factory=dict)
+    saturated_metrics: dict[str, Any] = field(default_factory=dict)
 
 
 def evaluate_model(problem, plant, controller, exact_delay: bool = True,
-                   label: str = "nominal") -> ModelResult:
+                   label: str = "nominal", actuator: bool = True) -> ModelResult:
     """Every metric of the loop around one plant model, and its structural violations.
 
     Parameters
@@ -189,6 +202,10 @@ def evaluate_model(problem, plant, controller, exact_delay: bool = True,
         Simulate a dead time exactly (default) or by its Pade form.
     label : str
         Name of the model in texts and worst-case records.
+    actuator : bool
+        With ``problem.actuator`` set, judge the time-domain metrics on the
+        loop with the limited actuator (default; :mod:`synth.verify.saturated`).
+        ``False`` keeps them linear (a quicker first pass).
 
     Returns
     -------
@@ -265,16 +282,48 @@ def evaluate_model(problem, plant, controller, exact_delay: bool = True,
         metrics.update(step_metrics(resp, req.settling_band))
         metrics.update(loop_frequency(plant, nc, dc).metrics())
         notes.extend(_slow_hidden_poles(poles, num_l, region))
+    linear: dict[str, Any] = {}
+    saturated: dict[str, Any] = {}
+    if stable and actuator and problem.actuator is not None:
+        linear, saturated = _saturate(problem, plant, controller, exact_delay, metrics,
+                                      violations, short, notes)
     if plant.dead_time > 0 and not exact and exact_delay:
         notes.append("dead time too short to resolve against the horizon: time-domain "
                      "metrics from the Pade form")
     return ModelResult(label=label, metrics=metrics, witnesses=witnesses, poles=poles,
                        stable=stable, internally_stable=internally_stable,
                        violations=tuple(violations), shortfalls=short, notes=tuple(notes),
-                       exact_delay=exact or plant.dead_time == 0)
+                       exact_delay=exact or plant.dead_time == 0, linear_metrics=linear,
+                       saturated_metrics=saturated)
 
 
-def verify(problem, num_c, den_c=None, exact_delay: bool = True) -> Verdict:
+def _saturate(problem, plant, controller, exact_delay, metrics, violations, short,
+              notes) -> tuple[dict[str, Any], dict[str, Any]]:
+    """Judge the time-domain metrics on the linear loop and on the loop with the limited actuator.
+
+    Each metric in ``metrics`` becomes the worse of the two
+    (:func:`synth.verify.saturated.combine_responses`); returns the linear and
+    the saturated values (for the violation texts and the JSON).  An improper
+    compensator (an ideal derivative) cannot drive a limited actuator: a
+    violation says so.
+    """
+    from synth.verify.saturated import combine_responses, saturated_metrics
+
+    nc, dc = trim(controller.num), trim(controller.den)
+    if nc.size > dc.size:
+        violations.append("improper compensator: it cannot be implemented with the actuator "
+                          "limits (its answer to a step is an impulse)")
+        short["actuator"] = 1.0
+        return {}, {}
+    sat = saturated_metrics(problem, plant, controller, exact_delay)
+    linear = {k: metrics[k] for k in sat.metrics if k in metrics}
+    metrics.update(combine_responses(linear, sat.metrics))
+    notes.extend(sat.notes)
+    return linear, dict(sat.metrics)
+
+
+def verify(problem, num_c, den_c=None, exact_delay: bool = True,
+           actuator: bool = True) -> Verdict:
     """Verify one compensator against every requirement of ``problem``.
 
     Each plant model of the problem is evaluated by :func:`evaluate_model`
@@ -293,6 +342,11 @@ def verify(problem, num_c, den_c=None, exact_delay: bool = True) -> Verdict:
         Simulate a dead time exactly (default).  ``False`` uses the Pade form
         in the simulation too (a quicker first pass; reported designs are
         always re-verified with the exact delay).
+    actuator : bool
+        With ``problem.actuator`` set, judge the time-domain requirements on
+        the loop with the limited actuator (default).  ``False`` judges the
+        linear loop (a quicker first pass; reported designs are always
+        re-verified with the actuator).
 
     Returns
     -------
@@ -301,7 +355,7 @@ def verify(problem, num_c, den_c=None, exact_delay: bool = True) -> Verdict:
     from synth.verify.controller import Controller
 
     controller = Controller.of(num_c, den_c)
-    results = [evaluate_model(problem, plant, controller, exact_delay, label)
+    results = [evaluate_model(problem, plant, controller, exact_delay, label, actuator)
                for label, plant in plant_models(problem)]
     nominal = results[0]
     metrics = dict(nominal.metrics)
@@ -309,12 +363,15 @@ def verify(problem, num_c, den_c=None, exact_delay: bool = True) -> Verdict:
     violations = list(nominal.violations)
     short = dict(nominal.shortfalls)
     stable = nominal.stable
-    _check_limits(problem.requirements, metrics, witnesses, stable, violations, short)
+    both = (dict(nominal.linear_metrics), dict(nominal.saturated_metrics))
+    _check_limits(problem.requirements, metrics, witnesses, stable, violations, short,
+                  both if both[1] else None)
     return Verdict(metrics=metrics, violations=tuple(violations), feasible=not violations,
                    closed_loop_poles=tuple(complex(p) for p in nominal.poles), stable=stable,
                    internally_stable=nominal.internally_stable,
                    shortfall=float(sum(short.values())), notes=nominal.notes,
-                   exact_delay=nominal.exact_delay, shortfalls=short, witnesses=witnesses)
+                   exact_delay=nominal.exact_delay, shortfalls=short, witnesses=witnesses,
+                   linear_metrics=both[0], saturated_metrics=both[1])
 
 
 def plant_models(problem) -> list[tuple[str, Any]]:
@@ -348,11 +405,15 @@ def _slow_hidden_poles(poles, num_l, region) -> list[str]:
     return out
 
 
-def _check_limits(req, metrics, witnesses, stable, violations, short) -> None:
+def _check_limits(req, metrics, witnesses, stable, violations, short, responses=None) -> None:
     """Judge every limit of the file by its catalogue entry.
 
     A ``structure`` requirement (the compensator gain) is judged for every
-    loop; the others only for a stable one, whose metrics exist.
+    loop; the others only for a stable one, whose metrics exist.  With
+    ``responses`` (the linear and the saturated values of the time-domain
+    metrics, :attr:`Verdict.linear_metrics` and ``saturated_metrics``), a
+    violated time-domain limit says which response breaks it, and so whether
+    the design meets it without saturation.
     """
     context = {k: req.value(k) for k in REQUIREMENTS}
     for entry, limit in req.limits():
@@ -362,4 +423,9 @@ def _check_limits(req, metrics, witnesses, stable, violations, short) -> None:
                              {**context, "where": witnesses.get(entry.metric, "")})
         if found is not None:
             short[entry.key], text = found
+            if responses is not None and entry.metric in responses[1]:
+                from synth.verify.saturated import saturation_remark
+
+                text += saturation_remark(entry, responses[0].get(entry.metric),
+                                          responses[1][entry.metric], limit, context)
             violations.append(text)

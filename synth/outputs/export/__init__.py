@@ -148,7 +148,8 @@ def discrete_model(document, design):
                          "again", document.source, f"{key}.discrete")
     controller = document.controller(design)
     act = document.actuator
-    limits = None if act is None else act.limits
+    # the loop's control signal is the deviation from the operating point (docs/export.md)
+    limits = None if act is None else act.deviation_limits
     rate = None if act is None else act.max_rate
     if form.method is None:
         zmap = ZMap("direct", form.period)

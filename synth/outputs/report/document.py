@@ -61,6 +61,9 @@ SECTION_TITLES = {
 #: The figures drawn for each top design, in order.
 FIGURE_KINDS = ("locus", "step", "bode", "sensitivity")
 
+#: The figure a design gets after its step response when the problem has actuator limits.
+SATURATION_FIGURE = "saturation"
+
 #: Designs given a full section (by default, in ``synth.design.prepare_report``).
 TOP = 3
 
@@ -446,6 +449,7 @@ def _design_section(report: ReportInput, design: DesignRecord, fig: DesignFigure
                          "limit, the settling band after the settling-time limit and the effort "
                          "limit where the requirements set them.", "step response and effort",
                          draw=lambda t: draw_step(t, curves, req, "unit-step reference")))
+    blocks.extend(_saturation_blocks(problem, fig, design))
     blocks.append(Heading("Loop frequency response"))
     f = curves.facts
     blocks.append(Figure("bode", 3.4, "Bode plot of the loop L(jw) = C(jw) G(jw): the phase margin is marked "
@@ -470,6 +474,32 @@ def _design_section(report: ReportInput, design: DesignRecord, fig: DesignFigure
     blocks.extend(_implementation_blocks(im, sampled=bool(design.discrete)))
     return Section(f"design-{design.rank}", f"Design {design.rank}: {design.structure}",
                    tuple(blocks), "design", new_page=True)
+
+
+def _saturation_blocks(problem, fig: DesignFigures, design: DesignRecord) -> list:
+    """With actuator limits: the linear and the saturated responses side by side."""
+    from synth.outputs.report.saturation_figure import draw_saturation, saturation_data
+
+    data = saturation_data(fig.curves, problem)
+    if data is None:
+        return []
+    act = problem.actuator
+    aw = design.anti_windup or {}
+    scheme = aw.get("scheme", "none")
+    tt = (aw.get("parameters") or {}).get("tracking_time")
+    aw_text = ("no anti-windup (no integrator or unstable pole to wind up)" if scheme == "none"
+               else f"anti-windup by {scheme}" + ("" if tt is None else
+                                                 f", tracking time {_g(tt)} s"))
+    return [
+        Heading("With the actuator limits"),
+        Figure(SATURATION_FIGURE, 3.6,
+               "Left: the linear loop's unit-step response (small steps, the actuator within "
+               f"its range). Right: a reference step of {act.reference_step:g} and a load step "
+               f"of {act.load_step:g} through the actuator's limits ({act.describe()}), "
+               f"with {aw_text}; outputs per unit of their step, the actuator in its own "
+               "units with its range dashed.", "linear and saturated step responses",
+               draw=lambda t: draw_saturation(t, data, problem.requirements)),
+    ]
 
 
 def _implementation_blocks(im: dict, sampled: bool = False) -> list:
