@@ -424,8 +424,9 @@ def test_report_of_the_pump_case_draws_linear_and_saturated_side_by_side(pump_ru
     ("anti_windup", {"scheme": "back-calculation", "parameters": {}},
      "designs[0].anti_windup.parameters"),
     ("anti_windup", {"scheme": "observer", "parameters": {"tracking_time": -1.0}},
-     "designs[0].anti_windup.parameters"),
-    ("reference_filter", {"setpoint_weights": {"b": "half"}}, "designs[0].setpoint_weights"),
+     "designs[0].anti_windup.parameters.tracking_time"),
+    ("reference_filter", {"setpoint_weights": {"b": "half"}},
+     "designs[0].reference_filter.setpoint_weights.b"),
     ("reference_filter", {"numerator": [], "denominator": [1.0]},
      "designs[0].reference_filter.numerator"),
 ])

@@ -342,16 +342,22 @@ class DesignDocument:
         if design.anti_windup is not None:
             awkey = f"{key}.anti_windup"
             scheme = design.anti_windup.get("scheme")
-            if not isinstance(scheme, str) or not scheme:
-                raise InputError("needs a text 'scheme'", self.source, f"{awkey}.scheme")
+            from synth.verify.discrete import ANTI_WINDUP_SCHEMES
+
+            if scheme not in ANTI_WINDUP_SCHEMES:
+                raise InputError(f"scheme must be one of {', '.join(ANTI_WINDUP_SCHEMES)}, got "
+                                 f"{scheme!r}", self.source, f"{awkey}.scheme")
             params = design.anti_windup.get("parameters") or {}
             if not isinstance(params, Mapping):
-                raise InputError("must be an object of numbers", self.source,
+                raise InputError("must map names to positive numbers", self.source,
                                  f"{awkey}.parameters")
             for name, value in params.items():
-                if not _is_number(value) or not math.isfinite(value):
-                    raise InputError("must be a finite number", self.source,
+                if not (_is_number(value) and math.isfinite(value) and value > 0):
+                    raise InputError("must be a positive number", self.source,
                                      f"{awkey}.parameters.{name}")
+            if scheme in ("back-calculation", "observer") and "tracking_time" not in params:
+                raise InputError(f"{scheme} needs tracking_time (seconds)", self.source,
+                                 f"{awkey}.parameters")
             aw = AntiWindup(scheme=scheme, parameters=MappingProxyType(
                 {k: float(v) for k, v in params.items()}))
         return Controller(c.numerator, c.denominator, shaping, aw)
