@@ -25,10 +25,14 @@ Strategy errors.  A strategy that raises :class:`synth.errors.StrategyDeclined`
 for a family is recorded in ``search.declined``; any other exception (a
 user error of another kind, or a bug) propagates.
 
-Dead time.  All candidates are first verified with the Pade form in the
-simulation (quick); then, in rank order, each design that would be reported
-is re-verified with the exact delay and the ranking recomputed, until every
-reported design carries an exact-delay verdict.
+Dead time and several plant models.  All candidates are first verified
+quickly: with the Pade form of a dead time in the simulation, and, when the
+problem has ranges or variants, with only the nominal plant evaluated exactly
+and the other models screened by estimates (``verify(..., depth="quick")``).
+Then, in rank order, each design that would be reported is verified fully
+(exact delay; every model, local worst-case searches, the robust stability
+test) and the ranking recomputed, until every reported design carries a full
+verdict.
 """
 
 from __future__ import annotations
@@ -161,8 +165,8 @@ class DesignRun:
 # ----------------------------------------------------------------------------
 
 
-def _verify_all(problem, cands, exact: bool) -> list:
-    return [verify(problem, c.controller, exact_delay=exact)
+def _verify_all(problem, cands, exact: bool, depth: str = "full", setup=None) -> list:
+    return [verify(problem, c.controller, exact_delay=exact, depth=depth, setup=setup)
             for c in cands]
 
 
@@ -251,22 +255,34 @@ def run_design(problem, strategies=None, families=None,
         per_family[fam.name] = round(time.monotonic() - start, 3)
     search_seconds = time.monotonic() - t_search
 
-    dead = problem.plant.dead_time > 0
-    verdicts = _verify_all(problem, candidates, exact=not dead)
+    # first pass: quick verdicts (the Pade form of a dead time in the simulation; with
+    # several plant models, only the nominal one evaluated exactly); then every design
+    # that would be reported gets the full verdict, in rank order, until all have one
+    models = problem.model_set
+    robust = not models.is_single
+    setup = None
+    if robust:
+        from synth.verify.robust import robust_setup
+
+        setup = robust_setup(problem)
+    dead = any(p.dead_time > 0 for p in (problem.plant, *(v.plant for v in models.variants))) \
+        or any(r.name == "dead_time" for r in models.ranges)
+    quick = dead or robust
+    verdicts = _verify_all(problem, candidates, exact=not dead,
+                           depth="quick" if robust else "full", setup=setup)
     pairs = list(zip(candidates, verdicts, strict=True))
-    if dead:
-        # make every reported design carry an exact-delay verdict
-        exact = [False] * len(pairs)
+    if quick:
+        final = [False] * len(pairs)
         index = {id(c): i for i, c in enumerate(candidates)}
         while True:
             ranked = rank_designs(pairs, problem)
-            todo = [index[id(d.candidate)] for d in ranked if not exact[index[id(d.candidate)]]]
+            todo = [index[id(d.candidate)] for d in ranked if not final[index[id(d.candidate)]]]
             if not todo:
                 break
             for i in todo:
                 c = candidates[i]
-                pairs[i] = (c, verify(problem, c.controller))
-                exact[i] = True
+                pairs[i] = (c, verify(problem, c.controller, setup=setup))
+                final[i] = True
     ranked = rank_designs(pairs, problem)
     if progress is not None:
         progress(total, total, "verified")

@@ -77,6 +77,10 @@ def _design_json(run, d) -> dict:
     }
     if params is not None:
         out["params"] = params
+    if v.worst_case:
+        out["worst_case"] = {k: w.to_json() for k, w in v.worst_case.items()}
+    if v.robustness is not None:
+        out["robustness"] = v.robustness
     return out
 
 
@@ -92,8 +96,10 @@ def design_json(run) -> dict:
     dict
         ``schema``, ``plant``, ``designs`` (contract fields, and per design
         ``description``, ``score``, ``internally_stable``, ``time_domain``,
-        ``notes``, ``provenance``, ``params``), ``requirements``, ``region``,
-        ``proportional``, ``caution``, ``search`` and ``source``.
+        ``notes``, ``provenance``, ``params``; with several plant models
+        ``worst_case`` and ``robustness``), ``requirements``, ``region``,
+        ``proportional``, ``caution``, ``search``, ``models`` (with ranges or
+        variants: :meth:`synth.problem.models.ModelSet.to_json`) and ``source``.
     """
     from synth.families import FAMILIES
 
@@ -113,6 +119,9 @@ def design_json(run) -> dict:
                    "structures": list(s.structures or FAMILIES),
                    "max_frequency": SearchSpace.for_problem(problem).w_max, **run.stats},
     }
+    models = problem.model_set
+    if not models.is_single:
+        out["models"] = models.to_json()
     if problem.source:
         out["source"] = problem.source
     return clean(out)
@@ -190,6 +199,10 @@ def design_text(run) -> TextReport:
     before.append(f"Designs for {pr.plant.describe()}" + (f"  ({title})" if title else ""))
     if not pr.region.is_stability_only:
         before.append(f"  requirement region: {pr.region.describe()}")
+    if not pr.model_set.is_single:
+        before.append(f"  plant models: {pr.model_set.describe()}")
+        before.append("  every value below is the worst case over the models (see the worst-case "
+                      "lines)")
     before.append("")
     cols = [(entry.column(limit), entry.metric, entry.key) for entry, limit in req.limits()]
     cols += [(METRICS[m].symbol, m, None) for m in _ALWAYS_SHOWN if req.limit(m) is None]
@@ -215,6 +228,7 @@ def design_text(run) -> TextReport:
             marks.append(mark)
         num, den = np.asarray(d.candidate.num), np.asarray(d.candidate.den)
         details = [f"C(s) = {describe_factored(num, den)}"]
+        details += _worst_case_lines(v, [c[1] for c in cols])
         details += [f"fails: {text}" for text in v.violations]
         details += [f"note: {text}" for text in v.notes
                     if text.startswith("slow closed-loop pole")]  # worth an engineer's eye
@@ -231,6 +245,28 @@ def design_text(run) -> TextReport:
     return TextReport(before=tuple(before),
                       table=TextTable(header, tuple(rows), empty="no candidate was proposed"),
                       after=tuple(after))
+
+
+def _worst_case_lines(verdict, shown) -> list[str]:
+    """One line naming the model behind each shown worst-case value (other than the nominal)."""
+    if not verdict.worst_case:
+        return []
+    by_model: dict[str, list[str]] = {}
+    for metric in shown:
+        case = verdict.worst_case.get(metric)
+        if case is None or case.model.kind == "nominal":
+            continue
+        by_model.setdefault(case.model.name, []).append(METRICS[metric].symbol)
+    rob = verdict.robustness or {}
+    lines = [f"worst case {', '.join(symbols)}: {name}" for name, symbols in by_model.items()]
+    if rob.get("stability_test"):
+        state = {True: "certified", False: "NOT certified", None: "n/a"}[rob.get(
+            "stability_certified")]
+        lines.append(f"robust stability: {state} ({rob['stability_test']}; "
+                     f"{rob.get('exact_evaluations', 0)} models evaluated exactly, "
+                     f"{rob.get('screened', 0)} screened, "
+                     f"{rob.get('local_searches', 0)} local searches)")
+    return lines
 
 
 def design_lines(run) -> list[str]:
