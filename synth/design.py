@@ -300,6 +300,36 @@ def run_design(problem, strategies=None, families=None,
 # ----------------------------------------------------------------------------
 
 
+def _model_curves(problem, document, design) -> tuple:
+    """Per-model curves of one design: nominal, variants and each worst-case model.
+
+    Empty for a single plant.  Models are rebuilt from the document
+    (:meth:`synth.outputs.document.DesignDocument.model_plant`), the way any
+    reader of the JSON would.
+    """
+    from synth.verify.curves import model_curves
+
+    if problem.model_set.is_single or not design.worst_case:
+        return ()
+    wanted: list[tuple[str, object, list[str]]] = [("nominal", "nominal", [])]
+    for v in problem.model_set.variants:
+        wanted.append((v.label, v.label, []))
+    for metric, case in design.worst_case.items():
+        model = case.get("model")
+        plain = dict(model) if not isinstance(model, str) else model
+        for _name, m, worst in wanted:
+            if m == plain:
+                worst.append(metric)
+                break
+        else:
+            from synth.problem.models import point_text
+
+            wanted.append((point_text(plain), plain, [metric]))
+    return model_curves(problem, design.compensator.num, design.compensator.den,
+                        [(name, m, document.model_plant(m), worst) for name, m, worst in wanted])
+
+
+
 def prepare_report(problem, doc: dict, explanation=None, top: int | None = None):
     """Gather what the report of a design run shows, so the report only formats.
 
@@ -348,6 +378,7 @@ def prepare_report(problem, doc: dict, explanation=None, top: int | None = None)
         except InputError as err:  # a zero gain: the loop has no locus to draw
             trace, gain, note = None, None, err.message
         figures.append(DesignFigures(rank=d.rank, curves=curves(problem, c.num, c.den),
-                                     locus=trace, locus_gain=gain, locus_note=note))
+                                     locus=trace, locus_gain=gain, locus_note=note,
+                                     models=_model_curves(problem, document, d)))
     return ReportInput(problem=problem, document=document, explanation=explanation,
                        figures=tuple(figures))

@@ -260,12 +260,13 @@ def _worst_case_lines(verdict, shown) -> list[str]:
     rob = verdict.robustness or {}
     lines = [f"worst case {', '.join(symbols)}: {name}" for name, symbols in by_model.items()]
     if rob.get("stability_test"):
-        state = {True: "certified", False: "NOT certified", None: "n/a"}[rob.get(
-            "stability_certified")]
-        lines.append(f"robust stability: {state} ({rob['stability_test']}; "
+        certified = rob.get("stability_certified")
+        head = ("stability" if certified is None else
+                "robust stability " + ("certified" if certified else "NOT certified"))
+        lines.append(f"{head} ({rob['stability_test']}); "
                      f"{rob.get('exact_evaluations', 0)} models evaluated exactly, "
                      f"{rob.get('screened', 0)} screened, "
-                     f"{rob.get('local_searches', 0)} local searches)")
+                     f"{rob.get('local_searches', 0)} local searches")
     return lines
 
 
