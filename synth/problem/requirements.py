@@ -419,8 +419,17 @@ def _parse_plant(t: dict, src: str, read_data=None) -> tuple[Plant, ModelSet | N
         if fitted is None:
             return plant, _model_set(plant, None, {}, {}, t.get("variants"), src, order)
         params = dict(fitted["parameters"])
-        # a parameter the data fix exactly (zero standard error) has no range
-        ranges = {k: tuple(v) for k, v in fitted["ranges"].items() if v[0] < v[1]}
+        # a parameter the data fix exactly (zero standard error) has no range; a dead-time
+        # range keeps a positive low end (a tenth of the fitted value, like the time
+        # constants), and none at all when the fit finds no delay
+        ranges = {}
+        for k, (lo, hi) in fitted["ranges"].items():
+            if k == DEAD_TIME:
+                if plant.dead_time <= 0:
+                    continue
+                lo = max(lo, 0.1 * plant.dead_time)
+            if lo < hi:
+                ranges[k] = (lo, hi)
         return plant, _model_set(plant, fitted["expression"], params, ranges,
                                  t.get("variants"), src, order,
                                  range_key="plant.step_test.ranges_from_fit")
@@ -490,6 +499,12 @@ def _ranges(table, params: dict[str, float], dead: float, src: str
         nominal = dead if name == DEAD_TIME else params[name]
         if name == DEAD_TIME and lo < 0:
             raise InputError(f"a dead time cannot be negative, got low {lo:g}", src, key)
+        if name == DEAD_TIME and lo == 0:
+            # the Pade form of a vanishing delay drops the plant's order: no single
+            # characteristic polynomial describes the whole range
+            raise InputError("a dead-time range must start above 0 (at 0 the delay's Pade form "
+                             "vanishes and the plant changes order); use a small positive low "
+                             "end, or a variant without dead time", src, key)
         if not lo <= nominal <= hi:
             what = "plant.dead_time" if name == DEAD_TIME else f"plant.parameters.{name}"
             raise InputError(f"[{lo:g}, {hi:g}] does not contain the nominal value {nominal:g} "

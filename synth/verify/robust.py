@@ -623,8 +623,10 @@ class FamilyStability:
         The plant-gain factor at the counterexample (with ``plant_gain_range``).
     detail : str
         What failed, in words (empty when certified).
-    exact : bool
-        The test is exact for this family (not a grid or a sufficient bound).
+    approximate : bool
+        The test approximates the value set (curved coordinates cut into
+        slices), so a certificate is not rigorous; otherwise a certificate
+        holds for the whole box (on the frequency grid, for zero exclusion).
     """
 
     test: str
@@ -632,7 +634,7 @@ class FamilyStability:
     counterexample: ModelPoint | None = None
     factor: float | None = None
     detail: str = ""
-    exact: bool = True
+    approximate: bool = False
 
 
 def kharitonov_polynomials(lo, hi) -> np.ndarray:
@@ -772,7 +774,7 @@ class _CoefficientMap:
         models = self.setup.models
         pt = (self.setup.point_model(models.point_from_unit(u[:self.d]), "counterexample")
               if self.d else self.setup.nominal)
-        return pt, (self.factor(u[self.d]) if self.factors is not None else None)
+        return pt, (float(self.factor(u[self.d])) if self.factors is not None else None)
 
 
 def family_stability(problem, controller, setup: RobustSetup) -> FamilyStability:
@@ -808,8 +810,7 @@ def family_stability(problem, controller, setup: RobustSetup) -> FamilyStability
     lead = Ccorner[:, 0]
     if not (np.all(lead > 0) or np.all(lead < 0)):
         return FamilyStability("degree check", False, detail="the leading coefficient of the "
-                               "characteristic polynomial changes sign over the ranges",
-                               exact=True)
+                               "characteristic polynomial changes sign over the ranges")
     predicted = c0 + (corners_u - 0.5) @ slopes
     affine = (not np.any(curved)
               and np.all(np.abs(Ccorner - predicted) <= tol))
@@ -843,7 +844,7 @@ def _affine_test(cmap: _CoefficientMap, c0, slopes, tol) -> FamilyStability:
     if ok:
         name = ("Kharitonov (interval polynomial)" if interval
                 else "Kharitonov (interval hull of an affine family)")
-        return FamilyStability(name, True, exact=interval)
+        return FamilyStability(name, True)
     if interval:
         # the failing Kharitonov polynomial is a corner of the coefficient box, hence of the box
         K = kharitonov_polynomials(lo, hi)[which or 0]
@@ -915,14 +916,14 @@ def _zero_exclusion(cmap: _CoefficientMap, curved, polytope: bool = False) -> Fa
                 "approximate for curved coordinates)")
     else:
         name = "zero exclusion (mapping theorem)"
-    exact = polytope or not sliced
+    approximate = bool(sliced) and not polytope
     # every lattice point must be stable (necessary), and the degree must not drop
     stable = hurwitz_batch(_balanced(C))
     if not np.all(stable):
         i = int(np.flatnonzero(~stable)[0])
         pt, f = cmap.point(U[i])
         return FamilyStability(name, False, pt, f, f"the loop is unstable at {pt.name}"
-                               + (f", plant-gain factor {f:.4g}" if f else ""), exact)
+                               + (f", plant-gain factor {f:.4g}" if f else ""), approximate)
     # the value set on a grid around the polynomials' own frequency scale
     w0 = frequency_scale(*C)
     z = np.geomspace(10 ** -_ZE_DECADES, 10 ** _ZE_DECADES, _ZE_POINTS)
@@ -945,5 +946,6 @@ def _zero_exclusion(cmap: _CoefficientMap, curved, polytope: bool = False) -> Fa
             w = float(z[k] * w0)
             return FamilyStability(name, False, detail=(
                 f"0 is not excluded from the value set at {w:.4g} rad/s: the test cannot "
-                "certify the ranges, though every model checked is stable"), exact=exact)
-    return FamilyStability(name, True, exact=exact)
+                "certify the ranges, though every model checked is stable"),
+                approximate=approximate)
+    return FamilyStability(name, True, approximate=approximate)

@@ -471,7 +471,7 @@ def _robustness(setup, found, stability, results, depth: str) -> dict[str, Any]:
     if stability is not None:
         out["stability_test"] = stability.test
         out["stability_certified"] = stability.certified
-        out["stability_test_exact"] = stability.exact
+        out["stability_test_approximate"] = stability.approximate
         if stability.detail:
             out["stability_detail"] = stability.detail
     return out
