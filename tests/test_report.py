@@ -19,7 +19,7 @@ from html.parser import HTMLParser
 
 import numpy as np
 import pytest
-from handmade import hand_design
+from handmade import THREE_LOADS, THREE_LOADS_POLYS, hand_design
 from scipy.signal import freqresp
 
 from synth.design import prepare_report
@@ -415,18 +415,7 @@ def test_report_overlays_the_models_and_marks_the_worst_case(tmp_path):
     from synth.design import run_design
     from synth.outputs.report.document import MODEL_FIGURE
 
-    problem = problem_from_text("""
-[plant]
-numerator = [1.0]
-denominator = [1.0, 2.0, 0.0]
-[[plant.variants]]
-label = "heavy"
-numerator = [0.5]
-denominator = [1.0, 1.0, 0.0]
-[[plant.variants]]
-label = "light"
-numerator = [2.0]
-denominator = [1.0, 4.0, 0.0]
+    problem = problem_from_text(THREE_LOADS + """
 [requirements]
 max_overshoot_percent = 10.0
 min_phase_margin_deg = 45.0
@@ -439,7 +428,7 @@ keep = 1
     report = prepare_report(problem, doc, top=1)
     models = report.figures[0].models
     assert [m.name for m in models][:3] == ["nominal", "heavy", "light"]
-    polys = {"nominal": ([1.0], [1, 2, 0]), "heavy": ([0.5], [1, 1, 0]), "light": ([2.0], [1, 4, 0])}
+    polys = THREE_LOADS_POLYS
     c = doc["designs"][0]["compensator"]
     for m in models[:3]:
         n, d = polys[m.name]

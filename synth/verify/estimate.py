@@ -38,6 +38,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from synth.numerics.poly import batch_polymul, left_pad
 from synth.problem.catalogue import METRICS
 
 __all__ = ["ESTIMATED", "PlantModel", "estimate_loops", "worst_over_models"]
@@ -74,25 +75,6 @@ class PlantModel:
         den = np.array([p.den for p in plants])
         g = np.array([p.evaluate(1j * np.asarray(w)) for p in plants])
         return cls(num, den, g)
-
-
-def _pad_to(P, width):
-    if P.shape[1] == width:
-        return P
-    out = np.zeros((P.shape[0], width))
-    out[:, width - P.shape[1]:] = P
-    return out
-
-
-def _rows_polymul(P, Q):
-    """Row-wise products: ``P`` (B, a) with ``Q`` (b,) shared or (B, b) per row."""
-    Q = np.asarray(Q, dtype=float)
-    if Q.ndim == 1:
-        Q = np.broadcast_to(Q, (P.shape[0], Q.size))
-    out = np.zeros((P.shape[0], P.shape[1] + Q.shape[1] - 1))
-    for j in range(Q.shape[1]):
-        out[:, j:j + P.shape[1]] += Q[:, j:j + 1] * P
-    return out
 
 
 def _polyval_rows(P, Z):
@@ -163,10 +145,10 @@ def estimate_loops(num_c, den_c, model: PlantModel, w, tau, band: float,
     num_c = np.atleast_2d(np.asarray(num_c, dtype=float))
     den_c = np.atleast_2d(np.asarray(den_c, dtype=float))
     B = num_c.shape[0]
-    num_l = _rows_polymul(num_c, model.num)
-    den_l = _rows_polymul(den_c, model.den)
+    num_l = batch_polymul(num_c, model.num)
+    den_l = batch_polymul(den_c, model.den)
     width = max(num_l.shape[1], den_l.shape[1])
-    num_l, den_l = _pad_to(num_l, width), _pad_to(den_l, width)
+    num_l, den_l = left_pad(num_l, width), left_pad(den_l, width)
     char = den_l + num_l
     roots = roots_batch(char)
     finite = np.all(np.isfinite(roots), axis=1)
@@ -193,7 +175,7 @@ def estimate_loops(num_c, den_c, model: PlantModel, w, tau, band: float,
         powers = np.arange(n, 0, -1)
         dch = ch[:, :-1] * powers
         c0 = ch[:, -1]
-        nu = _pad_to(_rows_polymul(nc, gden), ch.shape[1])
+        nu = left_pad(batch_polymul(nc, gden), ch.shape[1])
         with np.errstate(all="ignore"):
             denom = r * _polyval_rows(dch, r)
             ry = _polyval_rows(nl, r) / denom
