@@ -35,10 +35,12 @@ from synth.explain.gain import Interval, intersect_all
 __all__ = ["EndLimit", "ModelsAccount", "explain_models"]
 
 #: Finite ends of the stabilising intersection refined by a local search, and the
-#: evaluations each search may spend (``_BASE + _PER_RANGE`` per range).
+#: evaluations each search may spend (``_BASE + _PER_RANGE`` per range, at most
+#: ``_MAX_EVALUATIONS``).
 _MAX_END_SEARCHES = 4
 _BASE = 8
 _PER_RANGE = 4
+_MAX_EVALUATIONS = 24
 
 
 @dataclass(frozen=True)
@@ -228,7 +230,8 @@ def _search_ends(problem, setup, per_model, region) -> list:
             simplex = [start] + [start + np.eye(d)[i] * (0.25 if start[i] <= 0.5 else -0.25)
                                  for i in range(d)]
             res = minimize(end_at, start, method="Nelder-Mead", bounds=[(0.0, 1.0)] * d,
-                           options={"maxfev": _BASE + _PER_RANGE * d, "xatol": 1e-3,
+                           options={"maxfev": min(_MAX_EVALUATIONS, _BASE + _PER_RANGE * d),
+                                    "xatol": 1e-3,
                                     "initial_simplex": np.array(simplex)})
             point = setup.point_model(models.point_from_unit(np.clip(res.x, 0.0, 1.0)),
                                       "search")

@@ -33,9 +33,11 @@ zero).
 
 from __future__ import annotations
 
+import itertools
 import math
 from collections.abc import Mapping
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 
@@ -202,6 +204,27 @@ class ModelSet:
     def unit_of(self, point: Mapping[str, float]) -> np.ndarray:
         """Unit coordinates of a point (inverse of :meth:`point_from_unit`)."""
         return np.array([r.unit(float(point.get(r.name, r.nominal))) for r in self.ranges])
+
+    @cached_property
+    def corner_plants(self) -> tuple[tuple[dict[str, float], Plant], ...]:
+        """Every corner of the box and its plant, ``(point, plant)`` (computed once).
+
+        Raises
+        ------
+        synth.errors.InputError
+            Naming the corner where the plant cannot be built (no file or key:
+            the caller adds them).
+        """
+        from synth.errors import InputError
+
+        out = []
+        for corner in itertools.product((0.0, 1.0), repeat=len(self.ranges)):
+            point = self.point_from_unit(corner)
+            try:
+                out.append((point, self.plant_at(point)))
+            except InputError as err:
+                raise InputError(f"at the corner {point_text(point)}: {err.message}") from None
+        return tuple(out)
 
     # -- words and JSON ---------------------------------------------------------------------
     def describe(self) -> str:

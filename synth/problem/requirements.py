@@ -570,17 +570,13 @@ def _model_set(plant: Plant, expression, params, ranges, variants, src: str, ord
                              "variant must describe the same input and output", src,
                              f"plant.variants[{i}]")
     if models.ranges:
-        import itertools
-
         sizes = (plant.rational_num.size, plant.rational_den.size)
         lead = np.sign(plant.rational_num[0] / plant.rational_den[0])
-        for corner in itertools.product((0.0, 1.0), repeat=len(models.ranges)):
-            point = models.point_from_unit(corner)
-            try:
-                model = models.plant_at(point)
-            except InputError as err:
-                raise InputError(f"at the corner {point_text(point)}: {err.message}", src,
-                                 range_key) from None
+        try:
+            corners = models.corner_plants
+        except InputError as err:
+            raise InputError(err.message, src, range_key) from None
+        for point, model in corners:
             other = io_signature(model)
             if other != sig:
                 raise InputError(f"at the corner {point_text(point)} the plant has "
@@ -603,8 +599,6 @@ def _rates(plant: Plant, req: Requirements, models: ModelSet | None = None
     decay rate the settling limit asks for and the bandwidth the rise-time
     limit implies; :func:`check_time_scales` bounds their spread.
     """
-    import itertools
-
     import numpy as np
 
     rates: dict[str, float] = {}
@@ -620,8 +614,7 @@ def _rates(plant: Plant, req: Requirements, models: ModelSet | None = None
         plants += [(f"plant.variants[{i}]", v.plant)
                    for i, v in enumerate(models.variants, start=1)]
         if models.ranges:
-            plants += [("plant.ranges", models.plant_at(models.point_from_unit(c)))
-                       for c in itertools.product((0.0, 1.0), repeat=len(models.ranges))]
+            plants += [("plant.ranges", corner) for _, corner in models.corner_plants]
     for key, model in plants:
         for which, poly in (("zeros", model.rational_num), ("poles", model.rational_den)):
             if poly.size > 1:

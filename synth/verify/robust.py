@@ -54,7 +54,8 @@ classified numerically:
   convex hull of the corner values (the mapping theorem for multilinear
   dependence, Zadeh and Desoer 1963); coordinates with curvature (a squared
   parameter, the Pade form of a dead time) are first cut into
-  :data:`SUBDIVISIONS` slices, where the hull of each slice's corners is
+  :data:`SUBDIVISIONS` slices (half as many with more than six coordinates
+  or more than two curved ones), where the hull of each slice's corners is
   close to its value set.  For curved coordinates the test is therefore an
   approximation that tightens with the subdivision, and it says so.
 
@@ -94,7 +95,7 @@ from typing import Any
 
 import numpy as np
 
-from synth.problem.models import ModelSet, point_text
+from synth.problem.models import DEAD_TIME, ModelSet, point_text
 
 __all__ = [
     "EDGE_LIMIT", "MAX_VERTICES", "N_SAMPLES", "SUBDIVISIONS",
@@ -116,10 +117,11 @@ SEARCH_MODELS = 4
 #: fraction of its limit gets a local worst-case search (so do violated ones).
 NEAR_ROOM = 0.25
 #: Local searches per design, and the model evaluations each may spend
-#: (``LOCAL_BASE + LOCAL_PER_RANGE`` per range).
+#: (``LOCAL_BASE + LOCAL_PER_RANGE`` per range, at most ``LOCAL_MAX``).
 MAX_LOCAL_SEARCHES = 2
 LOCAL_BASE = 8
 LOCAL_PER_RANGE = 4
+LOCAL_MAX = 32
 #: Most points of the ranges evaluated exactly per design besides unstable ones: the
 #: local searches' results and the worst screened point of each required metric.
 MAX_EXACT_POINTS = 3
@@ -135,6 +137,8 @@ _W_POINTS = 400
 #: polynomial's own frequency scale (decades either side, points).
 _ZE_DECADES = 4.0
 _ZE_POINTS = 800
+#: Lattice points times frequencies above which the grid thins (to at most half).
+_ZE_BUDGET = 1_000_000
 #: Relative tolerance of the affinity test of the coefficient map.
 _AFFINE_RTOL = 1e-9
 
@@ -245,12 +249,30 @@ class RobustSetup:
     _polys: dict = field(default_factory=dict, repr=False, compare=False)
 
     def plant_polys(self, u) -> tuple[np.ndarray, np.ndarray]:
-        """Engine-form numerator and denominator, NOT normalised, at unit coordinates ``u``."""
+        """Engine-form numerator and denominator, NOT normalised, at unit coordinates ``u``.
+
+        The rational part is memoised by the parameters' coordinates alone, so
+        slicing the dead time costs a Pade form per slice, not a parse.
+        """
         key = tuple(round(float(x), 15) for x in u)
         if key not in self._polys:
-            plant = (self.models.plant_at(self.models.point_from_unit(key))
-                     if self.models.ranges else self.models.nominal)
-            self._polys[key] = _unnormalised(plant)
+            models = self.models
+            if not models.ranges:
+                self._polys[key] = _unnormalised(models.nominal)
+                return self._polys[key]
+            point = models.point_from_unit(key)
+            dead = point.pop(DEAD_TIME, models.nominal.dead_time)
+            rkey = ("rational", tuple(sorted(point.items())))
+            if rkey not in self._polys:
+                plant = models.plant_at(point)
+                self._polys[rkey] = (plant.rational_num, plant.rational_den)
+            num, den = self._polys[rkey]
+            if dead > 0:
+                from synth.problem.delay import pade
+
+                pn, pd = pade(dead, models.nominal.pade_order)
+                num, den = np.convolve(num, pn), np.convolve(den, pd)
+            self._polys[key] = (num, den)
         return self._polys[key]
 
     @property
@@ -574,7 +596,7 @@ def _local_search(problem, setup, nc, dc, w, tau, entry, limit, start: ModelPoin
 
     models = setup.models
     d = len(models.ranges)
-    budget = LOCAL_BASE + LOCAL_PER_RANGE * d
+    budget = min(LOCAL_MAX, LOCAL_BASE + LOCAL_PER_RANGE * d)
     x0 = models.unit_of(dict(start.point))
     count = 0
 
@@ -733,7 +755,7 @@ def _unnormalised(plant) -> tuple[np.ndarray, np.ndarray]:
         from synth.problem.delay import pade
 
         pn, pd = pade(plant.dead_time, plant.pade_order)
-        num, den = np.polymul(num, pn), np.polymul(den, pd)
+        num, den = np.convolve(num, pn), np.convolve(den, pd)
     return num, den
 
 
@@ -752,7 +774,7 @@ class _CoefficientMap:
     def parts(self, u: tuple[float, ...]) -> tuple[np.ndarray, np.ndarray]:
         """``(den_C den_G, num_C num_G)`` at box coordinates ``u``."""
         num, den = self.setup.plant_polys(u)
-        return np.polymul(self.dc, den), np.polymul(self.nc, num)
+        return np.convolve(self.dc, den), np.convolve(self.nc, num)
 
     def factor(self, v: float) -> float:
         if self.factors is None:
@@ -763,8 +785,12 @@ class _CoefficientMap:
     def coeffs(self, U: np.ndarray) -> np.ndarray:
         """Rows of coefficients (descending, padded) at the rows of unit coordinates ``U``."""
         out = np.zeros((U.shape[0], self.width))
+        seen: dict[tuple, tuple[np.ndarray, np.ndarray]] = {}
         for i, u in enumerate(U):
-            a, b = self.parts(tuple(u[:self.d]))
+            key = tuple(u[:self.d])
+            if key not in seen:  # the plant-gain factor needs no new polynomials
+                seen[key] = self.parts(key)
+            a, b = seen[key]
             f = self.factor(u[self.d]) if self.factors is not None else 1.0
             out[i, self.width - a.size:] += a
             out[i, self.width - b.size:] += f * b
@@ -900,7 +926,9 @@ def _zero_exclusion(cmap: _CoefficientMap, curved, polytope: bool = False) -> Fa
 
     D = cmap.dims
     n_curved = int(np.sum(curved))
-    cuts = SUBDIVISIONS if n_curved <= 2 else max(2, SUBDIVISIONS // 2)
+    # the lattice has 2^(straight coordinates) x (cuts + 1)^(curved ones) points: halve the
+    # slices when many coordinates (or several curved ones) would make it large
+    cuts = SUBDIVISIONS if n_curved <= 2 and D <= 6 else max(2, SUBDIVISIONS // 2)
     axes = [np.linspace(0.0, 1.0, cuts + 1) if curved[i] else np.array([0.0, 1.0])
             for i in range(D)]
     shape = tuple(a.size for a in axes)
@@ -926,7 +954,9 @@ def _zero_exclusion(cmap: _CoefficientMap, curved, polytope: bool = False) -> Fa
                                + (f", plant-gain factor {f:.4g}" if f else ""), approximate)
     # the value set on a grid around the polynomials' own frequency scale
     w0 = frequency_scale(*C)
-    z = np.geomspace(10 ** -_ZE_DECADES, 10 ** _ZE_DECADES, _ZE_POINTS)
+    # the grid thins (never below half) when the lattice is large: bounded work per test
+    n_z = int(max(_ZE_POINTS // 2, min(_ZE_POINTS, _ZE_BUDGET // max(1, U.shape[0]))))
+    z = np.geomspace(10 ** -_ZE_DECADES, 10 ** _ZE_DECADES, n_z)
     from synth.numerics.scaling import scale_variable
 
     Cz = np.array([scale_variable(c, w0) for c in C])
