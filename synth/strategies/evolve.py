@@ -334,13 +334,16 @@ def _converged(intermediate_result) -> bool:
     return bool(np.std(E) <= _DE_TOL * abs(float(np.mean(E))))
 
 
-def _polish_iterations(p: int, budget: int) -> int:
+def _polish_iterations(p: int, budget: int, n_models: int = 1) -> int:
     """Compass iterations the polish gets: ``_POLISH_ITERATIONS``, fewer on a tight budget.
 
     Scoring every row on several plant models leaves fewer rows per family;
     the polish then takes at most half of them (never fewer than
     ``_MIN_POLISH_ITERATIONS``), so the evolution keeps generations of its own.
+    A single plant keeps the full polish (its runs are unchanged).
     """
+    if n_models <= 1:
+        return _POLISH_ITERATIONS
     per_iteration = (2 * p + 1) * (_N_POLISH + _N_PRIOR_POLISH)
     fit = (budget // 2 - 20) // per_iteration
     return int(max(_MIN_POLISH_ITERATIONS, min(_POLISH_ITERATIONS, fit)))
@@ -399,7 +402,7 @@ class EvolveStrategy:
             init[i] = x
         # the evolution costs npop rows per generation plus the initial population
         # each generation costs npop rows, plus the initial population of each run
-        polish_iterations = _polish_iterations(p, budget)
+        polish_iterations = _polish_iterations(p, budget, objective.n_models)
         rows = budget - _polish_reserve(p, polish_iterations)
         generations = rows // npop - 1
         pops, energies_list, labels = [], [], []

@@ -430,12 +430,13 @@ def _verify_models(problem, controller, exact_delay: bool, depth: str, setup) ->
             dict(p.point) == dict(counter.point) and not p.label and not r.stable
             for p, r in results)
         if not shown:
-            factor = (f" (plant-gain factor {stability.factor:.4g})"
-                      if stability.factor is not None else "")
             violations.append(f"robust stability over the ranges not certified by the "
-                              f"{stability.test}: {stability.detail}{factor}")
-            short["robust_stability"] = 1.0 if counter is None else _UNSTABLE_SHORTFALL
-            if counter is not None and stability.factor is None:
+                              f"{stability.test}: {stability.detail}")
+            # an unstable member at plant-gain factor 1 is an unstable loop; one only at
+            # another factor, or no member found, weighs like a missed limit
+            at_one = counter is not None and stability.factor in (None, 1.0)
+            short["robust_stability"] = _UNSTABLE_SHORTFALL if at_one else 1.0
+            if at_one:
                 stable = False
     _check_limits(problem.requirements, metrics, witnesses, stable, violations, short,
                   worst=worst)
