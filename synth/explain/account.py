@@ -545,7 +545,10 @@ def explain_problem(problem) -> Explanation:
     models = explain_models(problem)
     if models is not None:
         more = models.sentences()
-        reasons.append(Reason("models", 0, more[0], models.to_json()))
+        reasons.append(Reason("models", 0, more[0], {
+            "stabilizing": [list(iv) for iv in models.stabilizing],
+            "requirement": [list(iv) for iv in models.requirement],
+            "models_checked": models.checked}))
         reasons.extend(Reason("models", 0, text, {}) for text in more[1:])
     cand = list(reg_in)
     if models is not None:
