@@ -359,3 +359,32 @@ def test_samples_come_from_the_seed():
     assert pa == [p.point for p in b.samples]
     assert pa != [p.point for p in c.samples]
     assert math.isclose(len(pa), 8)
+
+
+def test_an_interior_worst_case_is_found_against_a_scipy_sweep():
+    # the mode's damping 0.3 + (p - 1)^2 is least at p = 1, inside the range [0, 2]: the corners
+    # are the best models there, so only the samples and the local search can find the worst
+    # (scipy.signal.freqresp over 201 values of p)
+    problem = problem_from_text("""
+[plant]
+expression = "1/((s + 1)*(s^2 + (0.3 + (p - 1)^2)*s + 1))"
+[plant.parameters]
+p = 0.2
+[plant.ranges]
+p = [0.0, 2.0]
+[requirements]
+max_peak_sensitivity = 5
+""")
+    num_c, den_c = [0.3, 0.1], [1.0, 0.0]
+    v = verify(problem, num_c, den_c)
+    w = np.geomspace(1e-2, 1e2, 20001)
+    sweep = []
+    for p in np.linspace(0.0, 2.0, 201):
+        den = np.polymul([1, 1], [1, 0.3 + (p - 1) ** 2, 1])
+        _, L = signal.freqresp(signal.TransferFunction(num_c, np.polymul(den_c, den)), w)
+        sweep.append((float(np.max(1.0 / np.abs(1.0 + L))), p))
+    worst, p_worst = max(sweep)
+    assert p_worst == pytest.approx(1.0)
+    case = v.worst_case["peak_sensitivity"]
+    assert case.value == pytest.approx(worst, rel=0.01)
+    assert dict(case.model.point)["p"] == pytest.approx(1.0, abs=0.05)
