@@ -388,3 +388,39 @@ max_peak_sensitivity = 5
     case = v.worst_case["peak_sensitivity"]
     assert case.value == pytest.approx(worst, rel=0.01)
     assert dict(case.model.point)["p"] == pytest.approx(1.0, abs=0.05)
+
+
+@pytest.mark.parametrize("a", [1e-4, 1e5])
+def test_robust_verdict_is_the_same_at_any_time_scale(a):
+    # s -> s/a maps a loop to one a times faster: dimensionless metrics are unchanged and
+    # times shrink by a (frequency scaling, common practice); the worst cases sit at the same
+    # point of the ranges, the dead time scaled with the rest
+    def problem(scale):
+        return problem_from_text(f"""
+[plant]
+expression = "k/((T*s/{scale} + 1)*(s/{scale} + 1))"
+dead_time = {0.3 / scale}
+[plant.parameters]
+k = 1.5
+T = 1.0
+[plant.ranges]
+k = [1.0, 2.5]
+T = [0.4, 2.5]
+dead_time = [{0.1 / scale}, {0.5 / scale}]
+[requirements]
+max_overshoot_percent = 40
+max_settling_time = {30 / scale}
+plant_gain_range = [0.8, 1.2]
+""")
+    ref = verify(problem(1.0), [1.0, 0.5], [1.0, 0.0])
+    v = verify(problem(a), [1.0, 0.5 * a], [1.0, 0.0])
+    assert v.feasible == ref.feasible and len(v.violations) == len(ref.violations)
+    for key in ("peak_sensitivity", "overshoot_percent", "phase_margin_deg"):
+        assert v.worst_case[key].value == pytest.approx(ref.worst_case[key].value, rel=1e-6)
+    assert v.worst_case["settling_time"].value == pytest.approx(
+        ref.worst_case["settling_time"].value / a, rel=1e-6)
+    for key in ("peak_sensitivity", "settling_time"):
+        p, q = dict(v.worst_case[key].model.point), dict(ref.worst_case[key].model.point)
+        assert p["k"] == pytest.approx(q["k"]) and p["T"] == pytest.approx(q["T"])
+        assert p["dead_time"] * a == pytest.approx(q["dead_time"])
+    assert v.robustness["stability_certified"] == ref.robustness["stability_certified"]
