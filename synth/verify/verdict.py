@@ -380,7 +380,7 @@ def verify(problem, num_c, den_c=None, exact_delay: bool = True, *, depth: str =
 
 def _verify_models(problem, controller, exact_delay: bool, depth: str, setup) -> Verdict:
     """:func:`verify` over several plant models (see there)."""
-    from synth.verify.robust import explore, family_stability, robust_setup
+    from synth.verify.robust import Exploration, explore, family_stability, robust_setup
 
     setup = robust_setup(problem) if setup is None else setup
     full = depth == "full"
@@ -390,14 +390,18 @@ def _verify_models(problem, controller, exact_delay: bool, depth: str, setup) ->
 
     results = [run(setup.nominal)]
     stability = None
+    # an unstable nominal loop fails whatever the other models do: no search of the box
+    searched = results[0][1].stable
     if full:
         results += [run(p) for p in setup.variants]
-        found = explore(problem, controller, setup, full=True)
+        found = (explore(problem, controller, setup, full=True) if searched
+                 else Exploration())
         seen = [dict(setup.nominal.point)]
-        stability = family_stability(problem, controller, setup)
         extra = [*found.unstable, *found.worst_points]
-        if stability.counterexample is not None:
-            extra.append(stability.counterexample)
+        if searched:
+            stability = family_stability(problem, controller, setup)
+            if stability.counterexample is not None:
+                extra.append(stability.counterexample)
         for p in extra:
             if dict(p.point) not in seen:  # each point of the ranges once
                 seen.append(dict(p.point))
@@ -405,7 +409,8 @@ def _verify_models(problem, controller, exact_delay: bool, depth: str, setup) ->
         estimated: dict = {}
         unstable_estimates: tuple = ()
     else:
-        found = explore(problem, controller, setup, full=False, include_variants=True)
+        found = (explore(problem, controller, setup, full=False, include_variants=True)
+                 if searched else Exploration())
         estimated = found.worst
         unstable_estimates = found.unstable
 
