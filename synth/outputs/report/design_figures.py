@@ -351,24 +351,29 @@ def draw_model_steps(target, models, requirements=None, title: str | None = None
     for a in (ax, ax2):
         _style(a)
     t_max = 0.0
-    marked = False
+    marked = 0
     for m in models:
         step = m.curves.step
         if step is None:
             continue
         worst = [k for k in m.worst_for if k in _STEP_METRICS]
+        style = "-"
         if worst:
+            # each worst-case model its own dash pattern, so two of them stay apart
             color, width, z = PALETTE["limit"], 1.8, 3
+            style = ("-", "--", "-.", ":")[marked % 4]
             label = (f"worst case ({', '.join(METRICS[k].label for k in worst)}): {m.name}")
-            marked = True
+            marked += 1
         elif m.name == "nominal":
             color, width, z = PALETTE["response"], 1.5, 2
             label = "nominal"
         else:
             color, width, z = PALETTE["muted"], 0.9, 1
             label = m.name
-        ax.plot(step.t, step.y, color=color, linewidth=width, zorder=z, label=label)
-        ax2.plot(step.t, step.u, color=color, linewidth=width * 0.8, zorder=z)
+        ax.plot(step.t, step.y, color=color, linewidth=width, zorder=z, label=label,
+                linestyle=style)
+        ax2.plot(step.t, step.u, color=color, linewidth=width * 0.8, zorder=z,
+                 linestyle=style)
         t_max = max(t_max, float(step.t[-1]))
     ax.axhline(1.0, color=PALETTE["muted"], linewidth=0.7)
     os_limit = None if requirements is None else requirements.limit("overshoot_percent")
@@ -389,7 +394,7 @@ def draw_model_steps(target, models, requirements=None, title: str | None = None
     if t_max > 0:
         view = 1.5 * ts if ts is not None and 1.5 * ts < t_max else t_max
         ax2.set_xlim(0.0, view)
-    ax.legend(fontsize=6.5, loc="lower right", framealpha=0.9)
+    ax.legend(fontsize=6, loc="lower right", framealpha=0.9, ncol=2)
     if title:
         ax.set_title(title + ("" if marked else " (the nominal plant is the worst case)"),
                      fontsize=9.5, color=PALETTE["ink"], loc="left")

@@ -492,8 +492,9 @@ def _model_blocks(report: ReportInput, design: DesignRecord, fig: DesignFigures)
         rows.append((METRICS[key].title, _metric_text(key, case.get("value")),
                      _model_text(case.get("model")) + (" (estimate)" if case.get("estimated")
                                                         else "")))
-    blocks.append(Para("Every value in the table above is the worst over the plant models; "
-                       "this is where each occurs.", "muted"))
+    blocks.append(Para("The root locus, Bode and sensitivity figures above are drawn for the "
+                       "nominal plant; every value in the performance table is the worst over "
+                       "the plant models, and this is where each occurs.", "muted"))
     blocks.append(Table(("metric", "worst value", "model"), tuple(rows),
                         numeric=(False, True, False)))
     rob = design.robustness or {}
