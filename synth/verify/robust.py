@@ -549,7 +549,8 @@ def explore(problem, controller, setup: RobustSetup, *, full: bool = True,
             found.append(point)
     # the points to evaluate exactly: local-search results, then the worst of each
     # required metric (the other metrics are worst cases over the exact evaluations)
-    required = [e.metric for e, _ in req.limits() if e.metric in keys]
+    # (with no limit on any of them, the worst screened point of every metric instead)
+    required = [e.metric for e, _ in req.limits() if e.metric in keys] or keys
     exact: list[ModelPoint] = list(found)
     for key in required:
         if key in worst and worst[key][1].kind in ("vertex", "sample"):
