@@ -186,19 +186,19 @@ def test_plant_gain_range_is_one_more_coordinate_of_the_box():
 # ----------------------------------------------------------------------------------------------
 
 
-_BOX = """
-[plant]
-expression = "k/((T*s + 1)*(s + 1))"
-[plant.parameters]
-k = 1.5
-T = 1.0
-[plant.ranges]
-k = [1.0, 2.5]
-T = [0.4, 2.5]
-[requirements]
-max_overshoot_percent = 40
-max_peak_sensitivity = 3.0
-"""
+def _box(scale: float = 1.0, dead_time: bool = False, requirements: str = "") -> str:
+    """``k/((T s + 1)(s + 1))`` over a box of k and T (and of the dead time), time scaled by
+    ``s -> s/scale``."""
+    dead = (f"dead_time = {0.3 / scale}\n", f"dead_time = [{0.1 / scale}, {0.5 / scale}]\n") \
+        if dead_time else ("", "")
+    return (f'[plant]\nexpression = "k/((T*s/{scale} + 1)*(s/{scale} + 1))"\n{dead[0]}'
+            "[plant.parameters]\nk = 1.5\nT = 1.0\n"
+            f"[plant.ranges]\nk = [1.0, 2.5]\nT = [0.4, 2.5]\n{dead[1]}"
+            "[requirements]\n" + (requirements or "max_overshoot_percent = 40\n"
+                                   "max_peak_sensitivity = 3.0\n"))
+
+
+_BOX = _box()
 
 
 def _grid_metrics(num_c, den_c, ks, Ts):
@@ -250,9 +250,7 @@ def test_worst_case_over_a_box_against_a_dense_scipy_grid():
 
 def test_worst_case_with_a_dead_time_range_against_scipy_freqresp():
     # the exact delay in L(jw) = C G(jw) exp(-j w theta), swept over a grid of the box
-    problem = problem_from_text(_BOX.replace('T = 1.0\n', 'T = 1.0\n').replace(
-        "[plant.parameters]", "dead_time = 0.3\n[plant.parameters]").replace(
-        "T = [0.4, 2.5]", "T = [0.4, 2.5]\ndead_time = [0.1, 0.5]"))
+    problem = problem_from_text(_box(dead_time=True))
     num_c, den_c = [1.0, 0.5], [1.0, 0.0]
     v = verify(problem, num_c, den_c)
     w = np.geomspace(1e-3, 1e2, 20001)
@@ -396,22 +394,10 @@ def test_robust_verdict_is_the_same_at_any_time_scale(a):
     # times shrink by a (frequency scaling, common practice); the worst cases sit at the same
     # point of the ranges, the dead time scaled with the rest
     def problem(scale):
-        return problem_from_text(f"""
-[plant]
-expression = "k/((T*s/{scale} + 1)*(s/{scale} + 1))"
-dead_time = {0.3 / scale}
-[plant.parameters]
-k = 1.5
-T = 1.0
-[plant.ranges]
-k = [1.0, 2.5]
-T = [0.4, 2.5]
-dead_time = [{0.1 / scale}, {0.5 / scale}]
-[requirements]
-max_overshoot_percent = 40
-max_settling_time = {30 / scale}
-plant_gain_range = [0.8, 1.2]
-""")
+        return problem_from_text(_box(scale, dead_time=True, requirements=(
+            f"max_overshoot_percent = 40\nmax_settling_time = {30 / scale}\n"
+            "plant_gain_range = [0.8, 1.2]\n")))
+
     ref = verify(problem(1.0), [1.0, 0.5], [1.0, 0.0])
     v = verify(problem(a), [1.0, 0.5 * a], [1.0, 0.0])
     assert v.feasible == ref.feasible and len(v.violations) == len(ref.violations)
