@@ -25,10 +25,14 @@ Strategy errors.  A strategy that raises :class:`synth.errors.StrategyDeclined`
 for a family is recorded in ``search.declined``; any other exception (a
 user error of another kind, or a bug) propagates.
 
-Dead time.  All candidates are first verified with the Pade form in the
-simulation (quick); then, in rank order, each design that would be reported
-is re-verified with the exact delay and the ranking recomputed, until every
-reported design carries an exact-delay verdict.
+Dead time and several plant models.  All candidates are first verified
+quickly: with the Pade form of a dead time in the simulation, and, when the
+problem has ranges or variants, with only the nominal plant evaluated exactly
+and the other models screened by estimates (``verify(..., depth="quick")``).
+Then, in rank order, each design that would be reported is verified fully
+(exact delay; every model, local worst-case searches, the robust stability
+test) and the ranking recomputed, until every reported design carries a full
+verdict.
 
 Sampling.  With ``[sampling]``, every design that would be reported is then
 mapped to its discrete controller and checked in the sampled loop
@@ -180,12 +184,14 @@ class DesignRun:
 # ----------------------------------------------------------------------------
 
 
-def _verify_all(problem, cands, exact: bool, actuator: bool = True) -> list:
-    return [verify(problem, c.controller, exact_delay=exact, actuator=actuator)
+def _verify_all(problem, cands, exact: bool, actuator: bool = True, depth: str = "full",
+                setup=None) -> list:
+    return [verify(problem, c.controller, exact_delay=exact, actuator=actuator, depth=depth,
+                   setup=setup)
             for c in cands]
 
 
-def _final_verification(problem, pairs) -> tuple[list, dict[str, Any]]:
+def _final_verification(problem, pairs, setup=None) -> tuple[list, dict[str, Any]]:
     """Re-verify, in rank order, every design that would be reported, until all of them are final.
 
     The first pass verified every candidate quickly: the Pade form of a dead
@@ -203,10 +209,10 @@ def _final_verification(problem, pairs) -> tuple[list, dict[str, Any]]:
     # the stage's matrices are tiny (a dozen states): BLAS threads only wait for each other,
     # and on a busy machine a 10x10 matrix exponential then takes milliseconds, not microseconds
     with threadpool_limits(limits=1, user_api="blas"):
-        return _final_loop(problem, list(pairs))
+        return _final_loop(problem, list(pairs), setup)
 
 
-def _final_loop(problem, pairs) -> tuple[list, dict[str, Any]]:
+def _final_loop(problem, pairs, setup=None) -> tuple[list, dict[str, Any]]:
     """The loop of :func:`_final_verification`."""
     from synth.windup import finish_anti_windup
 
@@ -233,7 +239,7 @@ def _final_loop(problem, pairs) -> tuple[list, dict[str, Any]]:
                 index[id(c)] = i
                 tuned += 1
                 work += done.work
-            pairs[i] = (c, verify(problem, c.controller))
+            pairs[i] = (c, verify(problem, c.controller, setup=setup))
             final[i] = True
     out: dict[str, Any] = {}
     if actuator:
@@ -326,12 +332,25 @@ def run_design(problem, strategies=None, families=None,
         per_family[fam.name] = round(time.monotonic() - start, 3)
     search_seconds = time.monotonic() - t_search
 
-    dead = problem.plant.dead_time > 0
-    verdicts = _verify_all(problem, candidates, exact=not dead, actuator=False)
+    # first pass: quick verdicts (the Pade form of a dead time in the simulation; with
+    # several plant models, only the nominal one evaluated exactly; the actuator's limits left
+    # out); then every design that would be reported gets the full verdict, in rank order,
+    # until all have one (with the anti-windup finishing stage when there is an actuator)
+    models = problem.model_set
+    robust = not models.is_single
+    setup = None
+    if robust:
+        from synth.verify.robust import robust_setup
+
+        setup = robust_setup(problem)
+    dead = any(p.dead_time > 0 for p in (problem.plant, *(v.plant for v in models.variants))) \
+        or any(r.name == "dead_time" for r in models.ranges)
+    verdicts = _verify_all(problem, candidates, exact=not dead, actuator=False,
+                           depth="quick" if robust else "full", setup=setup)
     pairs = list(zip(candidates, verdicts, strict=True))
     finishing: dict[str, Any] = {}
-    if dead or problem.actuator is not None:
-        pairs, finishing = _final_verification(problem, pairs)
+    if dead or robust or problem.actuator is not None:
+        pairs, finishing = _final_verification(problem, pairs, setup)
     ranked = rank_designs(pairs, problem)
     sampled: tuple = ()
     if problem.sampling is not None:
@@ -377,6 +396,35 @@ def _sampled_stage(problem, pairs: list) -> tuple[list, tuple]:
 # ----------------------------------------------------------------------------
 # what a report of a run shows
 # ----------------------------------------------------------------------------
+
+
+def _model_curves(problem, document, design) -> tuple:
+    """Per-model curves of one design: nominal, variants and each worst-case model.
+
+    Empty for a single plant.  Models are rebuilt from the document
+    (:meth:`synth.outputs.document.DesignDocument.model_plant`), the way any
+    reader of the JSON would.
+    """
+    from synth.verify.curves import model_curves
+
+    if problem.model_set.is_single or not design.worst_case:
+        return ()
+    wanted: list[tuple[str, object, list[str]]] = [("nominal", "nominal", [])]
+    for v in problem.model_set.variants:
+        wanted.append((v.label, v.label, []))
+    for metric, case in design.worst_case.items():
+        model = case.get("model")
+        plain = dict(model) if not isinstance(model, str) else model
+        for _name, m, worst in wanted:
+            if m == plain:
+                worst.append(metric)
+                break
+        else:
+            from synth.problem.models import point_text
+
+            wanted.append((point_text(plain), plain, [metric]))
+    return model_curves(problem, design.compensator.num, design.compensator.den,
+                        [(name, m, document.model_plant(m), worst) for name, m, worst in wanted])
 
 
 def prepare_report(problem, doc: dict, explanation=None, top: int | None = None,
@@ -445,6 +493,7 @@ def prepare_report(problem, doc: dict, explanation=None, top: int | None = None,
                                problem.requirements.limit("settling_time"), horizon)
             swept = gain_sweep(problem, controller, t_end=span)
         figures.append(DesignFigures(rank=d.rank, curves=own, locus=trace, locus_gain=gain,
-                                     locus_note=note, sweep=swept))
+                                     locus_note=note, sweep=swept,
+                                     models=_model_curves(problem, document, d)))
     return ReportInput(problem=problem, document=document, explanation=explanation,
                        figures=tuple(figures), frontier=frontier)

@@ -24,3 +24,22 @@ def hand_design(rank, structure, num, den, plant_num, plant_den, feasible=True,
                             "gain": float(num[0] / den[0])},
             "closed_loop_poles": [[float(r.real), float(r.imag)] for r in cl],
             "metrics": dict(metrics or {}), "violations": list(violations)}
+
+
+#: A servo whose load changes: the nominal plant and two variants, as a requirements file's
+#: [plant] table, and the same three models as (numerator, denominator) for numpy.
+THREE_LOADS = """
+[plant]
+numerator = [1.0]
+denominator = [1.0, 2.0, 0.0]
+[[plant.variants]]
+label = "heavy"
+numerator = [0.5]
+denominator = [1.0, 1.0, 0.0]
+[[plant.variants]]
+label = "light"
+numerator = [2.0]
+denominator = [1.0, 4.0, 0.0]
+"""
+THREE_LOADS_POLYS = {"nominal": ([1.0], [1, 2, 0]), "heavy": ([0.5], [1, 1, 0]),
+                     "light": ([2.0], [1, 4, 0])}

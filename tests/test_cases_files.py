@@ -164,6 +164,37 @@ def test_satellite_axis_is_a_double_integrator_with_a_lightly_damped_mode():
     assert np.all(np.abs(zeros) < np.abs(mode).min())  # collocated: zero pair below the mode
 
 
+def test_pasteuriser_ranges_follow_from_the_flows():
+    # gain 3.6/Q K per %, lag 200/Q s, holding-tube delay volume/flow = 0.02 m3 * 3600 / Q s
+    # for Q from 6 to 10 m3/h, nominal at 8 (first-order lag and plug flow, common practice)
+    problem = _load("pasteuriser-flow-range.toml")
+    ranges = {r.name: (r.lo, r.hi, r.nominal) for r in problem.models.ranges}
+    k, lag, delay = (lambda q: 3.6 / q), (lambda q: 200.0 / q), (lambda q: 0.02 * 3600 / q)
+    assert ranges["k"] == pytest.approx((k(10), k(6), k(8)))
+    assert ranges["dead_time"] == pytest.approx((delay(10), delay(6), delay(8)))
+    lo, hi, nominal = ranges["T"]
+    assert lo == pytest.approx(lag(10)) and nominal == pytest.approx(lag(8))
+    assert lag(6) <= hi <= lag(6) * 1.01
+    # the plant at the low-flow corner: k / ((T s + 1)(3 s + 1)) multiplied out (numpy.polymul)
+    corner = problem.models.plant_at({"k": k(6), "T": lag(6), "dead_time": delay(6)})
+    assert _monic(corner.rational_den) == pytest.approx(_monic(np.polymul([lag(6), 1], [3, 1])))
+    assert corner.dc_gain() == pytest.approx(k(6)) and corner.dead_time == pytest.approx(12.0)
+
+
+def test_indexing_table_variants_follow_from_the_inertias():
+    # theta / i = Kt / ((J s^2 + b s)(0.001 s + 1)), Newton's second law with a 1 ms current
+    # loop (common practice); J = 6e-4 (nominal), 3e-4 (empty), 9e-4 (full load)
+    problem = _load("indexing-table-loads.toml")
+    kt, b = 0.5, 0.001
+    models = [("nominal", problem.plant)] + [(v.label, v.plant) for v in problem.models.variants]
+    inertia = {"nominal": 6e-4, "empty table": 3e-4, "full load": 9e-4}
+    assert [m for m, _ in models] == list(inertia)
+    for name, plant in models:
+        den = np.polymul([inertia[name], b, 0.0], [0.001, 1.0])
+        assert plant.rational_den == pytest.approx(tuple(den), rel=1e-12)
+        assert plant.rational_num == pytest.approx((kt,))
+
+
 # ----------------------------------------------------------------------------------------------
 # structural claims
 # ----------------------------------------------------------------------------------------------

@@ -300,7 +300,7 @@ def test_step_test_plant_in_a_requirements_file(tmp_path):
 
 
 @pytest.mark.parametrize("extra,key,what", [
-    ("ranges_from_fit = 2.0\n", "plant.step_test.ranges_from_fit", "parametric plant support"),
+    ("ranges_from_fit = -2.0\n", "plant.step_test.ranges_from_fit", "positive number"),
     ('model = "third-order"\n', "plant.step_test.model", "unknown model"),
     ("window = 3\n", "plant.step_test.window", "unknown key"),
 ])
@@ -314,6 +314,30 @@ def test_step_test_table_errors(tmp_path, extra, key, what):
         load_problem(toml)
     assert key in str(info.value) and what in str(info.value)
     assert str(toml) in str(info.value)
+
+
+def test_ranges_from_fit_give_the_parametric_plant(tmp_path):
+    # the box is the fit's own estimate +- n standard errors (FitResult.ranges, computed
+    # from the covariance of scipy.optimize.least_squares), and its centre is the fitted plant
+    rng = np.random.default_rng(12)
+    _write_reference_csv(tmp_path / "bump.csv", reference_test(1.0, (4.0,), 1.0, False, rng=rng))
+    toml = tmp_path / "loop.toml"
+    toml.write_text('[plant]\n[plant.step_test]\ndata = "bump.csv"\nmodel = "first-order"\n'
+                    'ranges_from_fit = 2.0\n')
+    problem = load_problem(toml)
+    fit = fit_step_test(tmp_path / "bump.csv", "first-order")
+    models = problem.models
+    assert models.expression == "k/(T*s + 1)"
+    expected = fit.ranges(2.0)
+    assert {r.name: (r.lo, r.hi) for r in models.ranges} == expected
+    assert dict(models.parameters) == {"k": fit.gain, "T": fit.time_constants[0]}
+    # the nominal plant is the fitted model: gain k and pole -1/T
+    assert problem.plant.dc_gain() == pytest.approx(fit.gain, rel=1e-12)
+    assert np.roots(problem.plant.rational_den) == pytest.approx([-1 / fit.time_constants[0]])
+    assert problem.plant.dead_time == fit.dead_time
+    # a corner of the box is the model at the range ends
+    corner = models.plant_at({"k": expected["k"][1], "T": expected["T"][0]})
+    assert corner.dc_gain() == pytest.approx(expected["k"][1], rel=1e-12)
 
 
 def test_template_without_data_is_refused_by_design():

@@ -73,6 +73,15 @@ def expressions(draw):
     return "".join(draw(st.lists(st.sampled_from(_TOKENS), min_size=1, max_size=25)))
 
 
+# parameter names: ordinary, the Laplace variable, the dead time, not names at all, huge
+_NAMES = ["k", "T", "tau", "s", "dead_time", "2x", "", "a b", "T" * 300]
+_RANGES = st.one_of(st.lists(NUMBERS, min_size=2, max_size=2), NUMBER_LISTS)
+_VARIANTS = st.fixed_dictionaries({}, optional={
+    "label": TEXT, "numerator": NUMBER_LISTS, "denominator": NUMBER_LISTS,
+    "expression": st.one_of(st.sampled_from(["k/(s+1)", "k/(T*s+1)", "1/s"]), TEXT),
+    "dead_time": VALUES, "gain": VALUES})
+
+
 @st.composite
 def plants(draw):
     forms = draw(st.lists(st.sampled_from(["coefficients", "roots", "expression"]),
@@ -96,6 +105,17 @@ def plants(draw):
     for key, values in (("label", TEXT), ("dead_time", VALUES), ("dead_time_order", VALUES)):
         if draw(st.integers(0, 3)) == 3:
             t[key] = draw(values)
+    # uncertain and multiple plants: parameters, their ranges, variants
+    if draw(st.integers(0, 3)) == 3:
+        t["parameters"] = draw(st.one_of(st.dictionaries(st.sampled_from(_NAMES), VALUES,
+                                                         max_size=3), WRONG))
+        if isinstance(t.get("expression"), str) and draw(st.booleans()):
+            t["expression"] = f"({t['expression']})*k/(T*s + 1)"
+    if draw(st.integers(0, 3)) == 3:
+        t["ranges"] = draw(st.one_of(st.dictionaries(st.sampled_from(_NAMES), _RANGES,
+                                                     max_size=3), WRONG))
+    if draw(st.integers(0, 4)) == 4:
+        t["variants"] = draw(st.one_of(st.lists(_VARIANTS, max_size=3), WRONG))
     return t
 
 

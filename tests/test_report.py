@@ -19,7 +19,7 @@ from html.parser import HTMLParser
 
 import numpy as np
 import pytest
-from handmade import hand_design
+from handmade import THREE_LOADS, THREE_LOADS_POLYS, hand_design
 from scipy.signal import freqresp
 
 from synth.design import prepare_report
@@ -427,3 +427,44 @@ def test_report_for_a_bundled_case_from_the_real_pipeline(tmp_path):
     ms = float(np.max(np.abs(1.0 / (1.0 + L))))
     # printed to 3 significant digits
     assert _svg_peak(sec) == pytest.approx(ms, abs=0.51 * 10 ** (math.floor(math.log10(ms)) - 2))
+
+
+def test_report_overlays_the_models_and_marks_the_worst_case(tmp_path):
+    # three loads of a servo; the report draws each model's step response (the verifier's
+    # curves, checked here against scipy.signal.step on each model) and the worst-case table
+    from scipy.signal import step
+
+    from synth.design import run_design
+    from synth.outputs.report.document import MODEL_FIGURE
+
+    problem = problem_from_text(THREE_LOADS + """
+[requirements]
+max_overshoot_percent = 10.0
+min_phase_margin_deg = 45.0
+[search]
+structures = ["lead"]
+effort = 0.2
+keep = 1
+""", "loads.toml")
+    doc = add_implementation_forms(run_design(problem).to_json())
+    report = prepare_report(problem, doc, top=1)
+    models = report.figures[0].models
+    assert [m.name for m in models][:3] == ["nominal", "heavy", "light"]
+    polys = THREE_LOADS_POLYS
+    c = doc["designs"][0]["compensator"]
+    for m in models[:3]:
+        n, d = polys[m.name]
+        num_l = np.polymul(c["numerator"], n)
+        cl = np.polyadd(np.polymul(c["denominator"], d), num_l)
+        t = m.curves.step.t
+        _, y = step((num_l, cl), T=t)
+        assert np.max(np.abs(y - m.curves.step.y)) < 2e-3
+    worst = doc["designs"][0]["worst_case"]["overshoot_percent"]["model"]
+    assert "overshoot_percent" in next(m for m in models if m.model == worst).worst_for
+    written = document.write_report(report, tmp_path / "loads")
+    page = _Page()
+    html_text = written[0].read_text(encoding="utf-8")
+    page.feed(html_text)
+    assert page.figures == [*FIGURE_KINDS, MODEL_FIGURE]
+    assert "Over the plant models" in html_text and "worst value" in html_text
+    assert "Plant models (every requirement must hold for all)" in html_text

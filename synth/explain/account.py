@@ -59,6 +59,7 @@ from synth.explain.gain import (
     trap_reason,
     zero_reason,
 )
+from synth.explain.models import ModelsAccount, explain_models
 from synth.explain.structure import StructuralFacts, structural_facts
 from synth.locus.core import marginal_intervals, region_gain_intervals, stable_gain_intervals
 from synth.numerics.scaling import LoopScaling
@@ -266,6 +267,7 @@ class Explanation:
     warnings: tuple[Caution, ...]
     suggestions: tuple[Suggestion, ...]
     fact_lines: tuple[str, ...]
+    models: ModelsAccount | None = None
 
     @property
     def reasons(self) -> list[str]:
@@ -325,6 +327,8 @@ class Explanation:
             "suggestions": [s.to_json() for s in self.suggestions],
             "suggested_structures": list(self.suggested_structures),
         }
+        if self.models is not None:
+            out["proportional"]["models"] = self.models.to_json()
         return clean(out)
 
     def text_lines(self) -> list[str]:
@@ -352,6 +356,16 @@ class Explanation:
             lo, hi = self.plant_gain_range
             lines.append(f"  stable for every plant-gain factor in [{f.num(lo)}, {f.num(hi)}]: "
                          f"{f.intervals(self.robust_stabilizing, none='none')}")
+        if self.models is not None:
+            m = self.models
+            lines.append(f"  for every plant model ({m.checked} checked): stabilises for "
+                         f"{f.intervals(m.stabilizing, none='no real gain')}"
+                         + ("" if self.region.is_stability_only else
+                            f"; region {f.intervals(m.requirement, none='no real gain')}"))
+            for lim in m.limits:
+                lines.append(f"    {'lower' if lim.end == 'low' else 'upper'} end "
+                             f"{f.num(lim.gain)} ({'stabilising' if lim.which == 'stabilizing' else 'region'}) "
+                             f"set by {lim.model.name}")
         lines.append(f"  passes every check here: "
                      f"{f.intervals(self.candidate_gain_intervals, none='none')}")
         thin = (marginal_intervals(self.stabilizing_gain_intervals)
@@ -528,7 +542,20 @@ def explain_problem(problem) -> Explanation:
                                "stabilizing": [list(iv) for iv in rob_stab],
                                "requirement": [list(iv) for iv in rob_reg]}))
 
+    models = explain_models(problem)
+    if models is not None:
+        more = models.sentences()
+        reasons.append(Reason("models", 0, more[0], {
+            "stabilizing": [list(iv) for iv in models.stabilizing],
+            "requirement": [list(iv) for iv in models.requirement],
+            "models_checked": models.checked}))
+        reasons.extend(Reason("models", 0, text, {}) for text in more[1:])
     cand = list(reg_in)
+    if models is not None:
+        # stability for every model (the region, like the search, is aimed at the nominal)
+        cand = intersect_all(cand, models.stabilizing)
+        if pgr:
+            cand = intersect_all(cand, robust_intervals(models.stabilizing, *pgr))
     if rob_stab is not None:
         # the plant-gain tolerance asks for stability at every factor (the region
         # is asked at the nominal plant), as the design verifier judges it
@@ -572,7 +599,7 @@ def explain_problem(problem) -> Explanation:
         strongly_stabilizable=facts.strongly_stabilizable, facts=facts, crossings=crossings,
         asymptotes=(asym[1], asym[-1]), reason_details=tuple(reasons), best=best,
         warnings=tuple(warnings), suggestions=tuple(suggestions),
-        fact_lines=tuple(fact_sentences(facts)))
+        fact_lines=tuple(fact_sentences(facts)), models=models)
 
 
 def _snap(ivs, scale: float) -> list[Interval]:

@@ -63,7 +63,7 @@ from typing import ClassVar
 
 import numpy as np
 
-from synth.numerics.poly import scaled_roots, trim
+from synth.numerics.poly import batch_polymul, left_pad, scaled_roots, trim
 from synth.problem.plant import describe_factored
 
 #: Default bound on compensator pole and zero magnitudes, relative to the problem's
@@ -277,22 +277,10 @@ def _stack(*cols):
     return np.stack(cols, axis=1)
 
 
-def _mul_rows(a, b):
-    """Row-wise product of two batches of polynomials."""
-    B = a.shape[0]
-    out = np.zeros((B, a.shape[1] + b.shape[1] - 1))
-    for j in range(b.shape[1]):
-        out[:, j:j + a.shape[1]] += a * b[:, j:j + 1]
-    return out
-
-
-def _lpad(P, width):
-    """Pad a batch of polynomials with leading zeros to ``width`` columns."""
-    if P.shape[1] == width:
-        return P
-    out = np.zeros((P.shape[0], width))
-    out[:, width - P.shape[1]:] = P
-    return out
+#: Row-wise product of two batches of polynomials (one per row each).
+_mul_rows = batch_polymul
+#: Pad a batch of polynomials with leading zeros to ``width`` columns.
+_lpad = left_pad
 
 
 def _as_batch(X, p):

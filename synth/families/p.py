@@ -63,7 +63,7 @@ class PFamily(Family):
 
     def futility(self, explanation):
         """No gain in the allowed gain range stabilises the plant (or keeps it stable over the
-        plant-gain range): explain's exact intervals say so."""
+        plant-gain range, or stabilises every plant model): explain's exact intervals say so."""
         if explanation is None:
             return None
         if not explanation.stabilizing_in_gain_range:
@@ -71,6 +71,13 @@ class PFamily(Family):
         robust = explanation.robust_stabilizing
         if robust is not None and not robust:
             return "no proportional gain keeps the loop stable over the plant-gain range"
+        models = getattr(explanation, "models", None)
+        if models is not None:
+            from synth.explain.gain import intersect_all
+
+            allowed = intersect_all(models.stabilizing, explanation.stabilizing_in_gain_range)
+            if not allowed:
+                return "no proportional gain in the allowed range stabilises every plant model"
         return None
 
 

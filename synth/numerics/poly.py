@@ -160,23 +160,37 @@ def format_complex(z: complex, digits: int = 4) -> str:
 
 
 def batch_polymul(P, q) -> np.ndarray:
-    """Row-wise product of a polynomial batch with one polynomial.
+    """Row-wise product of a polynomial batch with one polynomial, or with one per row.
 
     Parameters
     ----------
     P : ndarray, shape (B, a)
         One polynomial per row, descending powers, all of the same length.
-    q : array_like, shape (b,)
-        The common factor, descending powers.
+    q : array_like, shape (b,) or (B, b)
+        The common factor, or one factor per row, descending powers.
 
     Returns
     -------
     ndarray, shape (B, a + b - 1)
-        Row ``i`` equals ``numpy.polymul(P[i], q)`` (without trimming).
+        Row ``i`` equals ``numpy.polymul(P[i], q)`` (or ``q[i]``), without trimming.
     """
     # one shifted axpy per coefficient of q: vectorised across the batch
     q = np.asarray(q, dtype=float)
-    out = np.zeros((P.shape[0], P.shape[1] + q.size - 1))
-    for j, c in enumerate(q):
-        out[:, j:j + P.shape[1]] += c * P
+    if q.ndim == 1:
+        out = np.zeros((P.shape[0], P.shape[1] + q.size - 1))
+        for j, c in enumerate(q):
+            out[:, j:j + P.shape[1]] += c * P
+        return out
+    out = np.zeros((P.shape[0], P.shape[1] + q.shape[1] - 1))
+    for j in range(q.shape[1]):
+        out[:, j:j + P.shape[1]] += q[:, j:j + 1] * P
+    return out
+
+
+def left_pad(P, width: int) -> np.ndarray:
+    """A batch of polynomials (rows) padded with leading zeros to ``width`` columns."""
+    if P.shape[1] == width:
+        return P
+    out = np.zeros((P.shape[0], width))
+    out[:, width - P.shape[1]:] = P
     return out

@@ -13,10 +13,11 @@ with ``numerator`` and ``denominator`` or ``zeros``, ``poles`` and ``gain``
 (the other form is derived).  Everything else is optional and read when
 present: the plant (:meth:`DesignDocument.need_plant` asks for it), the
 requirements, region, search settings, and the second round's per-design
-``worst_case``, ``reference_filter`` / ``setpoint_weights``, ``anti_windup``
-and ``discrete`` objects and the document's ``objective`` and ``actuator``
-(typed by :meth:`DesignDocument.controller`, :meth:`DesignDocument.discrete_form`
-and :class:`ActuatorRecord`).  Fields the model
+``worst_case``, ``robustness``, ``reference_filter`` / ``setpoint_weights``,
+``anti_windup`` and ``discrete`` objects and the document's ``objective``,
+``actuator`` and ``models`` (typed by :meth:`DesignDocument.controller`,
+:meth:`DesignDocument.discrete_form`, :class:`ActuatorRecord`;
+:meth:`DesignDocument.model_plant` rebuilds any model's plant).  Fields the model
 does not know are kept in ``raw`` untouched, so writers that add to a
 document lose nothing.
 """
@@ -225,6 +226,9 @@ class DesignRecord:
         Second-round fields, when the document has them.
     raw : mapping
         The entry as read (read-only).
+    robustness : mapping or None
+        With several plant models: how they were checked (models, vertices,
+        samples, local searches, the robust stability test).
     """
 
     index: int
@@ -248,6 +252,7 @@ class DesignRecord:
     anti_windup: Mapping[str, Any] | None
     discrete: Mapping[str, Any] | None
     raw: Mapping[str, Any]
+    robustness: Mapping[str, Any] | None = None
 
     def metric(self, key: str) -> Any:
         """A metric's value (``None`` when absent or unbounded).
@@ -285,6 +290,9 @@ class DesignDocument:
         The document as read (read-only).
     actuator : ActuatorRecord or None
         The output limits and rate the run used (document-level ``actuator``).
+    models : mapping or None
+        Second round: the plant models besides the nominal one (``expression``,
+        ``parameters``, ``ranges``, ``variants``); see :meth:`model_plant`.
     """
 
     source: str
@@ -297,6 +305,7 @@ class DesignDocument:
     objective: str | None
     raw: Mapping[str, Any]
     actuator: ActuatorRecord | None = None
+    models: Mapping[str, Any] | None = None
 
     def controller(self, design: DesignRecord):
         """The whole design as a :class:`synth.verify.controller.Controller`.
@@ -399,6 +408,56 @@ class DesignDocument:
     def to_json(self) -> dict:
         """The document as plain JSON values (as read)."""
         return thaw(self.raw)
+
+    def model_plant(self, model: Any):
+        """The :class:`synth.problem.plant.Plant` of a model named as ``worst_case`` names it.
+
+        ``"nominal"`` is the document's plant, another text a variant's label,
+        an object ``{name: value}`` a point of the ranges (the expression at
+        those parameter values, the dead time replaced when it is given).
+        InputError naming the document when the model is not in it.
+        """
+        from synth.problem.plant import Plant
+
+        nominal = self.need_plant().plant()
+        models = self.models or {}
+        if model == "nominal":
+            return nominal
+        if isinstance(model, str):
+            for v in models.get("variants", ()):
+                if isinstance(v, Mapping) and v.get("label") == model:
+                    record = _plant(thaw(v.get("plant")), self.source)
+                    if record is None:
+                        raise InputError(f"variant {model!r} has no plant", self.source,
+                                         "models.variants")
+                    return record.plant()
+            raise InputError(f"names no model {model!r}", self.source, "models.variants")
+        if not isinstance(model, Mapping):
+            raise InputError("a model is a label or an object of parameter values", self.source,
+                             "models")
+        values = dict(models.get("parameters") or {})
+        dead = nominal.dead_time
+        for name, v in model.items():
+            if not _is_number(v) or not math.isfinite(v):
+                raise InputError(f"{name} must be a finite number", self.source, "models")
+            if name == "dead_time":
+                dead = float(v)
+            elif name in values:
+                values[name] = float(v)
+            else:
+                raise InputError(f"names no parameter {name!r}", self.source, "models.parameters")
+        expression = models.get("expression")
+        if expression is None:
+            return Plant(nominal.numerator, nominal.denominator, dead, nominal.pade_order,
+                         nominal.label)
+        from synth.problem.expression import parse_rational
+
+        try:
+            num, den = parse_rational(expression, values)
+            return Plant.from_coefficients(num, den, dead_time=dead,
+                                           pade_order=nominal.pade_order, label=nominal.label)
+        except InputError as err:
+            raise InputError(err.message, self.source, "models.expression") from None
 
 
 # ----------------------------------------------------------------------------------------------
@@ -629,7 +688,8 @@ def _design(i: int, d: Any, source: str) -> DesignRecord:
         setpoint_weights=_mapping(d.get("setpoint_weights"), source, f"{key}.setpoint_weights"),
         anti_windup=_mapping(d.get("anti_windup"), source, f"{key}.anti_windup"),
         discrete=_mapping(d.get("discrete"), source, f"{key}.discrete"),
-        raw=_frozen(d))
+        raw=_frozen(d),
+        robustness=_mapping(d.get("robustness"), source, f"{key}.robustness"))
 
 
 def _plant(p: Any, source: str) -> PlantRecord | None:
@@ -697,7 +757,8 @@ def read_design(doc: Any, source: str = "<design>") -> DesignDocument:
         proportional=_mapping(doc.get("proportional"), source, "proportional"),
         search=_mapping(doc.get("search"), source, "search"),
         objective=objective if isinstance(objective, str) else None,
-        raw=_frozen(doc), actuator=_actuator(doc.get("actuator"), source))
+        raw=_frozen(doc), actuator=_actuator(doc.get("actuator"), source),
+        models=_mapping(doc.get("models"), source, "models"))
 
 
 def load_design(path: str | Path) -> DesignDocument:

@@ -81,6 +81,10 @@ def _design_json(run, d, sampled=None) -> dict:
         out["discrete"] = sampled.to_json()
     if run.problem.actuator is not None:
         out.update(_actuator_json(c, v))
+    if v.worst_case:
+        out["worst_case"] = {k: w.to_json() for k, w in v.worst_case.items()}
+    if v.robustness is not None:
+        out["robustness"] = v.robustness
     return out
 
 
@@ -112,10 +116,11 @@ def design_json(run) -> dict:
     dict
         ``schema``, ``plant``, ``designs`` (contract fields, and per design
         ``description``, ``score``, ``internally_stable``, ``time_domain``,
-        ``notes``, ``provenance``, ``params``, and with ``[sampling]`` the
-        contract's ``discrete``), ``requirements``, ``region``,
+        ``notes``, ``provenance``, ``params``; with several plant models
+        ``worst_case`` and ``robustness``; with ``[sampling]`` the contract's ``discrete``), ``requirements``, ``region``,
         ``proportional``, ``caution``, ``search``, ``sampling`` (the sample
-        rate against the requirements, with ``[sampling]``) and ``source``.
+        rate against the requirements, with ``[sampling]``), ``actuator``, ``models`` (with ranges or
+        variants: :meth:`synth.problem.models.ModelSet.to_json`) and ``source``.
     """
     from synth.families import FAMILIES
 
@@ -142,6 +147,9 @@ def design_json(run) -> dict:
         out["sampling"] = sampling_advice(problem.sampling, problem.requirements).to_json()
     if problem.actuator is not None:
         out["actuator"] = problem.actuator.to_json()
+    models = problem.model_set
+    if not models.is_single:
+        out["models"] = models.to_json()
     if problem.source:
         out["source"] = problem.source
     return clean(out)
@@ -234,6 +242,10 @@ def design_text(run) -> TextReport:
         before.append(f"  actuator: {act.describe()}; time-domain limits judged on small steps "
                       f"and on a reference step of {act.reference_step:.4g} and a load step of "
                       f"{act.load_step:.4g} through the limits")
+    if not pr.model_set.is_single:
+        before.append(f"  plant models: {pr.model_set.describe()}")
+        before.append("  every value below is the worst case over the models (see the worst-case "
+                      "lines)")
     before.append("")
     cols = [(entry.column(limit), entry.metric, entry.key) for entry, limit in req.limits()]
     cols += [(METRICS[m].symbol, m, None) for m in _ALWAYS_SHOWN if req.limit(m) is None]
@@ -263,6 +275,7 @@ def design_text(run) -> TextReport:
         aw = d.candidate.anti_windup
         if pr.actuator is not None and aw is not None:
             details.append("anti-windup: " + _anti_windup_text(aw))
+        details += _worst_case_lines(v, [c[1] for c in cols])
         details += [f"fails: {text}" for text in v.violations]
         details += [f"note: {text}" for text in v.notes
                     if text.startswith("slow closed-loop pole")]  # worth an engineer's eye
@@ -315,6 +328,27 @@ def _sampled_details(sd) -> list[str]:
     out = [f"{text}; C(z) by {sd.controller.zmap.describe()}, {sd.controller.realisation}"]
     out += [w for w in sd.warnings if w.startswith(("warning", "note"))]
     return out
+def _worst_case_lines(verdict, shown) -> list[str]:
+    """One line naming the model behind each shown worst-case value (other than the nominal)."""
+    if not verdict.worst_case:
+        return []
+    by_model: dict[str, list[str]] = {}
+    for metric in shown:
+        case = verdict.worst_case.get(metric)
+        if case is None or case.model.kind == "nominal":
+            continue
+        by_model.setdefault(case.model.name, []).append(METRICS[metric].symbol)
+    rob = verdict.robustness or {}
+    lines = [f"worst case {', '.join(symbols)}: {name}" for name, symbols in by_model.items()]
+    if rob.get("stability_test"):
+        certified = rob.get("stability_certified")
+        head = ("stability" if certified is None else
+                "robust stability " + ("certified" if certified else "NOT certified"))
+        lines.append(f"{head} ({rob['stability_test']}); "
+                     f"{rob.get('exact_evaluations', 0)} models evaluated exactly, "
+                     f"{rob.get('screened', 0)} screened, "
+                     f"{rob.get('local_searches', 0)} local searches")
+    return lines
 
 
 def design_lines(run) -> list[str]:

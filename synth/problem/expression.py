@@ -14,7 +14,7 @@ Grammar (precedence from loosest to tightest)::
     unary      := ("+" | "-") unary | power
     power      := atom ("^" exponent)?
     exponent   := ["+" | "-"] INTEGER | "(" ["+" | "-"] INTEGER ")"
-    atom       := NUMBER | "s" | "(" expression ")"
+    atom       := NUMBER | "s" | NAME | "(" expression ")"
 
 * Numbers are integers, decimals (``2``, ``0.5``, ``.5``, ``3.``) or exponent
   notation (``1e-3``, ``2.5E+4``).
@@ -29,6 +29,13 @@ Grammar (precedence from loosest to tightest)::
 * ``^`` takes a literal integer exponent of magnitude at most
   :data:`MAX_EXPONENT`; a negative exponent is the reciprocal power. Chained
   powers (``s^2^3``) need parentheses.
+* ``NAME`` is a parameter of the plant (``[plant.parameters]``): an
+  identifier other than ``s``, replaced by the number it is given in the
+  ``parameters`` mapping.  The parser never evaluates code: a name is looked
+  up in that mapping and becomes a constant, so a parametric expression is
+  parsed again for each set of parameter values (cheap: a few hundred
+  characters at most).  Names bind like ``s`` for implicit multiplication
+  (``2T``, ``k (s+1)``); ``Ts`` is one (unknown) name, write ``T*s`` or ``T s``.
 * Positions in error messages count characters from 1.
 
 The result is kept *as built*: common factors between numerator and
@@ -54,8 +61,8 @@ import numpy as np
 from synth.errors import InputError
 from synth.problem.limits import MAX_ORDER, check_literal
 
-__all__ = ["parse_rational", "MAX_EXPONENT", "MAX_LENGTH", "MAX_DEGREE", "MAX_DEPTH",
-           "MAX_TERMS"]
+__all__ = ["parse_rational", "expression_names", "is_parameter_name", "MAX_EXPONENT", "MAX_LENGTH", "MAX_DEGREE",
+           "MAX_DEPTH", "MAX_TERMS"]
 
 #: Largest degree allowed for the numerator or denominator while building: the
 #: plant's order limit, since nothing is cancelled afterwards.
@@ -82,7 +89,7 @@ _OPERATORS = "+-*/^()"
 
 @dataclass(frozen=True)
 class _Token:
-    kind: str  # "num", "s", "op", "end"
+    kind: str  # "num", "s", "name", "op", "end"
     text: str
     pos: int  # 1-based column of the first character
 
@@ -95,7 +102,9 @@ class _Frac:
     den: np.ndarray
 
 
-def _tokenize(text: str) -> list[_Token]:
+def _tokenize(text: str, names=frozenset()) -> list[_Token]:
+    """Tokens of ``text``; ``names`` are the parameter names allowed besides ``s``
+    (``None``: any identifier, for :func:`expression_names`)."""
     tokens: list[_Token] = []
     i, n = 0, len(text)
     while i < n:
@@ -111,11 +120,16 @@ def _tokenize(text: str) -> list[_Token]:
         m = _NAME.match(text, i)
         if m:
             name = m.group(0)
-            if name != "s":
-                raise InputError(
-                    f"unknown name '{name}' at position {i + 1} (only the variable 's' is allowed)"
-                )
-            tokens.append(_Token("s", name, i + 1))
+            if name == "s":
+                tokens.append(_Token("s", name, i + 1))
+            elif names is None or name in names:
+                tokens.append(_Token("name", name, i + 1))
+            else:
+                shown = name if len(name) <= 40 else name[:37] + "..."
+                allowed = ("only the variable 's' is allowed" if not names else
+                           "the names are s and the parameters "
+                           + ", ".join(sorted(names)))
+                raise InputError(f"unknown name '{shown}' at position {i + 1} ({allowed})")
             i = m.end()
             continue
         if ch in _OPERATORS:
@@ -142,15 +156,20 @@ def _is_zero(p: np.ndarray) -> bool:
     return not np.any(p)
 
 
+_EPS = float(np.finfo(float).eps)
+
+
 def _poly_add(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     n = max(a.size, b.size)
-    a = np.pad(a, (n - a.size, 0))
-    b = np.pad(b, (n - b.size, 0))
+    if a.size < n:  # left-pad with zeros (np.pad costs more than the sum on short arrays)
+        a = np.concatenate((np.zeros(n - a.size), a))
+    if b.size < n:
+        b = np.concatenate((np.zeros(n - b.size), b))
     out = a + b
     # Terms that cancel leave rounding noise; call that an exact zero so that
     # the degree of the result is not inflated by a 1e-17 leading coefficient.
     scale = np.abs(a) + np.abs(b)
-    out[np.abs(out) <= _CANCEL_ULPS * np.finfo(float).eps * scale] = 0.0
+    out[np.abs(out) <= _CANCEL_ULPS * _EPS * scale] = 0.0
     return _trim(out)
 
 
@@ -163,9 +182,10 @@ def _const(p: np.ndarray) -> bool:
 
 
 class _Parser:
-    def __init__(self, text: str):
+    def __init__(self, text: str, parameters=None):
         self.text = text
-        self.tokens = _tokenize(text)
+        self.parameters = dict(parameters or {})
+        self.tokens = _tokenize(text, frozenset(self.parameters))
         self.i = 0
         self.depth = 0
         self.terms = 1
@@ -292,7 +312,7 @@ class _Parser:
                 else:
                     value = self.div(value, rhs, tok)
                     after_divisor = True
-            elif tok.kind == "s" or self.is_op(tok, "("):
+            elif tok.kind in ("s", "name") or self.is_op(tok, "("):
                 if after_divisor:
                     raise InputError(
                         f"ambiguous implicit multiplication after '/' at position {tok.pos}"
@@ -371,6 +391,8 @@ class _Parser:
             return _Frac(np.array([value]), np.ones(1))
         if tok.kind == "s":
             return _Frac(np.array([1.0, 0.0]), np.ones(1))
+        if tok.kind == "name":
+            return _Frac(np.array([float(self.parameters[tok.text])]), np.ones(1))
         if self.is_op(tok, "("):
             self.enter(tok)
             if self.is_op(self.peek(), ")"):
@@ -389,7 +411,33 @@ class _Parser:
         raise self.unexpected(tok, "an operand is missing")
 
 
-def parse_rational(text: str) -> tuple[np.ndarray, np.ndarray]:
+def _checked_text(text) -> str:
+    if not isinstance(text, str):
+        raise InputError(f"the expression must be a string, got {type(text).__name__}")
+    if len(text) > MAX_LENGTH:
+        raise InputError(f"expression too long ({len(text)} characters, at most {MAX_LENGTH})")
+    return text
+
+
+def is_parameter_name(name: str) -> bool:
+    """Whether ``name`` can name a parameter: an ASCII identifier other than ``s``."""
+    return isinstance(name, str) and name != "s" and _NAME.fullmatch(name) is not None
+
+
+def expression_names(text: str) -> tuple[str, ...]:
+    """The parameter names an expression uses (identifiers other than ``s``), in order of use.
+
+    Only the tokenizer runs: nothing is evaluated.  Malformed characters
+    raise :class:`synth.errors.InputError` as in :func:`parse_rational`.
+    """
+    seen: dict[str, None] = {}
+    for tok in _tokenize(_checked_text(text), None):
+        if tok.kind == "name":
+            seen.setdefault(tok.text)
+    return tuple(seen)
+
+
+def parse_rational(text: str, parameters=None) -> tuple[np.ndarray, np.ndarray]:
     """Parse a rational expression in ``s`` into numerator and denominator.
 
     Parameters
@@ -398,6 +446,9 @@ def parse_rational(text: str) -> tuple[np.ndarray, np.ndarray]:
         The expression, e.g. ``"4/(s^2*(s+8))"`` or ``"10(s+1)/(s(s+5)^2)"``.
         See the module documentation for the grammar, implicit
         multiplication and limits.
+    parameters : mapping of str to float, optional
+        Values of the parameter names the expression may use (a name not in
+        it is an error); each name stands for its number.
 
     Returns
     -------
@@ -427,11 +478,7 @@ def parse_rational(text: str) -> tuple[np.ndarray, np.ndarray]:
     >>> num.tolist(), den.tolist()
     ([4.0], [1.0, 8.0, 0.0, 0.0])
     """
-    if not isinstance(text, str):
-        raise InputError(f"the expression must be a string, got {type(text).__name__}")
-    if len(text) > MAX_LENGTH:
-        raise InputError(f"expression too long ({len(text)} characters, at most {MAX_LENGTH})")
-    value = _Parser(text).parse()
+    value = _Parser(_checked_text(text), parameters).parse()
     if _is_zero(value.den):  # unreachable by construction; guard a silent wrong answer
         raise InputError("division by a zero polynomial")
     return value.num.astype(float), value.den.astype(float)

@@ -70,6 +70,18 @@ MAX_COEFFICIENT = 1e250
 #: Longest text accepted for a label, in characters.
 MAX_TEXT = 200
 
+#: Most named parameters of a parametric plant (``[plant.parameters]``).  With a
+#: range on each and on the dead time the box has up to 2^9 = 512 corners; the
+#: verifier checks a fold-over two-level design of 32 of them beyond five ranges
+#: (see ``docs/methods.md``), and every further parameter costs the worst-case
+#: search more evaluations.  Real uncertainty descriptions name a handful.
+MAX_PARAMETERS = 8
+
+#: Most ``[[plant.variants]]``.  Each variant is evaluated exactly for every
+#: reported design and joins the search's model set, so the run time grows with
+#: their number; a dozen operating points covers the plants we know of.
+MAX_VARIANTS = 12
+
 
 class TinyLiteral(float):
     """A literal that reads as 0.0 only because it underflowed (``1e-400``); it keeps its text.

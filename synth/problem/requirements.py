@@ -44,13 +44,16 @@ from synth.problem.limits import (
     MAX_MAGNITUDE,
     MAX_NESTING,
     MAX_ORDER,
+    MAX_PARAMETERS,
     MAX_TEXT,
+    MAX_VARIANTS,
     check_magnitude,
     check_nesting,
     check_time_scales,
     describe_number,
     parse_toml_float,
 )
+from synth.problem.models import DEAD_TIME, ModelSet, point_text
 from synth.problem.plant import Plant
 from synth.problem.region import Region, damping_from_overshoot, decay_rate_from_settling
 from synth.problem.sampling import Sampling, parse_sampling
@@ -71,7 +74,10 @@ _TOP_KEYS = {"format", "plant", "requirements", "search", "sampling", "actuator"
 
 
 _PLANT_KEYS = {"label", "numerator", "denominator", "zeros", "poles", "gain", "expression",
-               "dead_time", "dead_time_order", "step_test"}
+               "dead_time", "dead_time_order", "step_test", "parameters", "ranges", "variants"}
+
+_VARIANT_KEYS = {"label", "numerator", "denominator", "zeros", "poles", "gain", "expression",
+                 "dead_time", "dead_time_order"}
 
 
 @dataclass(frozen=True, init=False)
@@ -193,6 +199,10 @@ class Problem:
     ``sampling`` is the ``[sampling]`` table (``None``: a continuous-time controller).
     ``actuator`` is the ``[actuator]`` table (:class:`synth.problem.actuator.Actuator`),
     ``None`` when the file has none: then the loop is judged linear.
+    ``plant`` is the nominal plant; ``models`` (``None`` for a single plant)
+    adds parameter ranges and variants (:class:`synth.problem.models.ModelSet`),
+    which every requirement must also hold for.  :attr:`model_set` always
+    gives a set (the nominal plant alone when there is nothing else).
     """
 
     plant: Plant
@@ -201,10 +211,18 @@ class Problem:
     source: str = "<string>"
     sampling: Sampling | None = None
     actuator: Actuator | None = None
+    models: ModelSet | None = None
 
     @property
     def region(self) -> Region:
         return self.requirements.region()
+
+    @property
+    def model_set(self) -> ModelSet:
+        """The plant models (:class:`ModelSet`; the nominal plant alone without ranges or variants)."""
+        if self.models is not None and self.models.nominal == self.plant:
+            return self.models
+        return ModelSet(nominal=self.plant)
 
 
 def _num(v, src, key, *, lo=None, hi=None, lo_open=False, hi_open=False, integer=False):
@@ -316,8 +334,18 @@ def _unknown(table, allowed, src, prefix):
             raise InputError(f"unknown key{hint}", src, f"{prefix}{name}")
 
 
-def _parse_plant(t: dict, src: str, read_data=None) -> Plant:
-    _unknown(t, _PLANT_KEYS, src, "plant.")
+def _label(v, src, key) -> str:
+    if not isinstance(v, str):
+        raise InputError("must be text", src, key)
+    if len(v) > MAX_TEXT:
+        raise InputError(f"is {len(v)} characters long; at most {MAX_TEXT}", src, key)
+    if not v.isprintable():
+        raise InputError("must be one line of printable text (no control characters)", src, key)
+    return v
+
+
+def _forms(t: dict, src: str, prefix: str, step_test: bool) -> str:
+    """The one plant form a table gives (``InputError`` for none or several)."""
     forms = []
     if "numerator" in t or "denominator" in t:
         forms.append("numerator/denominator")
@@ -325,62 +353,261 @@ def _parse_plant(t: dict, src: str, read_data=None) -> Plant:
         forms.append("zeros/poles/gain")
     if "expression" in t:
         forms.append("expression")
-    if "step_test" in t:
+    if step_test and "step_test" in t:
         forms.append("step_test")
     if not forms:
         raise InputError("no plant given: set numerator and denominator, or zeros/poles/gain, "
-                         "or expression, or [plant.step_test]", src, "plant")
+                         "or expression" + (", or [plant.step_test]" if step_test else ""),
+                         src, prefix)
     if len(forms) > 1:
-        raise InputError(f"give exactly one plant form, found {' and '.join(forms)}", src, "plant")
-    label = t.get("label", "")
-    if not isinstance(label, str):
-        raise InputError("must be text", src, "plant.label")
-    if len(label) > MAX_TEXT:
-        raise InputError(f"is {len(label)} characters long; at most {MAX_TEXT}", src, "plant.label")
-    if not label.isprintable():
-        raise InputError("must be one line of printable text (no control characters)", src,
-                         "plant.label")
+        raise InputError(f"give exactly one plant form, found {' and '.join(forms)}", src, prefix)
+    return forms[0]
+
+
+def _rational_plant(t: dict, form: str, src: str, prefix: str, kw: dict,
+                    parameters: dict[str, float]) -> Plant:
+    """The plant of one table in the coefficient, root or expression form.
+
+    Errors of the plant constructors name ``plant.KEY``; they are moved under
+    ``prefix`` (a variant's ``plant.variants[2]``).
+    """
+    try:
+        if form == "numerator/denominator":
+            for k in ("numerator", "denominator"):
+                if k not in t:
+                    raise InputError("missing; the coefficient form needs both numerator and "
+                                     "denominator", src, f"{prefix}.{k}")
+            # leading zeros count: a list longer than any plant the engine takes is refused
+            # before a single entry is converted
+            num = _numlist(t["numerator"], src, f"{prefix}.numerator", max_len=MAX_ORDER + 1)
+            den = _numlist(t["denominator"], src, f"{prefix}.denominator",
+                           max_len=MAX_ORDER + 1)
+            return Plant.from_coefficients(num, den, **kw)
+        if form == "zeros/poles/gain":
+            if "poles" not in t:
+                raise InputError("missing; the zeros/poles/gain form needs poles (use [] for none)",
+                                 src, f"{prefix}.poles")
+            gain = _num(t.get("gain", 1.0), src, f"{prefix}.gain")
+            return Plant.from_roots(t.get("zeros", []), t["poles"], gain, **kw)
+        expr = t["expression"]
+        if not isinstance(expr, str) or not expr.strip():
+            raise InputError("must be a non-empty text expression in s", src,
+                             f"{prefix}.expression")
+        from synth.problem.expression import parse_rational
+
+        try:
+            num, den = parse_rational(expr, parameters)
+        except InputError as err:
+            raise InputError(err.message, key="plant.expression") from None
+        return Plant.from_coefficients(num, den, **kw)
+    except InputError as err:
+        if err.source is None:
+            key = err.key or "plant"
+            if prefix != "plant" and key.startswith("plant"):
+                key = prefix + key[len("plant"):]
+            raise InputError(err.message, src, key) from None
+        raise
+
+
+def _parse_plant(t: dict, src: str, read_data=None) -> tuple[Plant, ModelSet | None]:
+    """The nominal plant of ``[plant]`` and, when the table describes more, its model set."""
+    _unknown(t, _PLANT_KEYS, src, "plant.")
+    form = _forms(t, src, "plant", step_test=True)
+    label = _label(t.get("label", ""), src, "plant.label")
     dead = _num(t.get("dead_time", 0.0), src, "plant.dead_time", lo=0)
     order = _num(t.get("dead_time_order", 3), src, "plant.dead_time_order", lo=1, hi=10,
                  integer=True)
     kw = {"dead_time": dead, "pade_order": order, "label": label}
-    if forms[0] == "step_test":
-        return _step_test_plant(t, src, order, label, read_data)
-    try:
-        if forms[0] == "numerator/denominator":
-            for k in ("numerator", "denominator"):
-                if k not in t:
-                    raise InputError("missing; the coefficient form needs both numerator and "
-                                     "denominator", src, f"plant.{k}")
-            # leading zeros count: a list longer than any plant the engine takes is refused
-            # before a single entry is converted
-            num = _numlist(t["numerator"], src, "plant.numerator", max_len=MAX_ORDER + 1)
-            den = _numlist(t["denominator"], src, "plant.denominator", max_len=MAX_ORDER + 1)
-            return Plant.from_coefficients(num, den, **kw)
-        if forms[0] == "zeros/poles/gain":
-            if "poles" not in t:
-                raise InputError("missing; the zeros/poles/gain form needs poles (use [] for none)",
-                                 src, "plant.poles")
-            gain = _num(t.get("gain", 1.0), src, "plant.gain")
-            return Plant.from_roots(t.get("zeros", []), t["poles"], gain, **kw)
-        expr = t["expression"]
-        if not isinstance(expr, str) or not expr.strip():
-            raise InputError("must be a non-empty text expression in s", src, "plant.expression")
-        return Plant.from_expression(expr, **kw)
-    except InputError as err:
-        if err.source is None:
-            raise InputError(err.message, src, err.key or "plant") from None
-        raise
+    if form == "step_test":
+        for key in ("parameters", "ranges"):
+            if key in t:
+                raise InputError("comes from the fit when the plant is a [plant.step_test] "
+                                 "(ask for ranges with plant.step_test.ranges_from_fit); remove "
+                                 "it", src, f"plant.{key}")
+        plant, fitted = _step_test_plant(t, src, order, label, read_data)
+        if fitted is None:
+            return plant, _model_set(plant, None, {}, {}, t.get("variants"), src, order)
+        params = dict(fitted["parameters"])
+        # a parameter the data fix exactly (zero standard error) has no range; a dead-time
+        # range keeps a positive low end (a tenth of the fitted value, like the time
+        # constants), and none at all when the fit finds no delay
+        ranges = {}
+        for k, (lo, hi) in fitted["ranges"].items():
+            if k == DEAD_TIME:
+                if plant.dead_time <= 0:
+                    continue
+                lo = max(lo, 0.1 * plant.dead_time)
+            if lo < hi:
+                ranges[k] = (lo, hi)
+        return plant, _model_set(plant, fitted["expression"], params, ranges,
+                                 t.get("variants"), src, order,
+                                 range_key="plant.step_test.ranges_from_fit")
+    params = _parameters(t, form, src)
+    plant = _rational_plant(t, form, src, "plant", kw, params)
+    expression = t["expression"] if form == "expression" else None
+    if expression is not None and params:
+        from synth.problem.expression import expression_names
+
+        used = set(expression_names(expression))
+        for name in params:
+            if name not in used:
+                raise InputError("is not used in plant.expression; remove it or use it",
+                                 src, f"plant.parameters.{name}")
+    ranges = _ranges(t.get("ranges"), params, dead, src)
+    return plant, _model_set(plant, expression if params else None, params, ranges,
+                             t.get("variants"), src, order)
 
 
-def _rates(plant: Plant, req: Requirements, sampling: Sampling | None = None
-           ) -> dict[str, float]:
+def _parameters(t: dict, form: str, src: str) -> dict[str, float]:
+    """``[plant.parameters]``: nominal values of the names the expression uses."""
+    from synth.problem.expression import is_parameter_name
+
+    if "parameters" not in t:
+        return {}
+    table = t["parameters"]
+    if not isinstance(table, dict):
+        raise InputError("must be a table of name = number", src, "plant.parameters")
+    if form != "expression":
+        raise InputError("parameters are names used in plant.expression; this plant is given "
+                         f"in the {form} form", src, "plant.parameters")
+    if not table:
+        raise InputError("is empty; give name = nominal value for each name the expression "
+                         "uses, or remove the table", src, "plant.parameters")
+    if len(table) > MAX_PARAMETERS:
+        raise InputError(f"has {len(table)} parameters; synth accepts at most {MAX_PARAMETERS}",
+                         src, "plant.parameters")
+    out = {}
+    for name, v in table.items():
+        shown = name if len(name) <= 40 else name[:37] + "..."
+        if name == "s":
+            raise InputError("'s' is the Laplace variable and cannot name a parameter", src,
+                             "plant.parameters.s")
+        if not is_parameter_name(name):
+            raise InputError(f"{shown!r} is not a name: use letters, digits and '_', starting "
+                             "with a letter", src, f"plant.parameters.{shown}")
+        out[name] = _num(v, src, f"plant.parameters.{name}")
+    return out
+
+
+def _ranges(table, params: dict[str, float], dead: float, src: str
+            ) -> dict[str, tuple[float, float]]:
+    """``[plant.ranges]``: a closed interval per parameter (or dead_time) around its nominal."""
+    if table is None:
+        return {}
+    if not isinstance(table, dict):
+        raise InputError("must be a table of name = [low, high]", src, "plant.ranges")
+    out = {}
+    for name, v in table.items():
+        shown = name if len(name) <= 40 else name[:37] + "..."
+        key = f"plant.ranges.{shown}"
+        if name != DEAD_TIME and name not in params:
+            known = ", ".join([*params, DEAD_TIME])
+            raise InputError(f"is not a parameter: ranges apply to {known} (a parameter needs "
+                             "its nominal value in [plant.parameters])", src, key)
+        lo, hi = _range(v, src, key)
+        nominal = dead if name == DEAD_TIME else params[name]
+        if name == DEAD_TIME and lo < 0:
+            raise InputError(f"a dead time cannot be negative, got low {lo:g}", src, key)
+        if name == DEAD_TIME and lo == 0:
+            # the Pade form of a vanishing delay drops the plant's order: no single
+            # characteristic polynomial describes the whole range
+            raise InputError("a dead-time range must start above 0 (at 0 the delay's Pade form "
+                             "vanishes and the plant changes order); use a small positive low "
+                             "end, or a variant without dead time", src, key)
+        if not lo <= nominal <= hi:
+            what = "plant.dead_time" if name == DEAD_TIME else f"plant.parameters.{name}"
+            raise InputError(f"[{lo:g}, {hi:g}] does not contain the nominal value {nominal:g} "
+                             f"({what})", src, key)
+        out[name] = (lo, hi)
+    return out
+
+
+def _variants(v, src: str, order: int, params: dict[str, float]) -> list:
+    """``[[plant.variants]]``: further fixed models, each with a label and one plant form."""
+    from synth.problem.models import Variant
+
+    if v is None:
+        return []
+    if not isinstance(v, list) or not all(isinstance(x, dict) for x in v):
+        raise InputError("must be a list of tables ([[plant.variants]] blocks)", src,
+                         "plant.variants")
+    if len(v) > MAX_VARIANTS:
+        raise InputError(f"has {len(v)} variants; synth accepts at most {MAX_VARIANTS}", src,
+                         "plant.variants")
+    out: list = []
+    for i, t in enumerate(v, start=1):
+        prefix = f"plant.variants[{i}]"
+        _unknown(t, _VARIANT_KEYS, src, f"{prefix}.")
+        if "label" not in t:
+            raise InputError("missing: each variant needs a label that names it in the results",
+                             src, f"{prefix}.label")
+        label = _label(t["label"], src, f"{prefix}.label").strip()
+        if not label:
+            raise InputError("must not be empty", src, f"{prefix}.label")
+        if label == "nominal" or any(x.label == label for x in out):
+            raise InputError(f"{label!r} is already the name of another model", src,
+                             f"{prefix}.label")
+        form = _forms(t, src, prefix, step_test=False)
+        dead = _num(t.get("dead_time", 0.0), src, f"{prefix}.dead_time", lo=0)
+        pade = _num(t.get("dead_time_order", order), src, f"{prefix}.dead_time_order", lo=1,
+                    hi=10, integer=True)
+        kw = {"dead_time": dead, "pade_order": pade, "label": label}
+        out.append(Variant(label, _rational_plant(t, form, src, prefix, kw, params)))
+    return out
+
+
+def _model_set(plant: Plant, expression, params, ranges, variants, src: str, order: int,
+               range_key: str = "plant.ranges") -> ModelSet | None:
+    """The :class:`ModelSet`, with every model checked to describe the same input and output."""
+    import numpy as np
+
+    from synth.problem.models import ModelSet, ParameterRange, io_signature, io_text
+
+    found = _variants(variants, src, order, params)
+    if not found and not ranges:
+        return None
+    nominal_values = {**params, DEAD_TIME: plant.dead_time}
+    models = ModelSet(nominal=plant, expression=expression, parameters=tuple(params.items()),
+                      ranges=tuple(ParameterRange(k, lo, hi, nominal_values[k])
+                                   for k, (lo, hi) in ranges.items()),
+                      variants=tuple(found))
+    sig = io_signature(plant)
+    for i, var in enumerate(models.variants, start=1):
+        other = io_signature(var.plant)
+        if other != sig:
+            raise InputError(f"has {io_text(other)} where the nominal plant has {io_text(sig)}: a "
+                             "variant must describe the same input and output", src,
+                             f"plant.variants[{i}]")
+    if models.ranges:
+        sizes = (plant.rational_num.size, plant.rational_den.size)
+        lead = np.sign(plant.rational_num[0] / plant.rational_den[0])
+        try:
+            corners = models.corner_plants
+        except InputError as err:
+            raise InputError(err.message, src, range_key) from None
+        for point, model in corners:
+            other = io_signature(model)
+            if other != sig:
+                raise InputError(f"at the corner {point_text(point)} the plant has "
+                                 f"{io_text(other)} where the nominal plant has {io_text(sig)}; "
+                                 "keep every range on one side of a sign change", src, range_key)
+            if ((model.rational_num.size, model.rational_den.size) != sizes
+                    or np.sign(model.rational_num[0] / model.rational_den[0]) != lead):
+                raise InputError(f"at the corner {point_text(point)} the plant's order or "
+                                 "high-frequency sign differs from the nominal plant's: a range "
+                                 "must not take a coefficient through zero", src, range_key)
+    return models
+
+
+def _rates(plant: Plant, req: Requirements, models: ModelSet | None = None,
+           sampling: Sampling | None = None) -> dict[str, float]:
     """The problem's characteristic rates (1/s), named by the key that sets each.
 
     The plant's non-zero pole and zero magnitudes, the fastest Pade pole of
-    its dead time, the decay rate the settling limit asks for and the
-    bandwidth the rise-time limit implies, and the sample rate ``1 / period``;
-    :func:`check_time_scales` bounds their spread.
+    its dead time (of every variant and every corner of the ranges too), the
+    decay rate the settling limit asks for and the bandwidth the rise-time
+    limit implies, and the sample rate ``1 / period``; :func:`check_time_scales`
+    bounds their spread.
     """
     import numpy as np
 
@@ -389,18 +616,25 @@ def _rates(plant: Plant, req: Requirements, sampling: Sampling | None = None
     def put(name, values):
         values = [float(v) for v in values if v > 0 and np.isfinite(v)]
         if values:
-            rates[f"{name} (slowest)"] = min(values)
-            rates[f"{name} (fastest)"] = max(values)
+            rates[f"{name} (slowest)"] = min(values + [rates.get(f"{name} (slowest)", np.inf)])
+            rates[f"{name} (fastest)"] = max(values + [rates.get(f"{name} (fastest)", 0.0)])
 
-    for which, poly in (("zeros", plant.rational_num), ("poles", plant.rational_den)):
-        if poly.size > 1:
-            put(f"plant {which}", np.abs(np.roots(poly)))
-    if plant.dead_time > 0:
-        from synth.problem.delay import pade
+    plants = [("plant", plant)]
+    if models is not None:
+        plants += [(f"plant.variants[{i}]", v.plant)
+                   for i, v in enumerate(models.variants, start=1)]
+        if models.ranges:
+            plants += [("plant.ranges", corner) for _, corner in models.corner_plants]
+    for key, model in plants:
+        for which, poly in (("zeros", model.rational_num), ("poles", model.rational_den)):
+            if poly.size > 1:
+                put(f"{key} {which}", np.abs(np.roots(poly)))
+        if model.dead_time > 0:
+            from synth.problem.delay import pade
 
-        # the Pade poles of exp(-sT) are those of exp(-s) divided by T (no powers of T formed)
-        unit = np.abs(np.roots(pade(1.0, plant.pade_order)[1]))
-        put("plant.dead_time", unit / plant.dead_time)
+            # the Pade poles of exp(-sT) are those of exp(-s) divided by T (no powers of T)
+            unit = np.abs(np.roots(pade(1.0, model.pade_order)[1]))
+            put(f"{key}.dead_time", unit / model.dead_time)
     for metric, rate in (("settling_time", lambda ts: math.log(100.0 / req.settling_band) / ts),
                          # 10-90 % rise time of a first-order lag is ln(9) times its time constant
                          ("rise_time", lambda tr: math.log(9.0) / tr)):
@@ -413,22 +647,34 @@ def _rates(plant: Plant, req: Requirements, sampling: Sampling | None = None
     return rates
 
 
-def _step_test_plant(t: dict, src: str, order: int, label: str, read_data) -> Plant:
-    """The ``[plant.step_test]`` form: the nominal model fitted to recorded data."""
+def _step_test_plant(t: dict, src: str, order: int, label: str, read_data):
+    """The ``[plant.step_test]`` form: the nominal model fitted to recorded data.
+
+    Returns the plant and, with ``ranges_from_fit``, the parametric table of
+    :meth:`synth.problem.fit.FitResult.plant_table` (expression with named
+    parameters, their nominal values, the ranges), else ``None``.
+    """
     from synth.problem.fit import step_test_fit_from_table
 
     if "dead_time" in t:
         raise InputError("comes from the fit when the plant is a [plant.step_test]; remove it",
                          src, "plant.dead_time")
     fit = step_test_fit_from_table(t["step_test"], src, read_data)
-    if "ranges_from_fit" in t["step_test"]:
-        # HOOK(parametric plants): when [plant.parameters]/[plant.ranges] land, build the
-        # parametric plant from fit.plant_table(n_sigma=t["step_test"]["ranges_from_fit"])
-        # here instead of refusing.
-        raise InputError("plant ranges need parametric plant support, which this synth does "
-                         "not have yet; remove the key to design for the fitted nominal model",
-                         src, "plant.step_test.ranges_from_fit")
-    return fit.plant(pade_order=order, label=label or None)
+    plant = fit.plant(pade_order=order, label=label or None)
+    if "ranges_from_fit" not in t["step_test"]:
+        return plant, None
+    n_sigma = t["step_test"]["ranges_from_fit"]
+    try:
+        table = fit.plant_table(n_sigma=n_sigma)
+    except InputError as err:
+        raise InputError(err.message, src, "plant.step_test.ranges_from_fit") from None
+    # the expression at the fitted values is the fitted plant itself (same coefficients
+    # up to rounding): build the nominal from it so the box is centred on one model
+    from synth.problem.models import ModelSet
+
+    nominal = ModelSet(nominal=plant, expression=table["expression"],
+                       parameters=tuple(table["parameters"].items())).plant_at({})
+    return nominal, table
 
 
 def parse_problem(doc: dict, source: str = "<string>", *, read_data=None) -> Problem:
@@ -453,7 +699,7 @@ def parse_problem(doc: dict, source: str = "<string>", *, read_data=None) -> Pro
             raise InputError(f"unsupported format {fmt!r}; this synth reads format 1", src, "format")
     if "plant" not in doc:
         raise InputError("missing [plant] table", src, "plant")
-    plant = _parse_plant(_table(doc, "plant", src), src, read_data)
+    plant, models = _parse_plant(_table(doc, "plant", src), src, read_data)
 
     rt = _table(doc, "requirements", src)
     _unknown(rt, set(REQUIREMENTS), src, "requirements.")
@@ -465,9 +711,9 @@ def parse_problem(doc: dict, source: str = "<string>", *, read_data=None) -> Pro
     search = SearchSettings(**{k: _SEARCH_SPEC[k](v, src, f"search.{k}") for k, v in st.items()})
     sampling = parse_sampling(doc["sampling"], src, _num) if "sampling" in doc else None
     actuator = parse_actuator(doc["actuator"], src) if "actuator" in doc else None
-    check_time_scales(_rates(plant, req, sampling), src)
+    check_time_scales(_rates(plant, req, models, sampling), src)
     return Problem(plant=plant, requirements=req, search=search, source=src, sampling=sampling,
-                   actuator=actuator)
+                   actuator=actuator, models=models)
 
 
 def problem_from_text(text: str, source: str = "<string>", *, read_data=None) -> Problem:

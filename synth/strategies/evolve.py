@@ -14,7 +14,17 @@ vectorised objective that is
 * the ranking score of :mod:`synth.rank` (in [0, 1), lower is better) once
   every estimate meets its requirement with a small safety margin.
 
-Estimates used inside the objective, all vectorised over the population:
+Several plant models.  When the problem has parameter ranges or variants,
+every estimate is taken on each model of a representative subset
+(:func:`synth.verify.robust.search_models`: the nominal plant, the variants,
+the box corners of extreme gain and phase, a sample) and the objective sees
+each metric's worst value over them (:func:`synth.verify.estimate.worst_over_models`):
+the penalties apply over the models and the score is the worst case, so the
+proposals come out feasible for all of them.  The verifier then checks the
+whole set.
+
+Estimates used inside the objective (:func:`synth.verify.estimate.estimate_loops`),
+all vectorised over the population:
 closed-loop poles by batched companion eigenvalues; the unit-step response
 of output and control from the modal expansion
 ``y(t) = T(0) + sum_i Res_i exp(p_i t)`` on a 240-point grid (engine form:
@@ -23,7 +33,8 @@ a dead time enters by its Pade form); margins and peak sensitivity from
 the plant-gain range by the eigenvalue-free kernel at test factors.  These
 are estimates: every proposal is verified afterwards by :func:`synth.verify.verify`.
 
-Work and determinism.  One work unit is one row of the objective.  The
+Work and determinism.  One work unit is one row of the objective on one plant
+model (with ``m`` models, a row costs ``m`` units).  The
 polish has a fixed number of compass iterations; the evolution gets the
 generations that the rest of ``context.work`` pays for (about 40 + 15 per
 parameter at ``search.effort = 1``; when a run converges early, the work left
@@ -60,7 +71,6 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from synth.numerics.poly import batch_polymul
 from synth.strategies.base import candidate_from_params
 
 __all__ = ["ORIGIN", "STRATEGY", "EvolveStrategy", "SearchObjective"]
@@ -88,52 +98,8 @@ _N_OUT = 4
 _N_POLISH = 2
 _N_PRIOR_POLISH = 3
 _POLISH_ITERATIONS = 30
+_MIN_POLISH_ITERATIONS = 8
 _POLISH_STEP = 0.02
-
-
-#: The scalar metrics the objective estimates (metric keys of the design JSON).
-_ESTIMATED = ("overshoot_percent", "settling_time", "rise_time", "steady_state_error",
-              "peak_control_effort", "peak_sensitivity", "phase_margin_deg", "gain_margin_db",
-              "min_damping_ratio")
-
-
-def _pad_to(P, width):
-    if P.shape[1] == width:
-        return P
-    out = np.zeros((P.shape[0], width))
-    out[:, width - P.shape[1]:] = P
-    return out
-
-
-def _polyval_rows(P, Z):
-    """Evaluate row i of the polynomial batch P at every entry of row i of Z."""
-    out = np.zeros(Z.shape, dtype=complex)
-    for j in range(P.shape[1]):
-        out = out * Z + P[:, j:j + 1]
-    return out
-
-
-def _polyval_grid(P, s):
-    """Evaluate every row of P at the common points s: shape (B, len(s))."""
-    out = np.zeros((P.shape[0], s.size), dtype=complex)
-    for j in range(P.shape[1]):
-        out = out * s[None, :] + P[:, j:j + 1]
-    return out
-
-
-def _first_crossing(t, z, level):
-    """Per row: first time z reaches level (linear interpolation), inf when never."""
-    hit = z >= level
-    any_hit = hit.any(axis=1)
-    i = np.argmax(hit, axis=1)
-    rows = np.arange(z.shape[0])
-    im1 = np.maximum(i - 1, 0)
-    a, b = z[rows, im1], z[rows, i]
-    ta, tb = t[rows, im1], t[rows, i]
-    with np.errstate(divide="ignore", invalid="ignore"):
-        frac = np.where(b > a, (level - a) / (b - a), 0.0)
-    tt = np.where(i == 0, t[rows, 0], ta + np.clip(frac, 0, 1) * (tb - ta))
-    return np.where(any_hit, tt, np.inf)
 
 
 class SearchObjective:
@@ -143,14 +109,16 @@ class SearchObjective:
     :meth:`details` returns the estimated metrics as arrays.
     """
 
-    def __init__(self, problem, family):
+    def __init__(self, problem, family, models=None):
         from synth.rank import reference_scales
+        from synth.verify.estimate import PlantModel
+        from synth.verify.robust import search_models
 
         self.problem = problem
         self.family = family
-        plant = problem.plant
-        self.gnum = plant.num
-        self.gden = plant.den
+        # the plant models the search scores against (nominal first): a representative
+        # subset of the problem's models; the verifier checks the whole set afterwards
+        self.model_points = tuple(search_models(problem) if models is None else models)
         self.region = problem.region
         req = problem.requirements
         self.band = req.settling_band / 100.0
@@ -165,146 +133,94 @@ class SearchObjective:
         hi = min(10.0 * sp.w_max, sp.w_char * 1e3)
         w = np.geomspace(lo, max(hi, 10 * lo), _W_POINTS)
         # narrow resonances of the plant would fall between grid points: add 24 points
-        # across +-10 zeta around each lightly damped plant pole or zero
+        # across +-10 zeta around each lightly damped plant pole or zero (of every model)
         extra = []
-        for poly in (plant.rational_num, plant.rational_den):
-            if poly.size > 1:
-                for r in np.roots(poly):
-                    m = abs(r)
-                    if m > 0 and r.imag > 0 and abs(r.real) / m < 0.2:
-                        width = 10.0 * max(abs(r.real) / m, 1e-5)
-                        extra.append(np.linspace(m * max(1 - width, 0.5), m * min(1 + width, 2.0),
-                                                 24))
+        for point in self.model_points:
+            for poly in (point.plant.rational_num, point.plant.rational_den):
+                if poly.size > 1:
+                    for r in np.roots(poly):
+                        m = abs(r)
+                        if m > 0 and r.imag > 0 and abs(r.real) / m < 0.2:
+                            width = 10.0 * max(abs(r.real) / m, 1e-5)
+                            extra.append(np.linspace(m * max(1 - width, 0.5),
+                                                     m * min(1 + width, 2.0), 24))
         self.w = np.unique(np.concatenate([w, *extra])) if extra else w
-        self.g_jw = plant.evaluate(1j * self.w, exact_delay=True)
+        self.models = tuple(PlantModel.prepare(point.plant, self.w)
+                            for point in self.model_points)
         self.tau = np.linspace(0.0, 1.0, _T_POINTS) ** 2
         self.refs = reference_scales(problem)
         self.ts_floor = req.limit("settling_time")
         ranges = [aim for entry, aim in self.targets if entry.kind == "contain"]
         self.range_factors = np.geomspace(*ranges[0], 3) if ranges else None
 
-    # -- the pieces ---------------------------------------------------------------
-    def _loop(self, X):
-        num_c, den_c = self.family.polys(X)
-        num_l = batch_polymul(num_c, self.gnum)
-        den_l = batch_polymul(den_c, self.gden)
-        width = max(num_l.shape[1], den_l.shape[1])
-        num_l, den_l = _pad_to(num_l, width), _pad_to(den_l, width)
-        return num_c, den_c, num_l, den_l, den_l + num_l
+    @property
+    def n_models(self) -> int:
+        """How many plant models each row is scored on (a row costs that many work units)."""
+        return len(self.models)
+
+    # -- the pieces ---------------------------------------------------------------------------
+    def model_estimates(self, num_c, den_c) -> list[dict[str, np.ndarray]]:
+        """The estimates of every row on each plant model (nominal first), one dict per model.
+
+        Besides the keys of :func:`synth.verify.estimate.estimate_loops`,
+        ``region_short``: how far the closed-loop poles lie outside the
+        requirement region (relative to the problem's characteristic
+        frequency), the search's shaping term.
+        """
+        from synth.verify.estimate import estimate_loops
+
+        out = []
+        for model in self.models:
+            est = estimate_loops(num_c, den_c, model, self.w, self.tau, self.band,
+                                 self.ts_floor, self.range_factors)
+            reg = np.zeros(num_c.shape[0])
+            idx = np.flatnonzero(est["stable"])
+            if idx.size:
+                reg[idx] = np.sum(np.maximum(-self.region.margin(est["roots"][idx]), 0.0),
+                                  axis=1) / self.w_char
+            est["region_short"] = reg
+            out.append(est)
+        return out
 
     def details(self, X) -> dict[str, np.ndarray]:
-        """Estimated metrics and the objective for a batch (arrays of shape (B,))."""
-        from synth.locus.core import roots_batch
-        from synth.numerics.screening import in_region_batch as _in_region
-        from synth.problem.region import Region
+        """Estimated metrics (worst over the models) and the objective (arrays of shape (B,))."""
         from synth.rank import score_arrays
+        from synth.verify.estimate import ESTIMATED, worst_over_models
 
         X = np.atleast_2d(np.asarray(X, dtype=float))
         B = X.shape[0]
-        num_c, den_c, num_l, den_l, char = self._loop(X)
-        roots = roots_batch(char)
-        finite = np.all(np.isfinite(roots), axis=1)
-        re = np.where(np.isfinite(roots), roots.real, np.inf)
-        stable = finite & np.all(re < 0, axis=1) & _in_region(char, Region())
-        unstable_part = np.sum(np.maximum(np.nan_to_num(re, posinf=1e6), 0.0), axis=1)
+        num_c, den_c = self.family.polys(X)
+        per_model = self.model_estimates(num_c, den_c)
+        est = worst_over_models(per_model)
+        est["region_short"] = np.max([e["region_short"] for e in per_model], axis=0)
+        stable = est["stable"]
+        unstable_part = est["unstable_part"]
 
-        out = {k: np.full(B, np.nan) for k in _ESTIMATED}
-        out["stable_plant_gain_range"] = np.full((B, 2), np.nan)
+        out = {k: est[k] for k in ESTIMATED}
+        out["stable_plant_gain_range"] = est["stable_plant_gain_range"]
         short = np.zeros(B)
         idx = np.flatnonzero(stable)
         if idx.size:
-            r = roots[idx]
-            nl, dl, ch = num_l[idx], den_l[idx], char[idx]
-            nc, dc = num_c[idx], den_c[idx]
-            # closed-loop damping and region shaping
-            mag = np.abs(r)
-            zeta = np.min(-r.real / np.maximum(mag, 1e-300), axis=1, initial=1.0)
-            out["min_damping_ratio"][idx] = zeta
-            reg_short = np.sum(np.maximum(-self.region.margin(r), 0.0), axis=1) / self.w_char
-            # modal step response of y and u
-            n = ch.shape[1] - 1
-            powers = np.arange(n, 0, -1)
-            dch = ch[:, :-1] * powers
-            c0 = ch[:, -1]
-            nu = _pad_to(batch_polymul(nc, self.gden), ch.shape[1])
-            with np.errstate(all="ignore"):
-                denom = r * _polyval_rows(dch, r)
-                ry = _polyval_rows(nl, r) / denom
-                ru = _polyval_rows(nu, r) / denom
-                yss = nl[:, -1] / c0
-                uss = nu[:, -1] / c0
-                sig = np.min(-r.real, axis=1, initial=np.inf)  # a static loop has no poles
-                horizon = np.where(np.isfinite(sig), (math.log(1.0 / self.band) + 6.0) / sig,
-                                   1.0)
-                if self.ts_floor is not None:
-                    horizon = np.maximum(horizon, 1.3 * self.ts_floor)
-                t = horizon[:, None] * self.tau[None, :]
-                E = np.exp(r[:, :, None] * t[:, None, :])
-                y = yss[:, None] + np.real(np.einsum("bn,bnt->bt", ry, E))
-                u = uss[:, None] + np.real(np.einsum("bn,bnt->bt", ru, E))
-            ok = np.all(np.isfinite(y), axis=1) & np.all(np.isfinite(u), axis=1)
-            scale = np.maximum(np.abs(yss), 1e-9)
-            sgn = np.where(yss >= 0, 1.0, -1.0)
-            os_ = np.maximum(0.0, np.max(sgn[:, None] * (y - yss[:, None]), axis=1)) / scale * 100
-            outside = np.abs(y - yss[:, None]) > self.band * scale[:, None]
-            last = (t.shape[1] - 1) - np.argmax(outside[:, ::-1], axis=1)
-            rows = np.arange(idx.size)
-            ts = np.where(outside.any(axis=1), t[rows, np.minimum(last + 1, t.shape[1] - 1)], 0.0)
-            z = sgn[:, None] * y / scale[:, None]
-            with np.errstate(invalid="ignore"):  # inf - inf: never rises
-                tr = _first_crossing(t, z, 0.9) - _first_crossing(t, z, 0.1)
-            tr = np.where(np.isfinite(tr), tr, np.inf)
-            eff = np.max(np.abs(u), axis=1)
-            sse = np.abs(1.0 - yss)
-            # frequency response with the exact delay
-            s = 1j * self.w
-            with np.errstate(all="ignore"):
-                L = _polyval_grid(nc, s) / _polyval_grid(dc, s) * self.g_jw[None, :]
-                S = 1.0 / np.abs(1.0 + L)
-                ms = np.max(np.where(np.isfinite(S), S, 0.0), axis=1)
-                lm = np.log(np.abs(L))
-                dist = np.degrees(np.abs(np.angle(-L)))  # angular distance from -1
-                cross = np.sign(lm[:, :-1]) != np.sign(lm[:, 1:])
-                frac = np.clip(lm[:, :-1] / (lm[:, :-1] - lm[:, 1:]), 0, 1)
-                pm_seg = dist[:, :-1] + frac * (dist[:, 1:] - dist[:, :-1])
-                pm = np.min(np.where(cross, pm_seg, np.inf), axis=1)
-                im = L.imag
-                pcross = (np.sign(im[:, :-1]) != np.sign(im[:, 1:])) & (L.real[:, :-1] < 0) \
-                    & (L.real[:, 1:] < 0)
-                fi = np.clip(im[:, :-1] / (im[:, :-1] - im[:, 1:]), 0, 1)
-                lmag = np.exp(lm[:, :-1] + fi * (lm[:, 1:] - lm[:, :-1]))
-                inv = 1.0 / lmag
-                hi = np.min(np.where(pcross & (lmag < 1), inv, np.inf), axis=1)
-                lo = np.max(np.where(pcross & (lmag > 1), inv, 0.0), axis=1)
-                gm_db = 20 * np.log10(hi)
-            est = {"overshoot_percent": os_, "settling_time": ts, "rise_time": tr,
-                   "steady_state_error": sse, "peak_control_effort": eff,
-                   "peak_sensitivity": ms, "phase_margin_deg": pm, "gain_margin_db": gm_db,
-                   "min_damping_ratio": zeta, "stable_plant_gain_range": (lo, hi)}
-            for key in _ESTIMATED:
-                out[key][idx] = est[key]
-            out["stable_plant_gain_range"][idx] = np.column_stack([lo, hi])
-
-            # penalties: the catalogue's normalised shortfall of each estimate against
-            # its tightened limit, in catalogue order
+            e = {k: v[idx] for k, v in est.items()}
+            lo, hi = e["stable_plant_gain_range"][:, 0], e["stable_plant_gain_range"][:, 1]
+            e["stable_plant_gain_range"] = (lo, hi)
+            # penalties: the catalogue's normalised shortfall of each estimate (its worst
+            # over the models) against its tightened limit, in catalogue order
             sh = np.zeros(idx.size)
             for entry, aim in self.targets:
                 if entry.kind == "contain":
-                    # the estimated interval comes from crossings on a coarse grid: also
-                    # count the test factors at which the eigenvalue-free kernel fails
-                    fails = np.zeros(idx.size)
-                    for k in self.range_factors:
-                        fails += ~_in_region(dl + k * nl, Region())
-                    sh += fails / self.range_factors.size
-                pen = entry.shortfall(est[entry.metric], aim)
+                    sh += e["range_fails"]
+                pen = entry.shortfall(e[entry.metric], aim)
                 if entry.cap is not None:
                     pen = np.minimum(pen, entry.cap)
                 sh += pen
-            sh = np.where(ok, sh, 5.0)
+            sh = np.where(e["ok"], sh, 5.0)
             feas = sh <= 0
-            sc = score_arrays(ms, lo, hi, ts, eff, self.family.n_params, self.refs,
-                              final_value=yss)
-            val = np.where(feas, np.minimum(sc, 0.999999), 1.0 + sh + 0.1 * np.log1p(reg_short))
+            sc = score_arrays(e["peak_sensitivity"], lo, hi, e["settling_time"],
+                              e["peak_control_effort"], self.family.n_params, self.refs,
+                              final_value=e["final_value"])
+            val = np.where(feas, np.minimum(sc, 0.999999),
+                           1.0 + sh + 0.1 * np.log1p(e["region_short"]))
             short[idx] = val
         f = np.where(stable, short, 10.0 + np.log1p(unstable_part / self.w_char))
         f = np.where(np.isfinite(f), f, 1e6)
@@ -348,8 +264,8 @@ def _prior_starts(family, context) -> list[tuple[np.ndarray, str]]:
     return out
 
 
-def _compass(objective, X, F, lo, hi):
-    """Batched compass search from several starts at once (``_POLISH_ITERATIONS`` at most).
+def _compass(objective, X, F, lo, hi, iterations: int = _POLISH_ITERATIONS):
+    """Batched compass search from several starts at once (``iterations`` at most).
 
     Each iteration evaluates, for every start, the 2p points one step along
     each coordinate and one pattern move (repeating the last successful
@@ -368,7 +284,7 @@ def _compass(objective, X, F, lo, hi):
     last = np.zeros_like(X)
     dirs = np.concatenate([np.eye(p), -np.eye(p)])
     evaluations = 0
-    for _ in range(_POLISH_ITERATIONS):
+    for _ in range(iterations):
         trial = X[:, None, :] + dirs[None, :, :] * steps[:, None, :]
         trial = np.concatenate([trial, (X + last)[:, None, :]], axis=1)
         trial = np.clip(trial, lo, hi)
@@ -418,9 +334,24 @@ def _converged(intermediate_result) -> bool:
     return bool(np.std(E) <= _DE_TOL * abs(float(np.mean(E))))
 
 
-def _polish_reserve(p: int) -> int:
+def _polish_iterations(p: int, budget: int, n_models: int = 1) -> int:
+    """Compass iterations the polish gets: ``_POLISH_ITERATIONS``, fewer on a tight budget.
+
+    Scoring every row on several plant models leaves fewer rows per family;
+    the polish then takes at most half of them (never fewer than
+    ``_MIN_POLISH_ITERATIONS``), so the evolution keeps generations of its own.
+    A single plant keeps the full polish (its runs are unchanged).
+    """
+    if n_models <= 1:
+        return _POLISH_ITERATIONS
+    per_iteration = (2 * p + 1) * (_N_POLISH + _N_PRIOR_POLISH)
+    fit = (budget // 2 - 20) // per_iteration
+    return int(max(_MIN_POLISH_ITERATIONS, min(_POLISH_ITERATIONS, fit)))
+
+
+def _polish_reserve(p: int, iterations: int = _POLISH_ITERATIONS) -> int:
     """Work units kept for the polish: every compass iteration from every start, plus priors."""
-    return _POLISH_ITERATIONS * (2 * p + 1) * (_N_POLISH + _N_PRIOR_POLISH) + 20
+    return iterations * (2 * p + 1) * (_N_POLISH + _N_PRIOR_POLISH) + 20
 
 
 @dataclass(frozen=True)
@@ -458,9 +389,11 @@ class EvolveStrategy:
         p = family.n_params
         popmult = max(5, int(math.ceil(_POPULATION / p)))
         npop = popmult * p
-        if int(context.work) < npop:
-            return []  # not even the initial population fits in the work allowance
         objective = SearchObjective(problem, family)
+        # a work unit is one candidate scored on one plant model
+        budget = int(context.work) // objective.n_models
+        if budget < npop:
+            return []  # not even the initial population fits in the work allowance
         lo, hi = family.bounds()
         rng = np.random.default_rng(context.seed)
         init = _latin_hypercube(rng, npop, lo, hi)
@@ -469,7 +402,8 @@ class EvolveStrategy:
             init[i] = x
         # the evolution costs npop rows per generation plus the initial population
         # each generation costs npop rows, plus the initial population of each run
-        rows = int(context.work) - _polish_reserve(p)
+        polish_iterations = _polish_iterations(p, budget, objective.n_models)
+        rows = budget - _polish_reserve(p, polish_iterations)
         generations = rows // npop - 1
         pops, energies_list, labels = [], [], []
         nit = 0
@@ -524,7 +458,7 @@ class EvolveStrategy:
                 prior_src = [f"polished {priors[i][1]} candidate" for i in keep]
             if k + len(prior_x):
                 X1, F1, used = _compass(objective, np.array(xs[:k] + prior_x),
-                                        np.array(fs[:k] + prior_f), lo, hi)
+                                        np.array(fs[:k] + prior_f), lo, hi, polish_iterations)
                 polish_evaluations += used
                 for j in range(k):
                     if F1[j] < fs[j]:
@@ -547,6 +481,7 @@ class EvolveStrategy:
                 "generations": nit,
                 "evaluations": nfev + polish_evaluations,
                 "gain_starts": len(starts),
+                "models": objective.n_models,
                 "seed": int(context.seed),
             }
             out.append(candidate_from_params(family, xs[j], self.origin, prov))

@@ -26,7 +26,7 @@ from synth.verify.simulation import StepResponse, simulate_step
 if TYPE_CHECKING:
     from synth.verify.saturated import SaturatedLoop
 
-__all__ = ["LoopCurves", "curves"]
+__all__ = ["LoopCurves", "ModelCurves", "curves", "model_curves"]
 
 
 @dataclass(frozen=True)
@@ -104,3 +104,69 @@ def curves(problem, num_c, den_c=None, t_end: float | None = None, plant=None) -
                                              problem.requirements)
     return LoopCurves(step=step, frequency=loop_frequency(plant, nc, dc),
                       closed_loop_poles=poles, stable=stable, saturated=saturated)
+
+
+@dataclass(frozen=True)
+class ModelCurves:
+    """The curves of one design's loop around one plant model.
+
+    Attributes
+    ----------
+    name : str
+        The model in words (``"nominal"``, a variant's label, ``{k=2.6, T=6}``).
+    model : str or dict
+        As the design JSON names it (``worst_case[...]["model"]``).
+    curves : LoopCurves
+        Computed exactly as for the nominal plant (exact dead time).
+    worst_for : tuple of str
+        Metric keys whose worst value over the models occurs here.
+    """
+
+    name: str
+    model: str | dict
+    curves: LoopCurves
+    worst_for: tuple[str, ...] = ()
+
+
+def model_curves(problem, num_c, den_c, models, t_end: float | None = None
+                 ) -> tuple[ModelCurves, ...]:
+    """The curves of one design around several plant models (for the report's overlay).
+
+    Parameters
+    ----------
+    problem : synth.problem.requirements.Problem
+        Its requirements (the simulation horizon).
+    num_c, den_c : array_like
+        Compensator polynomials.
+    models : iterable of (name, model, plant, worst_for)
+        The models to draw: the nominal plant, the variants and the models where
+        some metric is worst (the design JSON's ``worst_case``); see
+        :func:`synth.design.prepare_report`.
+    t_end : float, optional
+        Common simulation length (default: the longest of the verifier's
+        horizons over the models, so every curve covers the same span).
+
+    Returns
+    -------
+    tuple of ModelCurves
+    """
+    models = list(models)
+    first = [(name, model, plant, worst, curves(_with_plant(problem, plant), num_c, den_c,
+                                                t_end))
+             for name, model, plant, worst in models]
+    if t_end is None:
+        ends = [c.step.t[-1] for *_, c in first if c.step is not None and c.step.t.size]
+        span = max(ends) if ends else None
+        first = [(name, model, plant, worst,
+                  c if c.step is None or span is None or c.step.t[-1] >= span
+                  else curves(_with_plant(problem, plant), num_c, den_c, span))
+                 for name, model, plant, worst, c in first]
+    return tuple(ModelCurves(name=name, model=model, curves=c, worst_for=tuple(worst))
+                 for name, model, _, worst, c in first)
+
+
+def _with_plant(problem, plant):
+    """The problem with another plant model (requirements and search unchanged)."""
+    from dataclasses import replace
+
+    return replace(problem, plant=plant, models=None)

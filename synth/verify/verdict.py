@@ -51,6 +51,7 @@ References
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -111,6 +112,14 @@ class Verdict:
         steps, the actuator within its limits) and of the loop with the
         limited actuator (steps of the actuator table's sizes); ``metrics``
         holds the worse of the two.
+    worst_case : dict
+        With several plant models: metric key -> :class:`WorstCase` (the
+        metrics above are these worst values); empty for a single plant.
+    robustness : dict or None
+        With several plant models: how they were checked (JSON values; see
+        :func:`verify`).
+    model_results : tuple of (ModelPoint, ModelResult)
+        The models evaluated exactly, nominal first.
     """
 
     metrics: dict[str, Any]
@@ -126,6 +135,36 @@ class Verdict:
     witnesses: dict[str, str] = field(default_factory=dict)
     linear_metrics: dict[str, Any] = field(default_factory=dict)
     saturated_metrics: dict[str, Any] = field(default_factory=dict)
+    worst_case: dict[str, WorstCase] = field(default_factory=dict)
+    robustness: dict[str, Any] | None = None
+    model_results: tuple = ()
+
+
+@dataclass(frozen=True)
+class WorstCase:
+    """The worst value of one metric over the plant models, and the model where it occurs.
+
+    Attributes
+    ----------
+    value : float, list or None
+        As in :attr:`Verdict.metrics`.
+    model : synth.verify.robust.ModelPoint
+        Where it occurs.
+    exact : bool
+        From the exact evaluation of that model (``False``: a screening
+        estimate, only in a quick verdict).
+    """
+
+    value: Any
+    model: Any
+    exact: bool = True
+
+    def to_json(self) -> dict:
+        """The contract's ``{"value": v, "model": "label or {name: value}"}``."""
+        out = {"value": self.value, "model": self.model.to_json()}
+        if not self.exact:
+            out["estimated"] = True
+        return out
 
 
 def _cancellations(plant, nc, dc) -> list[tuple[str, complex]]:
@@ -323,12 +362,24 @@ def _saturate(problem, plant, controller, exact_delay, metrics, violations, shor
 
 
 def verify(problem, num_c, den_c=None, exact_delay: bool = True,
-           actuator: bool = True) -> Verdict:
-    """Verify one compensator against every requirement of ``problem``.
+           actuator: bool = True, *, depth: str = "full", setup=None) -> Verdict:
+    """Verify one compensator against every requirement of ``problem``, for every plant model.
 
-    Each plant model of the problem is evaluated by :func:`evaluate_model`
-    (today the nominal plant; further models join through
-    :func:`plant_models`); every limit is then judged by its catalogue entry.
+    Each plant model is evaluated by :func:`evaluate_model`; every limit is
+    then judged by its catalogue entry on the worst value over the models
+    (contract, "Definitions").  With a single plant this is the nominal
+    evaluation.  With ranges or variants (:class:`synth.problem.models.ModelSet`)
+    the models come from :mod:`synth.verify.robust`:
+
+    * ``depth="full"``: the nominal plant and every variant exactly; the box
+      corners and seeded samples screened with batched estimates; a local
+      worst-case search for each violated or nearest limit; the worst point
+      of each metric evaluated exactly; a robust stability test of the box
+      (:func:`synth.verify.robust.family_stability`).  The reported metrics
+      are worst values over the exact evaluations.
+    * ``depth="quick"``: the nominal plant exactly, every other model by the
+      screening estimates only (no local search, no family test); for
+      ordering many candidates before the reported ones get a full verdict.
 
     Parameters
     ----------
@@ -347,36 +398,216 @@ def verify(problem, num_c, den_c=None, exact_delay: bool = True,
         the loop with the limited actuator (default).  ``False`` judges the
         linear loop (a quicker first pass; reported designs are always
         re-verified with the actuator).
+    depth : {"full", "quick"}
+        How thoroughly several plant models are checked (no effect for one).
+    setup : synth.verify.robust.RobustSetup, optional
+        The problem's models prepared once (:func:`synth.verify.robust.robust_setup`);
+        built when omitted.
 
     Returns
     -------
     Verdict
+        With several models, ``worst_case`` and ``robustness`` say which
+        model gives each metric and how the models were searched.
     """
     from synth.verify.controller import Controller
 
+    if depth not in ("full", "quick"):
+        raise ValueError(f"depth must be 'full' or 'quick', not {depth!r}")
     controller = Controller.of(num_c, den_c)
-    results = [evaluate_model(problem, plant, controller, exact_delay, label, actuator)
-               for label, plant in plant_models(problem)]
-    nominal = results[0]
-    metrics = dict(nominal.metrics)
-    witnesses = dict(nominal.witnesses)
+    if problem.model_set.is_single:
+        nominal = evaluate_model(problem, problem.plant, controller, exact_delay, "nominal",
+                                 actuator)
+        metrics = dict(nominal.metrics)
+        witnesses = dict(nominal.witnesses)
+        violations = list(nominal.violations)
+        short = dict(nominal.shortfalls)
+        stable = nominal.stable
+        both = (dict(nominal.linear_metrics), dict(nominal.saturated_metrics))
+        _check_limits(problem.requirements, metrics, witnesses, stable, violations, short,
+                      both if both[1] else None)
+        return Verdict(metrics=metrics, violations=tuple(violations), feasible=not violations,
+                       closed_loop_poles=tuple(complex(p) for p in nominal.poles),
+                       stable=stable, internally_stable=nominal.internally_stable,
+                       shortfall=float(sum(short.values())), notes=nominal.notes,
+                       exact_delay=nominal.exact_delay, shortfalls=short, witnesses=witnesses,
+                       linear_metrics=both[0], saturated_metrics=both[1])
+    return _verify_models(problem, controller, exact_delay, depth, setup, actuator)
+
+
+def _verify_models(problem, controller, exact_delay: bool, depth: str, setup,
+                   actuator: bool = True) -> Verdict:
+    """:func:`verify` over several plant models (see there)."""
+    from synth.verify.robust import Exploration, explore, family_stability, robust_setup
+
+    setup = robust_setup(problem) if setup is None else setup
+    full = depth == "full"
+
+    def run(point):
+        return (point, evaluate_model(problem, point.plant, controller, exact_delay, point.name,
+                                      actuator))
+
+    results = [run(setup.nominal)]
+    stability = None
+    # an unstable nominal loop fails whatever the other models do: no search of the box
+    searched = results[0][1].stable
+    if full:
+        results += [run(p) for p in setup.variants]
+        found = (explore(problem, controller, setup, full=True) if searched
+                 else Exploration())
+        seen = [dict(setup.nominal.point)]
+        extra = [*found.unstable, *found.worst_points]
+        if searched:
+            stability = family_stability(problem, controller, setup)
+            if stability.counterexample is not None:
+                extra.append(stability.counterexample)
+        for p in extra:
+            if dict(p.point) not in seen:  # each point of the ranges once
+                seen.append(dict(p.point))
+                results.append(run(p))
+        estimated: dict = {}
+        unstable_estimates: tuple = ()
+    else:
+        found = (explore(problem, controller, setup, full=False, include_variants=True)
+                 if searched else Exploration())
+        estimated = found.worst
+        unstable_estimates = found.unstable
+
+    nominal = results[0][1]
+    metrics, witnesses, worst = _worst_over(results, estimated)
     violations = list(nominal.violations)
     short = dict(nominal.shortfalls)
-    stable = nominal.stable
+    notes = list(nominal.notes)
+    for point, res in results[1:]:
+        violations.extend(f"for {point.name}: {text}" for text in res.violations)
+        for key, value in res.shortfalls.items():
+            short[key] = max(short.get(key, 0.0), value)
+        notes.extend(f"for {point.name}: {text}" for text in res.notes
+                     if f"for {point.name}: {text}" not in notes)
+    for point in unstable_estimates:
+        violations.append(f"closed loop unstable for {point.name} (screening estimate)")
+        short["stability"] = max(short.get("stability", 0.0), _UNSTABLE_SHORTFALL)
+    stable = all(res.stable for _, res in results) and not unstable_estimates
+    if stability is not None and stability.certified is False:
+        counter = stability.counterexample
+        shown = counter is not None and any(
+            dict(p.point) == dict(counter.point) and not p.label and not r.stable
+            for p, r in results)
+        if not shown:
+            violations.append(f"robust stability over the ranges not certified by the "
+                              f"{stability.test}: {stability.detail}")
+            # an unstable member at plant-gain factor 1 is an unstable loop; one only at
+            # another factor, or no member found, weighs like a missed limit
+            at_one = counter is not None and stability.factor in (None, 1.0)
+            short["robust_stability"] = _UNSTABLE_SHORTFALL if at_one else 1.0
+            if at_one:
+                stable = False
+    # which response breaks a time-domain limit: judged on the nominal model's two responses
     both = (dict(nominal.linear_metrics), dict(nominal.saturated_metrics))
     _check_limits(problem.requirements, metrics, witnesses, stable, violations, short,
-                  both if both[1] else None)
+                  both if both[1] else None, worst=worst)
+    robustness = _robustness(setup, found, stability, results, depth)
     return Verdict(metrics=metrics, violations=tuple(violations), feasible=not violations,
                    closed_loop_poles=tuple(complex(p) for p in nominal.poles), stable=stable,
-                   internally_stable=nominal.internally_stable,
-                   shortfall=float(sum(short.values())), notes=nominal.notes,
-                   exact_delay=nominal.exact_delay, shortfalls=short, witnesses=witnesses,
-                   linear_metrics=both[0], saturated_metrics=both[1])
+                   internally_stable=all(r.internally_stable for _, r in results),
+                   shortfall=float(sum(short.values())), notes=tuple(notes),
+                   exact_delay=all(r.exact_delay for _, r in results), shortfalls=short,
+                   witnesses=witnesses, worst_case=worst, robustness=robustness,
+                   model_results=tuple(results), linear_metrics=both[0],
+                   saturated_metrics=both[1])
 
 
-def plant_models(problem) -> list[tuple[str, Any]]:
-    """The plant models a design must satisfy, as ``(label, plant)``, nominal first."""
-    return [("nominal", problem.plant)]
+def _robustness(setup, found, stability, results, depth: str) -> dict[str, Any]:
+    """The design JSON's ``robustness`` object: how the worst case was searched."""
+    out = {
+        "depth": depth,
+        "models": 1 + len(setup.variants) + len(setup.corners) + len(setup.samples)
+        + found.local_evaluations,
+        "variants": len(setup.variants),
+        "vertices": len(setup.corners),
+        "vertices_of_box": setup.corners_total,
+        "vertex_design": setup.corner_design,
+        "samples": len(setup.samples),
+        "screened": found.screened,
+        "local_searches": found.local_searches,
+        "local_evaluations": found.local_evaluations,
+        "exact_evaluations": len(results),
+        "exactly_evaluated": [p.to_json() for p, _ in results],
+    }
+    if setup.gain_factors is not None:
+        out["plant_gain_factors"] = list(setup.gain_factors)
+    if stability is not None:
+        out["stability_test"] = stability.test
+        out["stability_certified"] = stability.certified
+        out["stability_test_approximate"] = stability.approximate
+        if stability.detail:
+            out["stability_detail"] = stability.detail
+    return out
+
+
+def _worst_over(results, estimated) -> tuple[dict, dict, dict]:
+    """Metrics as their worst values over the models, the witnesses, and the worst cases.
+
+    Unstable models take no part (their instability is a violation of its
+    own); an interval metric is the intersection of the models' intervals;
+    metrics without an order (frequencies, the gain) are the nominal plant's.
+    """
+    nominal = results[0][1]
+    metrics = dict(nominal.metrics)
+    witnesses = dict(nominal.witnesses)
+    worst: dict[str, WorstCase] = {}
+    stable = [(p, r) for p, r in results if r.stable]
+    for key, metric in METRICS.items():
+        if key not in metrics or not stable:
+            continue
+        if metric.better in ("lower", "higher"):
+            point, res = stable[0]
+            value = res.metrics.get(key)
+            for p, r in stable[1:]:
+                v = r.metrics.get(key)
+                if metric.worse(v, value):
+                    point, res, value = p, r, v
+            exact = True
+            if key in estimated and metric.worse(estimated[key][0], value):
+                value, point = estimated[key]
+                exact = False
+            metrics[key] = value
+            if key in res.witnesses and exact:
+                witnesses[key] = f"{res.witnesses[key]} for {point.name}"
+            worst[key] = WorstCase(value, point, exact)
+        elif metric.better == "wider":
+            picked = _narrowest(stable, key, estimated.get(key))
+            if picked is not None:
+                value, point, exact = picked
+                metrics[key] = value
+                worst[key] = WorstCase(value, point, exact)
+    if "in_region" in metrics:
+        metrics["in_region"] = all(bool(r.metrics.get("in_region")) for _, r in stable)
+    return metrics, witnesses, worst
+
+
+def _narrowest(stable, key, estimate):
+    """Intersection of the models' intervals and the model that limits it most."""
+    lo, hi = -math.inf, math.inf
+    limiting, tight = None, math.inf
+    exact = True
+    entries = [(r.metrics.get(key), p, True) for p, r in stable]
+    if estimate is not None:
+        entries.append((estimate[0], estimate[1], False))
+    for value, point, is_exact in entries:
+        if value is None:
+            continue
+        a = -math.inf if value[0] is None else float(value[0])
+        b = math.inf if value[1] is None else float(value[1])
+        lo, hi = max(lo, a), min(hi, b)
+        # how far the interval reaches around 1, in the log sense
+        reach = min(math.log(1.0 / a) if a > 0 else math.inf, math.log(b) if b > 0 else -math.inf)
+        if limiting is None or reach < tight:
+            limiting, tight, exact = point, reach, is_exact
+    if limiting is None:
+        return None
+    value = [None if lo == -math.inf else lo, None if hi == math.inf else hi]
+    return value, limiting, exact
 
 
 def _slow_hidden_poles(poles, num_l, region) -> list[str]:
@@ -405,7 +636,8 @@ def _slow_hidden_poles(poles, num_l, region) -> list[str]:
     return out
 
 
-def _check_limits(req, metrics, witnesses, stable, violations, short, responses=None) -> None:
+def _check_limits(req, metrics, witnesses, stable, violations, short, responses=None,
+                 worst=None) -> None:
     """Judge every limit of the file by its catalogue entry.
 
     A ``structure`` requirement (the compensator gain) is judged for every
@@ -413,7 +645,9 @@ def _check_limits(req, metrics, witnesses, stable, violations, short, responses=
     ``responses`` (the linear and the saturated values of the time-domain
     metrics, :attr:`Verdict.linear_metrics` and ``saturated_metrics``), a
     violated time-domain limit says which response breaks it, and so whether
-    the design meets it without saturation.
+    the design meets it without saturation.  With
+    several models (``worst``: metric -> :class:`WorstCase`) a violation
+    names the model where the worst value occurs.
     """
     context = {k: req.value(k) for k in REQUIREMENTS}
     for entry, limit in req.limits():
@@ -428,4 +662,8 @@ def _check_limits(req, metrics, witnesses, stable, violations, short, responses=
 
                 text += saturation_remark(entry, responses[0].get(entry.metric),
                                           responses[1][entry.metric], limit, context)
+            case = (worst or {}).get(entry.metric)
+            if case is not None and case.model.name not in text:
+                text += (f" (worst case: {case.model.name}"
+                         + ("" if case.exact else ", screening estimate") + ")")
             violations.append(text)

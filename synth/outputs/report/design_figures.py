@@ -30,6 +30,7 @@ __all__ = [
     "draw_step",
     "draw_bode",
     "draw_sensitivity",
+    "draw_model_steps",
 ]
 
 #: The report's own colours (name -> hex).
@@ -365,3 +366,76 @@ def draw_sensitivity(target, curves: FigureData, requirements=None,
     ax.legend(fontsize=7, loc="lower right", framealpha=0.9)
     if title:
         ax.set_title(title, fontsize=9.5, color=PALETTE["ink"], loc="left")
+
+
+#: Metrics of the reference step whose worst case the model overlay marks.
+_STEP_METRICS = ("overshoot_percent", "settling_time", "rise_time", "peak_control_effort")
+
+
+def draw_model_steps(target, models, requirements=None, title: str | None = None) -> None:
+    """Step responses of one design around every plant model drawn, the worst case marked.
+
+    Parameters
+    ----------
+    target : matplotlib Figure or SubFigure
+    models : sequence of synth.verify.curves.ModelCurves
+        The verifier's curves per model (nominal first).
+    requirements : synth.problem.requirements.Requirements, optional
+        The overshoot and effort limits are drawn where set.
+    title : str, optional
+    """
+    from synth.problem.catalogue import METRICS
+
+    gs = target.add_gridspec(2, 1, left=0.11, right=0.97, bottom=0.13, top=0.9, hspace=0.38,
+                             height_ratios=[1.35, 1.0])
+    ax, ax2 = gs.subplots(sharex=True)
+    for a in (ax, ax2):
+        _style(a)
+    t_max = 0.0
+    marked = 0
+    for m in models:
+        step = m.curves.step
+        if step is None:
+            continue
+        worst = [k for k in m.worst_for if k in _STEP_METRICS]
+        style = "-"
+        if worst:
+            # each worst-case model its own dash pattern, so two of them stay apart
+            color, width, z = PALETTE["limit"], 1.8, 3
+            style = ("-", "--", "-.", ":")[marked % 4]
+            label = (f"worst case ({', '.join(METRICS[k].label for k in worst)}): {m.name}")
+            marked += 1
+        elif m.name == "nominal":
+            color, width, z = PALETTE["response"], 1.5, 2
+            label = "nominal"
+        else:
+            color, width, z = PALETTE["muted"], 0.9, 1
+            label = m.name
+        ax.plot(step.t, step.y, color=color, linewidth=width, zorder=z, label=label,
+                linestyle=style)
+        ax2.plot(step.t, step.u, color=color, linewidth=width * 0.8, zorder=z,
+                 linestyle=style)
+        t_max = max(t_max, float(step.t[-1]))
+    ax.axhline(1.0, color=PALETTE["muted"], linewidth=0.7)
+    os_limit = None if requirements is None else requirements.limit("overshoot_percent")
+    if os_limit is not None:
+        ax.axhline(1.0 + os_limit / 100.0, color=PALETTE["limit"], linestyle="--",
+                   linewidth=1.0, label=f"overshoot limit {os_limit:g} %")
+    ts = None if requirements is None else requirements.limit("settling_time")
+    if ts is not None:
+        ax.axvline(ts, color=PALETTE["limit"], linestyle=":", linewidth=1.0,
+                   label=f"settling-time limit {ts:g} s")
+    lim = None if requirements is None else requirements.limit("peak_control_effort")
+    if lim is not None:
+        ax2.axhline(lim, color=PALETTE["limit"], linestyle="--", linewidth=1.0)
+        ax2.axhline(-lim, color=PALETTE["limit"], linestyle="--", linewidth=1.0)
+    ax.set_ylabel("output", fontsize=8.5)
+    ax2.set_ylabel("effort", fontsize=8.5)
+    ax2.set_xlabel("time (s)", fontsize=8.5)
+    if t_max > 0:
+        view = 1.5 * ts if ts is not None and 1.5 * ts < t_max else t_max
+        ax2.set_xlim(0.0, view)
+    ax.legend(fontsize=6, loc="lower right", framealpha=0.9, ncol=2)
+    if title:
+        ax.set_title(title + ("" if marked else " (the nominal plant is the worst case)"),
+                     fontsize=9.5, color=PALETTE["ink"], loc="left")

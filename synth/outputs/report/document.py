@@ -45,8 +45,8 @@ from synth.outputs.document import DesignDocument, DesignRecord
 from synth.outputs.text import number as _g
 from synth.problem.catalogue import METRICS, REQUIREMENTS, requirement_for
 
-__all__ = ["CAUTIONS", "SECTION_TITLES", "FIGURE_KINDS", "DesignFigures", "ReportInput",
-           "build_sections", "write_report"]
+__all__ = ["CAUTIONS", "SECTION_TITLES", "FIGURE_KINDS", "MODEL_FIGURE", "DesignFigures",
+           "ReportInput", "build_sections", "write_report"]
 
 #: Fixed section titles (design sections are titled "Design N: structure").
 SECTION_TITLES = {
@@ -60,6 +60,8 @@ SECTION_TITLES = {
 
 #: The figures drawn for each top design, in order.
 FIGURE_KINDS = ("locus", "step", "bode", "sensitivity")
+#: The extra figure of a design when the problem has several plant models.
+MODEL_FIGURE = "models"
 
 #: The figure a design gets after its step response when the problem has actuator limits.
 SATURATION_FIGURE = "saturation"
@@ -90,6 +92,9 @@ class DesignFigures:
     sweep : synth.verify.sweep.GainSweep or None
         The verifier along the design's locus (0.2x to 5x its gain), for the
         interactive page; ``None``: the page shows the design without a slider.
+    models : tuple of synth.verify.curves.ModelCurves
+        With several plant models: the design's curves around each model drawn
+        (nominal, variants, worst cases); empty otherwise.
     """
 
     rank: int
@@ -98,6 +103,7 @@ class DesignFigures:
     locus_gain: float | None = None
     locus_note: str = ""
     sweep: Any = None
+    models: tuple = ()
 
 
 @dataclass(frozen=True)
@@ -255,6 +261,17 @@ def _plant_section(problem) -> Section:
     if plant.label:
         blocks.append(Para(f"{plant.label}"))
     blocks.append(Pre((f"G(s) = {plant.describe()}",)))
+    models = problem.model_set
+    if not models.is_single:
+        blocks.append(Para(f"Plant models (every requirement must hold for all): "
+                           f"{models.describe()}."))
+        if models.expression is not None:
+            blocks.append(Pre((f"G(s) = {models.expression}"
+                               + (" * exp(-dead_time s)" if plant.dead_time else ""),
+                               "nominal: " + ", ".join(f"{k} = {_g(v)}"
+                                                       for k, v in models.parameters))))
+        for v in models.variants:
+            blocks.append(Pre((f"{v.label}: G(s) = {v.plant.describe()}",)))
     rows = [("order (engine form)", str(plant.order)),
             ("relative degree", str(plant.relative_degree)),
             ("poles", _cplx_list(np.roots(plant.rational_den) if len(plant.denominator) > 1
@@ -466,6 +483,7 @@ def _design_section(report: ReportInput, design: DesignRecord, fig: DesignFigure
                          "the shortest distance from the Nyquist curve to -1.",
                          "sensitivity magnitude",
                          draw=lambda t: draw_sensitivity(t, curves, req, "S = 1/(1+L)")))
+    blocks.extend(_model_blocks(report, design, fig))
     for n in (*curves.notes, *design.notes):
         blocks.append(Para(f"Note: {str(n).rstrip('.')}.", "muted"))
     from synth.outputs.report.discrete_section import discrete_blocks
@@ -500,6 +518,60 @@ def _saturation_blocks(problem, fig: DesignFigures, design: DesignRecord) -> lis
                "units with its range dashed.", "linear and saturated step responses",
                draw=lambda t: draw_saturation(t, data, problem.requirements)),
     ]
+
+
+def _model_text(model) -> str:
+    if isinstance(model, str):
+        return model
+    return "{" + ", ".join(f"{k}={_g(v)}" for k, v in dict(model).items()) + "}"
+
+
+def _model_blocks(report: ReportInput, design: DesignRecord, fig: DesignFigures) -> list:
+    """With several plant models: the worst-case table, how it was searched, the overlay."""
+    from synth.outputs.report.design_figures import draw_model_steps
+
+    if not design.worst_case:
+        return []
+    req = report.problem.requirements
+    blocks: list = [Heading("Over the plant models")]
+    rows = []
+    for key, case in design.worst_case.items():
+        if key not in METRICS:
+            continue
+        rows.append((METRICS[key].title, _metric_text(key, case.get("value")),
+                     _model_text(case.get("model")) + (" (estimate)" if case.get("estimated")
+                                                        else "")))
+    blocks.append(Para("The root locus, Bode and sensitivity figures above are drawn for the "
+                       "nominal plant; every value in the performance table is the worst over "
+                       "the plant models, and this is where each occurs.", "muted"))
+    blocks.append(Table(("metric", "worst value", "model"), tuple(rows),
+                        numeric=(False, True, False)))
+    rob = design.robustness or {}
+    if rob:
+        parts = [f"{rob.get('exact_evaluations', 0)} models evaluated exactly"]
+        if rob.get("vertices"):
+            parts.append(f"{rob['vertices']} box corners ({rob.get('vertex_design', '')}) and "
+                         f"{rob.get('samples', 0)} seeded samples screened")
+        if rob.get("local_searches"):
+            parts.append(f"{rob['local_searches']} local worst-case searches "
+                         f"({rob.get('local_evaluations', 0)} evaluations)")
+        text = "How the worst case was searched: " + "; ".join(parts) + "."
+        if rob.get("stability_certified") is None and rob.get("stability_test"):
+            text += f" Stability: from the {rob['stability_test']}."
+        elif rob.get("stability_test"):
+            state = "certifies" if rob.get("stability_certified") else "does NOT certify"
+            text += (f" Robust stability: the {rob['stability_test']} {state} stability over "
+                     "the ranges" + (f" ({rob['stability_detail']})"
+                                     if rob.get("stability_detail") else "") + ".")
+        blocks.append(Para(text, "muted"))
+    if fig.models:
+        blocks.append(Figure(MODEL_FIGURE, 3.4,
+                             "Unit-step output and control effort around each plant model drawn "
+                             "(nominal, variants and every worst-case model); the model where a "
+                             "step metric is worst is marked.", "step responses over the models",
+                             draw=lambda t: draw_model_steps(t, fig.models, req,
+                                                             "unit step, every model drawn")))
+    return blocks
 
 
 def _implementation_blocks(im: dict, sampled: bool = False) -> list:
