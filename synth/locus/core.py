@@ -236,8 +236,8 @@ def line_crossing_gains(num, den, a: complex, b: complex) -> tuple[np.ndarray, n
 
 def _shift(p: np.ndarray, a: float) -> np.ndarray:
     """Coefficients of ``p(z - a)`` (Taylor shift by Horner's scheme)."""
-    out = np.zeros(1)
-    for c in p:
+    out = np.array(p[:1], dtype=float)  # a constant stays itself (a static loop)
+    for c in p[1:]:
         out = np.polymul(out, [1.0, -a])
         out[-1] += c
     return _pad(out, p.size)

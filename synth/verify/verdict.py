@@ -636,6 +636,30 @@ def _slow_hidden_poles(poles, num_l, region) -> list[str]:
     return out
 
 
+#: At most this many corners of the parameter box are listed by :func:`plant_models`.
+_LISTED_CORNERS = 8
+
+
+def plant_models(problem) -> list[tuple[str, Any]]:
+    """The plant models worth showing, as ``(label, plant)``, nominal first.
+
+    The nominal plant, every variant, and the corners of the parameter box
+    (at most :data:`_LISTED_CORNERS`, in the box's own order).  The verdict
+    itself searches the ranges more thoroughly (:mod:`synth.verify.robust`);
+    this list is for outputs that draw the models side by side.
+    """
+    from synth.problem.models import point_text
+
+    models = problem.model_set
+    out: list[tuple[str, Any]] = [("nominal", problem.plant)]
+    out += [(v.label, v.plant) for v in models.variants]
+    if models.ranges:
+        out += [(point_text(point), plant)
+                for point, plant in models.corner_plants[:_LISTED_CORNERS]]
+    return out
+
+
+
 def _check_limits(req, metrics, witnesses, stable, violations, short, responses=None,
                  worst=None) -> None:
     """Judge every limit of the file by its catalogue entry.
