@@ -182,16 +182,40 @@ def test_a_sampled_run_writes_the_contracts_discrete_field():
 
 
 def test_a_period_too_long_makes_the_sampled_loop_unstable_and_infeasible():
+    # a PI tuned for the continuous loop, sampled far too slowly: the verdict is the sampled
+    # loop's (numpy-free fact: a loop whose pole leaves the unit circle is unstable)
+    from synth.problem.requirements import problem_from_text
+    from synth.verify.verdict import verify
+
+    problem = problem_from_text(REQ + "period = 2.5\ncompute_delay = 2.5\n", "s.toml")
+    v = verify(problem, [2.0, 3.0], [1.0, 0.0])
+    assert not v.stable and not v.feasible
+    assert any(t.startswith("sampled loop unstable at T = 2.5 s with a computation delay of "
+                            "2.5 s") for t in v.violations)
+    sd = sampled_design(problem.plant, Controller((2.0, 3.0), (1.0, 0.0)), problem.sampling)
+    assert not sd.loop.stable and sd.loop.spectral_radius > 1.0
+    assert any(w.startswith("warning") for w in sd.warnings)
+
+
+def test_the_search_keeps_the_sampled_loop_stable_when_the_period_is_long():
+    # the search designs for the loop with the hold and the delay (T/2 + tau more dead time),
+    # so even at 2.5 s with 2.5 s of computation delay its designs are stable once sampled
     run = _run("period = 2.5\ncompute_delay = 2.5\n")
     doc = run.to_json()
-    unstable = [d for d in doc["designs"] if not d["discrete"]["sampled_loop"]["stable"]]
-    assert unstable
-    for d in unstable:
-        assert not d["feasible"]
-        assert any(v.startswith("sampled loop unstable at T = 2.5 s") for v in d["violations"])
-        assert any(w.startswith("warning") for w in d["discrete"]["warnings"])
+    assert doc["designs"]
+    # the plant by scipy.signal.cont2discrete (zoh), the 2.5 s delay as one sample (z^-1),
+    # C(z) as the document gives it; closed-loop roots by numpy.roots
+    gnd, gdd, _ = cont2discrete(PLANT, 2.5, method="zoh")
+    gnd, gdd = np.trim_zeros(np.ravel(gnd), "f"), np.concatenate([gdd, [0.0]])
+    for d in doc["designs"]:
+        dz = d["discrete"]
+        assert dz["sampled_loop"]["stable"]
+        char = np.polyadd(np.polymul(dz["denominator"], gdd), np.polymul(dz["numerator"], gnd))
+        assert np.max(np.abs(np.roots(char))) < 1.0
+        ours = sorted(abs(complex(*p)) for p in dz["sampled_loop"]["poles_z"])
+        assert ours[-1] == pytest.approx(np.max(np.abs(np.roots(char))), rel=1e-6)
     lines = "\n".join(run.table_lines())
-    assert "sampled every 2.5 s" in lines and "UNSTABLE" in lines
+    assert "sampled every 2.5 s" in lines and "warning: sampling at" in lines
 
 
 def test_report_has_a_discrete_implementation_part():

@@ -26,6 +26,7 @@ import numpy as np
 
 from synth.errors import InputError
 from synth.numerics.poly import coefficients
+from synth.verify.hybrid import split_delay
 from synth.verify.simulation import discrete_step, hold_integrals, realise
 
 __all__ = [
@@ -33,6 +34,7 @@ __all__ = [
     "SampledDesign",
     "SampledLoopCheck",
     "design_zmap",
+    "map_design",
     "rate_figures",
     "sampled_design",
     "sampled_loop_check",
@@ -111,10 +113,7 @@ def zoh_discretise(num, den, T: float, dead_time: float = 0.0
     d = coefficients(den, "the plant denominator", allow_zero=False)
     if n.size > d.size:
         raise InputError("the plant is improper (numerator degree above denominator)")
-    whole = math.floor(dead_time / T + 1e-12)
-    frac = dead_time - whole * T
-    if frac <= 1e-12 * T:
-        frac = 0.0
+    whole, frac = split_delay(dead_time, T)
     order = d.size - 1
     if order == 0:
         gain = n[0] / d[0]
@@ -484,6 +483,42 @@ def design_zmap(crossover: float | None, T: float):
     return ZMap("tustin-prewarp", T, float(crossover)), None
 
 
+def map_design(plant, controller, sampling, limits=None, max_rate=None,
+               source: str | None = None, key: str | None = None):
+    """A continuous design's discrete controller, as the run maps it and the export rebuilds it.
+
+    Tustin's method pre-warped at the gain crossover of ``controller`` around
+    ``plant`` (:func:`design_zmap`), realised by
+    :func:`synth.verify.discrete.discrete_controller` with the limits.
+
+    Parameters
+    ----------
+    plant : synth.problem.plant.Plant
+        The plant whose loop sets the pre-warping frequency (the nominal plant:
+        one controller is exported, whatever model it is then judged against).
+    controller : synth.verify.controller.Controller
+    sampling : synth.problem.sampling.Sampling
+    limits : (float, float), optional
+    max_rate : float, optional
+    source, key : str, optional
+        Where errors point.
+
+    Returns
+    -------
+    (DiscreteController, LoopFrequency, str or None)
+        The controller, the continuous loop's frequency facts and the reason
+        plain Tustin was used (``None`` when pre-warped).
+    """
+    from synth.verify.discrete import discrete_controller
+    from synth.verify.frequency import loop_frequency
+
+    facts = loop_frequency(plant, controller.num, controller.den)
+    zmap, why = design_zmap(facts.crossover_frequency, sampling.period)
+    model = discrete_controller(controller, zmap, compute_delay=sampling.compute_delay,
+                                limits=limits, max_rate=max_rate, source=source, key=key)
+    return model, facts, why
+
+
 @dataclass(frozen=True)
 class SampledDesign:
     """A design as it runs sampled: its discrete controller and the sampled loop's figures.
@@ -507,6 +542,13 @@ class SampledDesign:
         ``phase_margin_deg``, ``bandwidth``.
     warnings : tuple of str
         Every warning or note, with numbers.
+    poles_z : tuple of complex
+        The sampled-data loop's closed-loop poles in z (eigenvalues of the loop
+        from sample to sample, :meth:`synth.verify.hybrid.SampledLoop.poles`);
+        ``loop.stable`` and ``loop.spectral_radius`` are read from them.
+    frequency : synth.verify.hybrid.SampledFrequency or None
+        The loop on the unit circle (margins, ``Ms``, ``Mt``, noise gain), for
+        a stable loop.
     """
 
     period: float
@@ -518,10 +560,13 @@ class SampledDesign:
     rate: RateFigures
     continuous: dict
     warnings: tuple[str, ...]
+    poles_z: tuple[complex, ...] = ()
+    frequency: Any = None
 
     def to_json(self) -> dict:
         """The design JSON's ``discrete`` object (contract fields first)."""
         from synth.outputs.forms import difference_equation
+        from synth.outputs.jsonout import root_pairs
 
         num, den = self.controller.transfer()
         out = {"period": self.period, "compute_delay": self.compute_delay,
@@ -536,7 +581,15 @@ class SampledDesign:
                                "final_value": lp.final_value,
                                "numerically_marginal": lp.marginal,
                                "crossover_frequency": self.crossover_frequency,
-                               "phase_margin_deg": self.phase_margin_deg}
+                               "phase_margin_deg": self.phase_margin_deg,
+                               "poles_z": root_pairs(self.poles_z)}
+        if self.frequency is not None:
+            f = self.frequency
+            out["sampled_loop"].update(
+                gain_margin_db=f.gain_margin_db, delay_margin=f.delay_margin,
+                peak_sensitivity=f.peak_sensitivity,
+                peak_complementary_sensitivity=f.peak_complementary_sensitivity,
+                noise_gain=f.noise_gain)
         out["continuous"] = dict(self.continuous)
         out["rate"] = self.rate.to_json()
         out["warnings"] = list(self.warnings)
@@ -576,22 +629,30 @@ def sampled_design(plant, controller, sampling, limits=None, max_rate=None,
     .. [1] G. F. Franklin, J. D. Powell and M. L. Workman, *Digital Control of
        Dynamic Systems*, 3rd ed., Addison-Wesley, 1998, ch. 4, 6 and 11, from memory.
     """
-    from synth.verify.discrete import discrete_controller
-    from synth.verify.frequency import loop_frequency
-
     T, tau = sampling.period, sampling.compute_delay
-    facts = loop_frequency(plant, controller.num, controller.den)
-    zmap, why = design_zmap(facts.crossover_frequency, T)
+    model, facts, why = map_design(plant, controller, sampling, limits=limits,
+                                   max_rate=max_rate, source=source, key=key)
     warnings = [why] if why else []
-    model = discrete_controller(controller, zmap, compute_delay=tau, limits=limits,
-                                max_rate=max_rate, source=source, key=key)
     warnings.extend(f"note: {n}" for n in model.notes)
     gn, gd = zoh_discretise(plant.rational_num, plant.rational_den, T, plant.dead_time + tau)
     cn, cd = model.transfer()
     loop = sampled_loop_check(gn, gd, cn, cd, T)
-    wc_d, pm_d = (None, None)
+    # stability, poles and margins from the sampled-data loop the verdict judges (eigenvalues
+    # of the loop from sample to sample; the loop on the unit circle): the polynomial check
+    # above keeps the overshoot at the samples and the characteristic polynomial
+    from dataclasses import replace
+
+    from synth.verify.frequency import frequency_grid
+    from synth.verify.hybrid import UNIT_CIRCLE_TOL, sampled_loop
+
+    hybrid = sampled_loop(plant, model)
+    poles_z = hybrid.poles()
+    rho = float(np.max(np.abs(poles_z))) if poles_z.size else 0.0
+    loop = replace(loop, stable=rho < 1.0 - UNIT_CIRCLE_TOL, spectral_radius=rho)
+    wc_d, pm_d, freq = None, None, None
     if loop.stable:
-        wc_d, pm_d = sampled_loop_margin(gn, gd, cn, cd, T, hint=facts.crossover_frequency)
+        freq = hybrid.frequency(frequency_grid(plant, controller.num, controller.den))
+        wc_d, pm_d = freq.crossover_frequency, freq.phase_margin_deg
     rate = rate_figures(T, tau, facts.crossover_frequency, facts.bandwidth,
                         facts.phase_margin_deg)
     if rate.message:
@@ -610,7 +671,8 @@ def sampled_design(plant, controller, sampling, limits=None, max_rate=None,
                   "phase_margin_deg": facts.phase_margin_deg, "bandwidth": facts.bandwidth}
     return SampledDesign(period=T, compute_delay=tau, controller=model, loop=loop,
                          crossover_frequency=wc_d, phase_margin_deg=pm_d, rate=rate,
-                         continuous=continuous, warnings=tuple(warnings))
+                         continuous=continuous, warnings=tuple(warnings),
+                         poles_z=tuple(complex(p) for p in poles_z), frequency=freq)
 
 
 def sampled_verdict(verdict, sampled: SampledDesign):
