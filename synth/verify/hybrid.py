@@ -553,7 +553,10 @@ class SampledLoop:
         # both ends of the circle, z = 1 and z = -1, where L is real (or infinite at a pole)
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             for x in (0.0, nyq):
-                end = at(x)
+                try:
+                    end = at(x)
+                except np.linalg.LinAlgError:  # a pole of the plant exactly there (1/s: z = 1)
+                    continue
                 if np.isfinite(end.real) and np.isfinite(end.imag):
                     crossings.append((x, float(end.real)))
         crossings.sort()
