@@ -7,8 +7,8 @@ External references:
 * scipy.signal.lsim (interp=False: the input held between points) for the continuous output
   between the samples, with a fractional computation delay, a dead time and a load step, and
   scipy.signal.lfilter of the design's C(z) for the controller's outputs;
-* an independent hybrid simulation written here from scipy.signal.cont2discrete at a fine step
-  and scipy.signal.lfilter sample by sample, for the verdict's step metrics;
+* an independent hybrid simulation (tests/independent.py: scipy.signal.cont2discrete at a fine
+  step, scipy.signal.lfilter sample by sample) for the verdict's step metrics;
 * scipy.signal.freqz of the ZOH plant and C(z) for margins, Ms, Mt and the noise gain;
 * the phase lag of a zero-order hold, w T / 2 (common practice; Franklin, Powell and Workman,
   from memory), exact for an integrating plant;
@@ -27,7 +27,7 @@ import subprocess
 
 import numpy as np
 import pytest
-from scipy.signal import cont2discrete, dlsim, freqresp, freqz, lfilter, lsim, tf2ss
+from scipy.signal import cont2discrete, dlsim, freqresp, freqz, lfilter, lsim
 
 from synth.problem.plant import Plant
 from synth.problem.requirements import problem_from_text
@@ -37,6 +37,7 @@ from synth.verify.discrete import ZMap, discrete_controller
 from synth.verify.hybrid import sampled_loop
 from synth.verify.sampled import map_design
 from synth.verify.verdict import verify
+from tests.independent import sampled_step
 
 PLANT = ([1.0], [1.0, 3.0, 2.0])            # 1/((s + 1)(s + 2))
 RESONANT = ([4.0], [1.0, 0.8, 4.0])         # lightly damped: ripple between samples
@@ -190,30 +191,6 @@ def test_fast_sampling_tends_to_the_continuous_margin_less_the_hold(scale):
 # ---------------------------------------------------------------------------------------------
 
 
-def _independent_step(plant_tf, cn, cd, period, delay, t_end, sub=400):
-    """The sampled loop's unit step by scipy pieces: the plant by cont2discrete at T/sub, C(z)
-    by lfilter one sample at a time, the delay as a whole number of fine steps."""
-    h = period / sub
-    Ad, Bd, Cd, Dd, _ = cont2discrete(tf2ss(*plant_tf), h, method="zoh")
-    Cd = Cd[0]
-    lag = int(round(delay / h))
-    samples = int(math.ceil(t_end / period))
-    x = np.zeros(Ad.shape[0])
-    zi = np.zeros(max(len(cn), len(cd)) - 1)
-    u_hist = np.zeros(samples * sub + lag + 1)
-    y = np.zeros(samples * sub)
-    u = np.zeros(samples)
-    for k in range(samples):
-        yk = float(Cd @ x)
-        out, zi = lfilter(cn, cd, [1.0 - yk], zi=zi)
-        u[k] = out[0]
-        u_hist[k * sub + lag:(k + 1) * sub + lag] = u[k]
-        for j in range(sub):
-            y[k * sub + j] = float(Cd @ x)
-            x = Ad @ x + Bd[:, 0] * u_hist[k * sub + j]
-    return np.arange(samples * sub) * h, y, u
-
-
 def test_the_verdicts_step_metrics_are_those_of_the_output_between_samples():
     text = ("[plant]\nnumerator = [4.0]\ndenominator = [1.0, 0.8, 4.0]\n"
             "[requirements]\nmax_overshoot_percent = 60.0\nmax_settling_time = 12.0\n"
@@ -224,7 +201,7 @@ def test_the_verdicts_step_metrics_are_those_of_the_output_between_samples():
     assert v.stable
     model, _, _ = map_design(problem.plant, Controller(*controller), problem.sampling)
     cn, cd = model.transfer()
-    t, y, u = _independent_step(RESONANT, cn, cd, 0.9, 0.45, 60.0)
+    t, y, u = sampled_step(problem.plant, 0.9, 0.45, cn, cd, 60.0)
     final = v.metrics["final_value"]
     assert final == pytest.approx(1.0, rel=1e-9)                 # integral action
     overshoot = (np.max(y) - final) / final * 100

@@ -31,7 +31,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from synth.numerics.poly import format_complex, trim
+from synth.numerics.poly import format_complex, scaled_roots, trim
 
 __all__ = ["evaluate_sampled", "s_equivalent"]
 
@@ -69,11 +69,15 @@ def evaluate_sampled(problem, plant, controller, label: str = "nominal"):
     Returns
     -------
     synth.verify.verdict.ModelResult
-        ``poles`` are the s-plane equivalents of the sampled loop's poles
-        (:func:`s_equivalent`); the metrics are the sampled loop's, with the
-        extra keys ``spectral_radius``, ``peak_complementary_sensitivity`` and
-        ``noise_gain``.
+        ``poles`` are the continuous design's closed-loop poles (``C(s)``
+        around the plant's engine form: the contract's ``closed_loop_poles``
+        keep their meaning); every metric is the sampled loop's, with the extra
+        keys ``spectral_radius``, ``peak_complementary_sensitivity`` and
+        ``noise_gain``.  The sampled loop's own poles in z are
+        :meth:`synth.verify.hybrid.SampledLoop.poles` (the design JSON's
+        ``discrete.sampled_loop.poles_z``).
     """
+    from synth.problem.region import Region
     from synth.verify.frequency import frequency_grid
     from synth.verify.hybrid import (
         _SEGMENT,
@@ -81,6 +85,7 @@ def evaluate_sampled(problem, plant, controller, label: str = "nominal"):
         UNIT_CIRCLE_TOL,
         sampled_loop,
     )
+    from synth.verify.loop import loop_polynomials
     from synth.verify.sampled import map_design
     from synth.verify.simulation import StepResponse, step_horizon, step_metrics
     from synth.verify.verdict import (
@@ -121,7 +126,6 @@ def evaluate_sampled(problem, plant, controller, label: str = "nominal"):
         metrics["min_damping_ratio"] = float(zeta[i])
         witnesses["min_damping_ratio"] = f"z = {format_complex(zn[i])} (s = {format_complex(s[i])})"
         metrics["in_region"] = bool(stable and problem.region.contains(s))
-        s = s[np.lexsort((s.imag, s.real))]
     else:  # every pole at z = 0: a deadbeat loop
         metrics["min_damping_ratio"] = 1.0
         metrics["in_region"] = stable
@@ -150,7 +154,14 @@ def evaluate_sampled(problem, plant, controller, label: str = "nominal"):
         if resp.limited and resp.t_samples.size >= MAX_NONLINEAR_SAMPLES:
             notes.append(f"the saturated sampled loop was simulated for its first "
                          f"{resp.t_samples.size} samples only ({resp.t_samples[-1]:.4g} s)")
-    return ModelResult(label=label, metrics=metrics, witnesses=witnesses, poles=s,
+    # the contract's closed-loop poles: the continuous design's unreduced loop
+    _, _, char = loop_polynomials(plant, nc, dc)
+    poles = scaled_roots(char)
+    poles = poles[np.lexsort((poles.imag, poles.real))] if poles.size else poles
+    if stable and poles.size and not Region().contains(poles):
+        notes.append("the continuous design C(s) around the plant is not stable by itself; "
+                     "only its sampled form, as verified here, is")
+    return ModelResult(label=label, metrics=metrics, witnesses=witnesses, poles=poles,
                        stable=stable, internally_stable=internally_stable,
                        violations=tuple(violations), shortfalls=short, notes=tuple(notes),
                        exact_delay=True)
