@@ -168,8 +168,19 @@ class HeldPlant:
             return out
         PmI, Go, Gn = self.period_map()
         M = zm1[..., None, None] * np.eye(n) - PmI
-        rhs = np.stack([Go, Gn], axis=-1)
-        X = np.linalg.solve(M, np.broadcast_to(rhs, M.shape[:-2] + rhs.shape))
+        rhs = np.broadcast_to(np.stack([Go, Gn], axis=-1), M.shape[:-2] + (n, 2))
+        try:
+            X = np.linalg.solve(M, rhs)
+        except np.linalg.LinAlgError:
+            # z exactly at a pole of the plant (1/s at z = 1): infinite there, finite elsewhere
+            flat, rf = M.reshape(-1, n, n), rhs.reshape(-1, n, 2)
+            X = np.empty(rf.shape, dtype=complex)
+            for i in range(flat.shape[0]):
+                try:
+                    X[i] = np.linalg.solve(flat[i], rf[i])
+                except np.linalg.LinAlgError:
+                    X[i] = complex(math.inf, 0.0)
+            X = X.reshape(rhs.shape)
         cx = np.einsum("i,...ij->...j", self.C, X)
         return out + cx[..., 0] * z ** (-(d + 1)) + cx[..., 1] * z ** (-d)
 
@@ -376,6 +387,67 @@ class SampledFrequency:
                 "noise_gain": self.noise_gain}
 
 
+def real_points(fun, t) -> list[tuple[float, complex]]:
+    """Where a complex function of a real parameter is real: ``[(t, fun(t)), ...]``.
+
+    Sign changes of ``Im f / |f|`` on the grid ``t`` (ascending), each refined
+    by :func:`scipy.optimize.brentq`; grid points where it is exactly real
+    count too.  ``fun`` takes an array of parameters (vectorised) and a scalar.
+    """
+    from scipy.optimize import brentq
+
+    t = np.asarray(t, dtype=float)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        f = np.asarray(fun(t), dtype=complex)
+        im = np.where(np.isfinite(f), f.imag / np.maximum(np.abs(f), 1e-300), np.nan)
+    out: list[tuple[float, complex]] = []
+
+    def rel_im(x):
+        v = complex(fun(x))
+        return v.imag / max(abs(v), 1e-300)
+
+    ok = np.isfinite(im[:-1]) & np.isfinite(im[1:])
+    for i in np.flatnonzero(ok & (np.sign(im[:-1]) * np.sign(im[1:]) < 0)):
+        try:
+            x = brentq(rel_im, t[i], t[i + 1], xtol=4 * np.finfo(float).eps * abs(t[i + 1]))
+        except ValueError:
+            continue
+        v = complex(fun(x))
+        if np.isfinite(v.real):
+            out.append((float(x), v))
+    for i in np.flatnonzero(im == 0):
+        out.append((float(t[i]), complex(f[i])))
+    return out
+
+
+def factor_intervals(candidates, member, scale: float = 1.0
+                     ) -> list[tuple[float | None, float | None]]:
+    """Open intervals of real factors where ``member(factor)`` holds, from boundary candidates.
+
+    Membership can change only at a candidate (there a pole sits on the boundary, so the
+    candidate itself is never a member); one test inside each gap, and beyond both ends,
+    decides the gap.  ``scale`` is a typical factor (1 for a dimensionless plant-gain
+    factor; the loop's own gain scale for a proportional gain), so the probes beyond the
+    ends carry no absolute size.  ``None`` marks an unbounded end.
+    """
+    c = sorted({float(x) for x in candidates if np.isfinite(x)})
+
+    def inside(a, b):
+        if a is None and b is None:
+            return scale
+        if a is None:
+            return b - max(abs(b), scale)
+        if b is None:
+            return a + max(abs(a), scale)
+        if a > 0 and b > 0:
+            return math.sqrt(a * b)
+        if a < 0 and b < 0:
+            return -math.sqrt(a * b)
+        return 0.5 * (a + b)
+
+    return [(a, b) for a, b in zip([None, *c], [*c, None], strict=True) if member(inside(a, b))]
+
+
 def _shift_to_one(p) -> np.ndarray:
     """Coefficients of ``p(1 + e)`` in descending powers of ``e`` (Taylor shift by Horner)."""
     c = np.array(p, dtype=float)
@@ -535,28 +607,13 @@ class SampledLoop:
             dms.append(lag / wc)
             wcs.append(wc)
         # every point where L is real: the gain boundaries -1/L and the gain margin
-        crossings: list[tuple[float, float]] = []
-        im = np.where(finite, L.imag / np.maximum(np.abs(L), 1e-300), np.nan)
-        ch = np.flatnonzero(np.isfinite(im[:-1]) & np.isfinite(im[1:])
-                            & (np.sign(im[:-1]) != np.sign(im[1:])) & (im[:-1] != 0))
-        for i in ch:
-            try:
-                x = brentq(on_log(lambda v: (lambda c: c.imag / max(abs(c), 1e-300))(at(v))),
-                           lw[i], lw[i + 1], xtol=1e-13)
-            except ValueError:
-                continue
-            val = at(math.exp(x))
-            if np.isfinite(val.real):
-                crossings.append((math.exp(x), float(val.real)))
-        for i in np.flatnonzero(im == 0):  # exactly on the axis at a grid point
-            crossings.append((float(w[i]), float(L[i].real)))
+        crossings: list[tuple[float, float]] = [
+            (x, float(v.real)) for x, v in real_points(
+                lambda x: self.loop_response(1j * np.asarray(x) * T), w)]
         # both ends of the circle, z = 1 and z = -1, where L is real (or infinite at a pole)
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             for x in (0.0, nyq):
-                try:
-                    end = at(x)
-                except np.linalg.LinAlgError:  # a pole of the plant exactly there (1/s: z = 1)
-                    continue
+                end = at(x)
                 if np.isfinite(end.real) and np.isfinite(end.imag):
                     crossings.append((x, float(end.real)))
         crossings.sort()
@@ -594,41 +651,21 @@ class SampledLoop:
 
         A closed-loop pole crosses the unit circle at factor ``k`` only where
         ``1 + k L(exp(j w T)) = 0``, i.e. at ``k = -1/L`` where ``L`` is real
-        (``freq.real_crossings``, with ``k = 0`` when the open loop is not
-        stable).  Between consecutive candidates stability cannot change, so
-        one eigenvalue test per gap (:meth:`is_stable`) decides each side.
-        ``None`` when the loop is unstable at factor 1; an end is ``None``
-        when unbounded.
+        (``freq.real_crossings``, and ``k = 0`` when plant or controller alone is
+        not stable); between consecutive candidates stability cannot change, so one
+        eigenvalue test per gap decides it (:func:`factor_intervals`).  ``None``
+        when the loop is unstable at factor 1; an end is ``None`` when unbounded.
         """
         if not self.is_stable(1.0):
             return None
-        cands = sorted({-1.0 / v for _, v in freq.real_crossings if v != 0}
-                       | ({0.0} if not self._open_loop_stable() else set()))
-        above = [c for c in cands if c > 1.0]
-        below = [c for c in cands if c < 1.0][::-1]
+        return _containing(self.stable_factor_intervals(freq), 1.0)
 
-        def between(a, b):
-            if b is None:
-                return 2.0 * a if a > 0 else (a / 2.0 if a < 0 else 1.0)
-            if a > 0 and b > 0:
-                return math.sqrt(a * b)
-            return 0.5 * (a + b)
-
-        hi = None
-        for i, c in enumerate(above):
-            nxt = above[i + 1] if i + 1 < len(above) else None
-            if not self.is_stable(between(c, nxt)):
-                hi = c
-                break
-        lo = None
-        for i, c in enumerate(below):
-            nxt = below[i + 1] if i + 1 < len(below) else None
-            probe = (-1.0 if c == 0 else (2.0 * c if c < 0 else c / 2.0)) if nxt is None else \
-                between(c, nxt)
-            if not self.is_stable(probe):
-                lo = c
-                break
-        return (lo, hi)
+    def stable_factor_intervals(self, freq: SampledFrequency):
+        """Every open interval of loop-gain factors (all reals) with a stable sampled loop."""
+        cands = [-1.0 / v for _, v in freq.real_crossings if v != 0]
+        if not self._open_loop_stable():
+            cands.append(0.0)
+        return factor_intervals(cands, self.is_stable)
 
     def _open_loop_stable(self) -> bool:
         """Whether plant and controller are stable by themselves (factor 0)."""
@@ -851,6 +888,13 @@ class SampledLoop:
         return HybridResponse(t=np.concatenate(t), y=np.concatenate(y), u=np.concatenate(u),
                               t_samples=np.asarray(tk), y_samples=np.asarray(yk),
                               u_samples=np.asarray(uk), final_value=fv, limited=True)
+
+
+def _containing(intervals, x: float):
+    for lo, hi in intervals:
+        if (lo is None or lo < x) and (hi is None or x < hi):
+            return (lo, hi)
+    return None
 
 
 def sampled_loop(plant, controller) -> SampledLoop:
