@@ -167,10 +167,12 @@ def trace(
                 from synth.outputs.export import discrete_model
 
                 form = document.discrete_form(chosen)
-                zlocus = trace_zplane(problem, document.controller(chosen),
-                                      discrete_model(document, chosen) if form else None)
+                model = discrete_model(document, chosen) if form else None
+                with _about(problem):
+                    zlocus = trace_zplane(problem, document.controller(chosen), model)
             else:
-                zlocus = trace_zplane(problem)
+                with _about(problem):
+                    zlocus = trace_zplane(problem)
             doc["z_plane"] = zlocus.to_json()
         _echo_lines(result.summary_lines())
         if zlocus is not None:

@@ -125,6 +125,24 @@ def parse_sampling(table, source: str, number) -> Sampling:
     return Sampling(period=period, compute_delay=tau)
 
 
+def check_delay_samples(sampling: Sampling, dead_time: float, source: str) -> None:
+    """Refuse a dead time plus computation delay of more than ``MAX_DELAY_SAMPLES`` periods.
+
+    Raises
+    ------
+    InputError
+        Naming ``sampling.period``, with the number of periods and the limit.
+    """
+    from synth.problem.limits import MAX_DELAY_SAMPLES
+
+    periods = (dead_time + sampling.compute_delay) / sampling.period
+    if periods > MAX_DELAY_SAMPLES:
+        raise InputError(f"the dead time plus the computation delay span {periods:.4g} periods; "
+                         f"synth's sampled-loop verifier holds at most {MAX_DELAY_SAMPLES} "
+                         "(each period of delay is a state of the loop): sample slower",
+                         source, "sampling.period")
+
+
 def asked_bandwidth(requirements) -> tuple[float, str] | None:
     """The closed-loop bandwidth (rad/s) the requirements ask for, and what asks for it.
 

@@ -212,14 +212,25 @@ def held_plant(plant, period: float, compute_delay: float = 0.0) -> HeldPlant:
         P = _psi(A, h)
         return A @ P, P @ b
 
-    if frac == 0.0:
-        PmI, G = pieces(T)
-        period_map = (PmI, np.zeros_like(G), G)
-    else:
-        Pa, Ga = pieces(T - frac)
-        Pb, Gb = pieces(frac)
-        # (Pa + I)(Pb + I) - I, without forming I + something small
-        period_map = (Pa + Pb + Pa @ Pb, (Pa + np.eye(n)) @ Gb, Ga)
+    with np.errstate(over="ignore", invalid="ignore"):  # judged below: finite or refused
+        if frac == 0.0:
+            PmI, G = pieces(T)
+            period_map = (PmI, np.zeros_like(G), G)
+        else:
+            Pa, Ga = pieces(T - frac)
+            Pb, Gb = pieces(frac)
+            # (Pa + I)(Pb + I) - I, without forming I + something small
+            period_map = (Pa + Pb + Pa @ Pb, (Pa + np.eye(n)) @ Gb, Ga)
+    from synth.problem.limits import MAX_MAGNITUDE
+
+    if not all(np.all(np.isfinite(m)) and np.all(np.abs(m) <= MAX_MAGNITUDE)
+               for m in period_map):
+        from synth.errors import InputError
+
+        fast = max(np.real(np.linalg.eigvals(A))) if n else 0.0
+        raise InputError(f"over one period of {T:g} s the plant's unstable mode (growth rate "
+                         f"{fast:.4g} 1/s) grows by more than {MAX_MAGNITUDE:g}, beyond any "
+                         "sampled control; sample faster", key="sampling.period")
     return HeldPlant(period=T, delay=delay, whole=whole, frac=frac, A=A, B=b,
                      C=C[0].copy() if C.size else np.zeros(0), D=float(D[0, 0]),
                      dead_time=float(plant.dead_time), map=period_map)

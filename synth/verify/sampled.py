@@ -16,7 +16,6 @@ References
 
 from __future__ import annotations
 
-import cmath
 import math
 import numbers
 from dataclasses import dataclass
@@ -38,8 +37,6 @@ __all__ = [
     "rate_figures",
     "sampled_design",
     "sampled_loop_check",
-    "sampled_loop_margin",
-    "sampled_verdict",
     "simulate_sampled_loop",
     "zoh_discretise",
     "ControllerVectors",
@@ -284,70 +281,6 @@ def sampled_loop_check(plant_numd, plant_dend, c_numd, c_dend, T: float) -> Samp
 # ----------------------------------------------------------------------------------------------
 
 
-def _unit_circle(num, den, w, T):
-    """``num(z) / den(z)`` at ``z = exp(j w T)``."""
-    z = np.exp(1j * np.asarray(w, dtype=float) * T)
-    return np.polyval(num, z) / np.polyval(den, z)
-
-
-def sampled_loop_margin(plant_numd, plant_dend, c_numd, c_dend, T: float,
-                        hint: float | None = None) -> tuple[float | None, float | None]:
-    """Gain crossover and phase margin of the sampled loop ``Cd(z) Gd(z)`` up to Nyquist.
-
-    The loop is evaluated on the unit circle ``z = exp(j w T)`` for ``w`` up
-    to ``pi / T`` (a logarithmic grid from ``pi / T`` down six decades, and
-    around ``hint``), each sign change of ``|L| - 1`` refined by
-    :func:`scipy.optimize.brentq`; the phase margin is the smallest angular
-    distance of ``L`` from -1 over the crossovers (0 to 180 degrees), as for
-    the continuous loop.
-
-    Parameters
-    ----------
-    plant_numd, plant_dend : array_like
-        The plant with its hold and delays (:func:`zoh_discretise`).
-    c_numd, c_dend : array_like
-        The discrete compensator.
-    T : float
-        Sample time, seconds.
-    hint : float, optional
-        A frequency (rad/s) the grid should cover densely, e.g. the
-        continuous loop's crossover.
-
-    Returns
-    -------
-    (float or None, float or None)
-        The crossover (rad/s) with the smallest margin and that margin in
-        degrees; ``(None, None)`` when ``|L|`` never crosses 1 below Nyquist.
-
-    References
-    ----------
-    .. [1] G. F. Franklin, J. D. Powell and M. L. Workman, *Digital Control of
-       Dynamic Systems*, 3rd ed., Addison-Wesley, 1998, ch. 7 (frequency
-       response of sampled systems), from memory.
-    """
-    from scipy.optimize import brentq
-
-    T = _positive_time(T)
-    num = np.convolve(coefficients(c_numd, "numerator"), coefficients(plant_numd, "numerator"))
-    den = np.convolve(coefficients(c_dend, "denominator"), coefficients(plant_dend, "denominator"))
-    nyq = math.pi / T
-    w = np.geomspace(nyq * 1e-6, nyq * (1 - 1e-9), 3000)
-    if hint is not None and 0 < hint < nyq:
-        w = np.unique(np.concatenate([w, np.geomspace(hint / 10, min(hint * 10, nyq * (1 - 1e-9)),
-                                                      800)]))
-    with np.errstate(divide="ignore", invalid="ignore"):
-        g = np.abs(_unit_circle(num, den, w, T)) - 1.0
-    best = (None, None)
-    for i in np.flatnonzero(np.isfinite(g[:-1]) & np.isfinite(g[1:]) & (np.sign(g[:-1])
-                                                                         != np.sign(g[1:]))):
-        wc = brentq(lambda x: abs(_unit_circle(num, den, x, T)) - 1.0, w[i], w[i + 1],
-                    xtol=1e-14 * w[i + 1], rtol=4 * np.finfo(float).eps)
-        pm = 180.0 - abs(math.degrees(cmath.phase(complex(_unit_circle(num, den, wc, T)))))
-        if best[1] is None or pm < best[1]:
-            best = (float(wc), float(pm))
-    return best
-
-
 @dataclass(frozen=True)
 class RateFigures:
     """The sample rate against a design's loop (common practice, with the numbers).
@@ -534,7 +467,7 @@ class SampledDesign:
         delay exact at the samples) with the linear controller ``C(z)``.
     crossover_frequency, phase_margin_deg : float or None
         Of the sampled loop, on the unit circle up to Nyquist
-        (:func:`sampled_loop_margin`).
+        (:meth:`synth.verify.hybrid.SampledLoop.frequency`).
     rate : RateFigures
         The sample rate against the continuous design.
     continuous : dict
@@ -607,8 +540,9 @@ def sampled_design(plant, controller, sampling, limits=None, max_rate=None,
     reference shaping, the limits and its anti-windup, and checked in the
     sampled loop: the plant by zero-order hold with its dead time plus the
     computation delay (exact at the samples, :func:`zoh_discretise`),
-    stability and overshoot (:func:`sampled_loop_check`), crossover and phase
-    margin up to Nyquist (:func:`sampled_loop_margin`).
+    the overshoot at the samples (:func:`sampled_loop_check`), and from the
+    sampled-data loop the verdict judges (:mod:`synth.verify.hybrid`) its
+    poles in z, stability, crossover, margins and peaks up to Nyquist.
 
     Parameters
     ----------
@@ -673,37 +607,6 @@ def sampled_design(plant, controller, sampling, limits=None, max_rate=None,
                          crossover_frequency=wc_d, phase_margin_deg=pm_d, rate=rate,
                          continuous=continuous, warnings=tuple(warnings),
                          poles_z=tuple(complex(p) for p in poles_z), frequency=freq)
-
-
-def sampled_verdict(verdict, sampled: SampledDesign):
-    """The verdict with the sampled loop's stability judged (a violation when it is unstable).
-
-    Parameters
-    ----------
-    verdict : synth.verify.verdict.Verdict
-        The continuous loop's verdict.
-    sampled : SampledDesign
-
-    Returns
-    -------
-    synth.verify.verdict.Verdict
-        Unchanged when the sampled loop is stable; otherwise with the
-        violation (shortfall key ``sampled_stability``, at least 100 like any
-        unstable loop) and ``feasible`` False.
-    """
-    from dataclasses import replace
-
-    lp = sampled.loop
-    if lp.stable:
-        return verdict
-    tau = sampled.compute_delay
-    text = (f"sampled loop unstable at T = {sampled.period:g} s"
-            + (f" with a computation delay of {tau:g} s" if tau else "")
-            + f": largest closed-loop root |z| = {lp.spectral_radius:.4g} (must be < 1)")
-    short = dict(verdict.shortfalls)
-    short["sampled_stability"] = 100.0 + max(0.0, lp.spectral_radius - 1.0)
-    return replace(verdict, violations=(*verdict.violations, text), feasible=False,
-                   shortfall=float(sum(short.values())), shortfalls=short)
 
 
 def simulate_sampled_loop(plant_numd, plant_dend, controller, reference, load, noise=0.0
