@@ -27,6 +27,7 @@ _ALWAYS_SHOWN = ("peak_sensitivity", "peak_control_effort", "settling_time")
 
 #: Extra metrics of each design's JSON besides the contract's.
 _EXTRA_METRICS = ("delay_margin", "crossover_frequency", "final_value", "in_region")
+_SAMPLED_METRICS = ("spectral_radius", "peak_complementary_sensitivity", "noise_gain")
 
 
 # ----------------------------------------------------------------------------------------------
@@ -54,6 +55,8 @@ def _design_json(run, d, sampled=None) -> dict:
         params = fam.natural(np.asarray(c.params))
     metrics = {k: v.metrics.get(k) for k, m in METRICS.items() if m.contract}
     metrics.update({k: v.metrics.get(k) for k in _EXTRA_METRICS})
+    # the sampled-data verdict's own figures (with [sampling]; see docs/methods.md)
+    metrics.update({k: v.metrics[k] for k in _SAMPLED_METRICS if k in v.metrics})
     dead = run.problem.plant.dead_time
     out = {
         "rank": d.rank,
