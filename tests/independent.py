@@ -28,6 +28,36 @@ def delay_polys(plant, order=10):
     return num, den
 
 
+def _check_step(req, t, y, u, yf, *, overshoot_slack, time_slack, effort_slack):
+    """Overshoot, settling time and peak effort of a step response against the limits."""
+    if req.max_overshoot_percent is not None:
+        os_ = max(0.0, (np.max(y) - yf) / abs(yf) * 100.0)
+        assert os_ <= req.max_overshoot_percent + overshoot_slack, f"overshoot {os_}"
+    if req.max_settling_time is not None:
+        band = req.settling_band_percent / 100.0 * abs(yf)
+        out = np.flatnonzero(np.abs(y - yf) > band)
+        ts = t[out[-1] + 1] if out.size else 0.0
+        assert ts <= req.max_settling_time * 1.01 + time_slack, f"settling {ts}"
+    if req.max_control_effort is not None:
+        assert np.max(np.abs(u)) <= req.max_control_effort * effort_slack
+
+
+def _check_margins(req, L, nyquist_end=False):
+    """Phase and gain margins of a loop sampled densely on a frequency grid against the limits
+    (``nyquist_end``: the grid ends at the Nyquist frequency, where a sampled loop is real)."""
+    if req.min_phase_margin_deg is not None:
+        cross = np.flatnonzero(np.diff(np.sign(np.abs(L) - 1.0)))
+        pm = min(180.0 - abs(np.degrees(np.angle(L[i]))) for i in cross)
+        assert pm >= req.min_phase_margin_deg - 0.1
+    if req.min_gain_margin_db is not None:
+        pc = np.flatnonzero((np.diff(np.sign(L.imag)) != 0) & (L.real[:-1] < 0))
+        mags = [abs(L[i]) for i in pc if abs(L[i]) < 1.0]
+        if nyquist_end and L[-1].real < 0:
+            mags.append(abs(L[-1]))
+        if mags:
+            assert -20 * np.log10(max(mags)) >= req.min_gain_margin_db - 0.05
+
+
 def independent_check(problem, design):
     """Re-verify one feasible design without synth: numpy.roots, scipy.signal."""
     req = problem.requirements
@@ -53,19 +83,10 @@ def independent_check(problem, design):
     _, y = signal.step(signal.TransferFunction(num_l, cl), T=t)
     _, u = signal.step(signal.TransferFunction(np.polymul(nc, pden), cl), T=t)
     yf = np.polyval(num_l, 0.0) / np.polyval(cl, 0.0)
-    dt = t[1] - t[0]
-    if req.max_overshoot_percent is not None:
-        os_ = max(0.0, (np.max(y) - yf) / abs(yf) * 100.0)
-        assert os_ <= req.max_overshoot_percent + 0.2, f"overshoot {os_}"
-    if req.max_settling_time is not None:
-        band = req.settling_band_percent / 100.0 * abs(yf)
-        out = np.flatnonzero(np.abs(y - yf) > band)
-        ts = t[out[-1] + 1] if out.size else 0.0
-        assert ts <= req.max_settling_time * 1.01 + 2 * dt, f"settling {ts}"
+    _check_step(req, t, y, u, yf, overshoot_slack=0.2, time_slack=2 * (t[1] - t[0]),
+                effort_slack=1.01)
     if req.max_steady_state_error is not None:
         assert abs(1.0 - yf) <= req.max_steady_state_error + 1e-9
-    if req.max_control_effort is not None:
-        assert np.max(np.abs(u)) <= req.max_control_effort * 1.01
     # frequency domain with the exact delay: scipy.signal.freqresp of the rational part
     w = np.geomspace(1e-4, 1e4, 200001)
     _, lr = signal.freqresp(signal.TransferFunction(np.polymul(nc, problem.plant.rational_num),
@@ -75,15 +96,7 @@ def independent_check(problem, design):
     assert design["metrics"]["peak_sensitivity"] == pytest.approx(ms, rel=2e-3)
     if req.max_peak_sensitivity is not None:
         assert ms <= req.max_peak_sensitivity * 1.002
-    if req.min_phase_margin_deg is not None:
-        cross = np.flatnonzero(np.diff(np.sign(np.abs(L) - 1.0)))
-        pm = min(180.0 - abs(np.degrees(np.angle(L[i]))) for i in cross)
-        assert pm >= req.min_phase_margin_deg - 0.1
-    if req.min_gain_margin_db is not None:
-        pc = np.flatnonzero((np.diff(np.sign(L.imag)) != 0) & (L.real[:-1] < 0))
-        mags = [abs(L[i]) for i in pc if abs(L[i]) < 1.0]
-        if mags:
-            assert -20 * np.log10(max(mags)) >= req.min_gain_margin_db - 0.05
+    _check_margins(req, L)
     if req.plant_gain_range is not None:
         for k in np.linspace(*req.plant_gain_range, 9):
             assert np.all(np.roots(np.polyadd(np.polymul(dc, gden), k * np.polymul(nc, gnum))).real < 0)
@@ -200,17 +213,8 @@ def independent_sampled_check(problem, design):
                                atol=1e-9)
     horizon = 3.0 * (req.max_settling_time or 20 * T)
     t, y, u = sampled_step(problem.plant, T, tau, cn, cd, horizon)
-    yf = float(y[-1])
-    if req.max_overshoot_percent is not None:
-        os_ = max(0.0, (np.max(y) - yf) / abs(yf) * 100.0)
-        assert os_ <= req.max_overshoot_percent + 0.05, f"overshoot {os_}"
-    if req.max_settling_time is not None:
-        band = req.settling_band_percent / 100.0 * abs(yf)
-        out = np.flatnonzero(np.abs(y - yf) > band)
-        ts = t[out[-1] + 1] if out.size else 0.0
-        assert ts <= req.max_settling_time * 1.01, f"settling {ts}"
-    if req.max_control_effort is not None:
-        assert np.max(np.abs(u)) <= req.max_control_effort * 1.001
+    _check_step(req, t, y, u, float(y[-1]), overshoot_slack=0.05, time_slack=0.0,
+                effort_slack=1.001)
     # the loop on the unit circle, up to the Nyquist frequency
     Phi, Go, Gn, C, d, phi = held_plant_matrices(problem.plant, T, tau)
     w = np.linspace(1e-6, 1.0, 200001) * math.pi / T
@@ -219,15 +223,7 @@ def independent_sampled_check(problem, design):
     X = np.linalg.solve(zz[:, None, None] * np.eye(n) - Phi, np.stack([Go, Gn], -1)[None])
     G = (X[:, :, 0] @ C) * zz ** (-(d + 1)) + (X[:, :, 1] @ C) * zz ** (-d)
     L = G * np.polyval(cn, zz) / np.polyval(cd, zz)
-    if req.min_phase_margin_deg is not None:
-        cross = np.flatnonzero(np.diff(np.sign(np.abs(L) - 1.0)))
-        pm = min(180.0 - abs(np.degrees(np.angle(L[i]))) for i in cross)
-        assert pm >= req.min_phase_margin_deg - 0.1
-    if req.min_gain_margin_db is not None:
-        pc = np.flatnonzero((np.diff(np.sign(L.imag)) != 0) & (L.real[:-1] < 0))
-        mags = [abs(L[i]) for i in pc if abs(L[i]) < 1.0] + ([abs(L[-1])] if L[-1].real < 0 else [])
-        if mags:
-            assert -20 * np.log10(max(mags)) >= req.min_gain_margin_db - 0.05
+    _check_margins(req, L, nyquist_end=True)
     if req.plant_gain_range is not None:
         for k in np.linspace(*req.plant_gain_range, 9):
             M = sampled_closed_loop(problem.plant, T, tau, cn, cd, factor=k)

@@ -2,8 +2,9 @@
 
 External references:
 * scipy.signal.cont2discrete (method "zoh" for the plant, "bilinear" for the compensator)
-  and scipy.signal.dlsim for the sampled loop at its samples, with a computation delay of
-  one period as one extra sample of delay (Franklin, Powell and Workman, Digital Control of
+  and scipy.signal.dlsim for the sampled loop at its samples (both simulations: at the samples
+  and between them), with a computation delay of one period and whole periods of dead time as
+  extra samples of delay (Franklin, Powell and Workman, Digital Control of
   Dynamic Systems, ch. 4, from memory);
 * scipy.signal.freqresp and scipy.signal.freqz for the continuous and the sampled loop's
   phase: a zero-order hold lags by w T / 2 and a delay tau by w tau (common practice;
@@ -48,12 +49,16 @@ def _freqz(num, den, w, period):
 PI = ((2.0, 3.0), (1.0, 0.0))       # 2 (s + 1.5) / s
 
 
-@pytest.mark.parametrize("delay_samples", [0, 1])
-def test_sampled_loop_at_the_samples_matches_cont2discrete_and_dlsim(delay_samples):
+@pytest.mark.parametrize("delay_samples,dead_samples", [(0, 0), (1, 0), (1, 2)])
+def test_sampled_loop_at_the_samples_matches_cont2discrete_and_dlsim(delay_samples, dead_samples):
+    # both simulations of the sampled loop: at the samples only (the export's vectors) and the
+    # sampled-data loop between the samples (the verdict's), read at the samples
+    from synth.verify.hybrid import sampled_loop
+
     period = 0.1
     gnd, gdd, _ = cont2discrete(PLANT, period, method="zoh")
     gnd = np.ravel(gnd)
-    gdd = np.concatenate([gdd, np.zeros(delay_samples)])   # z^-1 per period of delay
+    gdd = np.concatenate([gdd, np.zeros(delay_samples + dead_samples)])   # z^-1 per period
     cnd, cdd, _ = cont2discrete(PI, period, method="bilinear")
     cnd = np.ravel(cnd)
     # closed loop r -> y: C G / (1 + C G), formed from the scipy pieces
@@ -64,13 +69,15 @@ def test_sampled_loop_at_the_samples_matches_cont2discrete_and_dlsim(delay_sampl
     _, y_ref = dlsim((np.trim_zeros(ln, "f"), ld + ln, period), np.ones(steps))
     y_ref = np.ravel(y_ref)
 
-    plant = Plant.from_coefficients(*PLANT)
+    plant = Plant.from_coefficients(*PLANT, dead_time=dead_samples * period)
     model = discrete_controller(Controller(*PI), ZMap("tustin", period),
                                 compute_delay=delay_samples * period)
     gn, gd = zoh_discretise(plant.rational_num, plant.rational_den, period,
-                            delay_samples * period)
+                            (delay_samples + dead_samples) * period)
     y, _ = simulate_sampled_loop(gn, gd, model, np.ones(steps), 0.0)
     assert np.max(np.abs(y - y_ref)) <= 1e-9 * np.max(np.abs(y_ref))
+    hybrid = sampled_loop(plant, model).simulate((steps - 1) * period).y_samples[:steps]
+    assert np.max(np.abs(hybrid - y_ref)) <= 1e-9 * np.max(np.abs(y_ref))
 
 
 @pytest.mark.parametrize("w", [0.3, 1.0, 5.0])

@@ -1,9 +1,8 @@
 """The sampled-data loop the verifier judges with [sampling]: samples, between samples, frequency.
 
 External references:
-* scipy.signal.cont2discrete (method "zoh") plus scipy.signal.dlsim for the loop at its
-  samples, whole periods of delay as extra samples (z^-1 each) (Franklin, Powell and Workman,
-  Digital Control of Dynamic Systems, ch. 4, from memory);
+* (the loop at its samples against scipy.signal.cont2discrete plus scipy.signal.dlsim is in
+  tests/test_sampled_design.py);
 * scipy.signal.lsim (interp=False: the input held between points) for the continuous output
   between the samples, with a fractional computation delay, a dead time and a load step, and
   scipy.signal.lfilter of the design's C(z) for the controller's outputs;
@@ -27,7 +26,7 @@ import subprocess
 
 import numpy as np
 import pytest
-from scipy.signal import cont2discrete, dlsim, freqresp, freqz, lfilter, lsim
+from scipy.signal import cont2discrete, freqresp, freqz, lfilter, lsim
 
 from synth.problem.plant import Plant
 from synth.problem.requirements import problem_from_text
@@ -49,26 +48,6 @@ def _loop(plant_tf, controller_tf, period, tau=0.0, dead_time=0.0, method="tusti
     model = discrete_controller(Controller(*controller_tf), ZMap(method, period),
                                 compute_delay=tau)
     return plant, model, sampled_loop(plant, model)
-
-
-@pytest.mark.parametrize("delay_samples,dead_samples", [(0, 0), (1, 0), (1, 2)])
-def test_samples_match_cont2discrete_and_dlsim(delay_samples, dead_samples):
-    period = 0.1
-    gnd, gdd, _ = cont2discrete(PLANT, period, method="zoh")
-    gnd = np.ravel(gnd)
-    gdd = np.concatenate([gdd, np.zeros(delay_samples + dead_samples)])
-    cnd, cdd, _ = cont2discrete(PI, period, method="bilinear")
-    cnd = np.ravel(cnd)
-    ln, ld = np.polymul(cnd, gnd), np.polymul(cdd, gdd)
-    n = max(ln.size, ld.size)
-    ln, ld = np.pad(ln, (n - ln.size, 0)), np.pad(ld, (n - ld.size, 0))
-    steps = 150
-    _, y_ref = dlsim((np.trim_zeros(ln, "f"), ld + ln, period), np.ones(steps))
-    y_ref = np.ravel(y_ref)
-    _, _, loop = _loop(PLANT, PI, period, delay_samples * period, dead_samples * period)
-    resp = loop.simulate((steps - 1) * period)
-    assert resp.y_samples.size >= steps
-    assert np.max(np.abs(resp.y_samples[:steps] - y_ref)) <= 1e-9 * np.max(np.abs(y_ref))
 
 
 @pytest.mark.parametrize("plant_tf,tau,dead,load", [

@@ -581,7 +581,7 @@ class SampledLoop:
             :func:`scipy.optimize.brentq`, the peaks by
             :func:`scipy.optimize.minimize_scalar`.
         """
-        from scipy.optimize import brentq, minimize_scalar
+        from synth.verify.frequency import gain_crossovers, refined_peak
 
         T = self.period
         nyq = math.pi / T
@@ -598,25 +598,7 @@ class SampledLoop:
             L = self.loop_response(1j * w * T)
             Cz = self.controller_response(1j * w * T)
         finite = np.isfinite(L)
-        lw = np.log(w)
-
-        def on_log(fun):
-            return lambda x: fun(math.exp(x))
-
-        pms, dms, wcs = [], [], []
-        with np.errstate(divide="ignore", invalid="ignore"):
-            mag = np.log(np.abs(L))
-        sc = np.flatnonzero(finite[:-1] & finite[1:] & (np.sign(mag[:-1]) != np.sign(mag[1:])))
-        for i in sc:
-            try:
-                x = brentq(on_log(lambda v: math.log(abs(at(v)))), lw[i], lw[i + 1], xtol=1e-13)
-            except ValueError:
-                continue
-            wc = math.exp(x)
-            lag = (float(np.angle(at(wc))) + math.pi) % (2 * math.pi)
-            pms.append(math.degrees(min(lag, 2 * math.pi - lag)))
-            dms.append(lag / wc)
-            wcs.append(wc)
+        pms, dms, wcs = gain_crossovers(w, L, at)
         # every point where L is real: the gain boundaries -1/L and the gain margin
         crossings: list[tuple[float, float]] = [
             (x, float(v.real)) for x, v in real_points(
@@ -634,21 +616,10 @@ class SampledLoop:
             Tc = np.where(finite, np.abs(L / (1.0 + L)), 1.0)
             N = np.abs(Cz / (1.0 + L))
 
-        def peak(values, fun):
-            values = np.where(np.isfinite(values), values, 0.0)
-            i = int(np.argmax(values))
-            best = float(values[i])
-            if 0 < i < w.size - 1:
-                res = minimize_scalar(lambda x: -fun(math.exp(x)), bounds=(lw[i - 1], lw[i + 1]),
-                                      method="bounded", options={"xatol": 1e-10})
-                if res.success and np.isfinite(res.fun) and -float(res.fun) > best:
-                    best = -float(res.fun)
-            return best
-
-        ms = peak(S, lambda x: 1.0 / abs(1.0 + at(x)))
-        mt = peak(Tc, lambda x: (lambda v: abs(v / (1.0 + v)))(at(x)))
-        ng = peak(N, lambda x: abs(complex(self.controller_response(1j * x * T))
-                                   / (1.0 + at(x))))
+        ms = refined_peak(w, S, lambda x: 1.0 / abs(1.0 + at(x)))[0]
+        mt = refined_peak(w, Tc, lambda x: (lambda v: abs(v / (1.0 + v)))(at(x)))[0]
+        ng = refined_peak(w, N, lambda x: abs(complex(self.controller_response(1j * x * T))
+                                              / (1.0 + at(x))))[0]
         return SampledFrequency(
             w=w, loop=L, crossover_frequency=wcs[int(np.argmin(pms))] if pms else None,
             phase_margin_deg=min(pms) if pms else None,
