@@ -158,6 +158,7 @@ def _verdict_sections(lines: list[str]) -> list[str]:
         elif sections[-1]:
             sections.append([])
     keep = [sec for sec in sections if sec and (sec[0].startswith("Proportional")
+                                                or sec[0].startswith("Sampled every")
                                                 or sec[0].startswith("Warnings"))]
     if not keep:
         return lines[:8]
