@@ -285,9 +285,10 @@ def search_problem(problem):
     afterwards (docs/methods.md); for the designs to come out feasible in the
     sampled loop, the search's loop model carries the hold and the
     computation delay as an extra dead time :func:`hold_delay` (its Pade form
-    in the engine, exact in the search's frequency sweep).  Every candidate is
-    then verified on the sampled-data loop itself.  Without ``[sampling]`` the
-    problem is returned unchanged.
+    in the engine, exact in the search's frequency sweep) and no ``[sampling]``
+    of its own (it is the continuous problem the search solves).  Every
+    candidate is then verified on the sampled-data loop itself.  Without
+    ``[sampling]`` the problem is returned unchanged.
 
     Parameters
     ----------
@@ -309,4 +310,6 @@ def search_problem(problem):
         return problem
     plant = problem.plant
     extra = hold_delay(problem.sampling)
-    return replace(problem, plant=replace(plant, dead_time=plant.dead_time + extra))
+    # a continuous problem: the hold is in the plant's model now, not in [sampling]
+    return replace(problem, plant=replace(plant, dead_time=plant.dead_time + extra),
+                   sampling=None)
