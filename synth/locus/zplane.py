@@ -182,7 +182,7 @@ def _unit_circle_gains(loop, scale: float):
                 pts.append((t / T, -1.0 / v.real))
     pts = sorted({(w, k) for w, k in pts})
     cands = [k for _, k in pts]
-    if not loop._open_loop_stable():
+    if not loop.open_loop_stable():
         cands.append(0.0)
     ivs = factor_intervals(cands, loop.is_stable, scale=scale)
     ends = {x for iv in ivs for x in iv if x is not None}

@@ -55,11 +55,15 @@ import numpy as np
 from synth.verify.simulation import realise
 
 __all__ = [
+    "MAX_NONLINEAR_SAMPLES",
+    "UNIT_CIRCLE_TOL",
     "HeldPlant",
     "HybridResponse",
     "SampledFrequency",
     "SampledLoop",
+    "factor_intervals",
     "held_plant",
+    "real_points",
     "sampled_loop",
     "split_delay",
 ]
@@ -86,15 +90,22 @@ def split_delay(delay: float, period: float) -> tuple[int, float]:
     return int(whole), float(frac)
 
 
-def _psi(A: np.ndarray, h: float) -> np.ndarray:
-    """``Psi(h) = int_0^h expm(A t) dt`` from the exponential of ``[[A, I], [0, 0]] h``."""
+def _pieces(A: np.ndarray, B: np.ndarray, h: float) -> tuple[np.ndarray, np.ndarray]:
+    """``(Phi(h) - I, Gamma(h))`` for a held input, via ``Psi(h) = int_0^h expm(A t) dt``.
+
+    ``Psi`` is read from the exponential of ``[[A, I], [0, 0]] h`` (Van Loan);
+    ``Phi - I = A Psi`` and ``Gamma = Psi B`` keep their digits when ``|A| h`` is small.
+    """
     from scipy.linalg import expm
 
     n = A.shape[0]
+    if n == 0:
+        return np.zeros((0, 0)), np.zeros(0)
     M = np.zeros((2 * n, 2 * n))
     M[:n, :n] = A * h
     M[:n, n:] = np.eye(n) * h
-    return expm(M)[:n, n:]
+    P = expm(M)[:n, n:]
+    return A @ P, P @ B
 
 
 @dataclass(frozen=True, eq=False)
@@ -143,10 +154,7 @@ class HeldPlant:
 
     def pieces(self, h: float) -> tuple[np.ndarray, np.ndarray]:
         """``(Phi(h) - I, Gamma(h))`` for a held input over ``h`` seconds."""
-        if self.order == 0:
-            return np.zeros((0, 0)), np.zeros(0)
-        P = _psi(self.A, h)
-        return self.A @ P, P @ self.B
+        return _pieces(self.A, self.B, h)
 
     def period_map(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         """``(Phi(T) - I, G_old, G_new)``: ``x[k+1] = Phi x + G_old u[k-d-1] + G_new u[k-d]``."""
@@ -207,10 +215,7 @@ def held_plant(plant, period: float, compute_delay: float = 0.0) -> HeldPlant:
     n = A.shape[0]
 
     def pieces(h):
-        if n == 0:
-            return np.zeros((0, 0)), np.zeros(0)
-        P = _psi(A, h)
-        return A @ P, P @ b
+        return _pieces(A, b, h)
 
     with np.errstate(over="ignore", invalid="ignore"):  # judged below: finite or refused
         if frac == 0.0:
@@ -645,11 +650,11 @@ class SampledLoop:
     def stable_factor_intervals(self, freq: SampledFrequency):
         """Every open interval of loop-gain factors (all reals) with a stable sampled loop."""
         cands = [-1.0 / v for _, v in freq.real_crossings if v != 0]
-        if not self._open_loop_stable():
+        if not self.open_loop_stable():
             cands.append(0.0)
         return factor_intervals(cands, self.is_stable)
 
-    def _open_loop_stable(self) -> bool:
+    def open_loop_stable(self) -> bool:
         """Whether plant and controller are stable by themselves (factor 0)."""
         from scipy.linalg import eigvals
 
@@ -686,13 +691,9 @@ class SampledLoop:
         ir, il = N0, N0 + 1
         d = hp.whole
 
-        def row_old():
-            v = np.zeros(N)
-            if L >= d + 1 and (hp.frac > 0 or hp.D != 0):
-                v[n + d] = 1.0
-            return v
-
-        old = row_old()
+        old = np.zeros(N)  # u[k-d-1], the input before the switch (and just before the sample)
+        if L >= d + 1:
+            old[n + d] = 1.0
         ym = np.zeros(N)
         ym[:n] = hp.C
         ym += hp.D * old
