@@ -73,7 +73,9 @@ def _design_json(run, d, sampled=None) -> dict:
         "description": description,
         "score": d.score,
         "internally_stable": v.internally_stable,
-        "time_domain": ("exact dead time" if v.exact_delay and dead
+        "time_domain": ("sampled-data loop, output between the samples (exact dead time and "
+                        "computation delay)" if run.problem.sampling is not None else
+                        "exact dead time" if v.exact_delay and dead
                         else ("Pade form of the dead time" if dead else "no dead time")),
         "notes": list(v.notes),
         "provenance": dict(c.provenance),
