@@ -158,15 +158,39 @@ def trace(
         doc = result.to_json()
         if operating_gain is not None:
             doc["operating_gain"] = operating_gain
+        zlocus = None
+        if problem.sampling is not None:
+            # the controller runs sampled: the locus in z as well (the s-plane results stay)
+            from synth.locus.zplane import trace_zplane
+
+            if design:
+                from synth.outputs.export import discrete_model
+
+                form = document.discrete_form(chosen)
+                model = discrete_model(document, chosen) if form else None
+                with _about(problem):
+                    zlocus = trace_zplane(problem, document.controller(chosen), model)
+            else:
+                with _about(problem):
+                    zlocus = trace_zplane(problem)
+            doc["z_plane"] = zlocus.to_json()
         _echo_lines(result.summary_lines())
+        if zlocus is not None:
+            _echo_lines(zlocus.summary_lines())
         if operating_gain is not None:
             typer.echo(f"design {rank} operates at gain {operating_gain:.6g}")
         if plot:
-            from synth.outputs.report.locus_plot import plot_locus
+            if zlocus is not None:
+                from synth.outputs.report.zlocus_plot import plot_zlocus
 
-            plot_locus(result, plot, region=problem.region,
-                       operating_gain=operating_gain,
-                       title=problem.plant.label or None)
+                plot_zlocus(zlocus, plot, operating_gain=operating_gain,
+                            title=problem.plant.label or None)
+            else:
+                from synth.outputs.report.locus_plot import plot_locus
+
+                plot_locus(result, plot, region=problem.region,
+                           operating_gain=operating_gain,
+                           title=problem.plant.label or None)
             written.append(plot)
             typer.echo(f"picture written to {plot}")
         if json_out:

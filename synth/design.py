@@ -34,15 +34,17 @@ Then, in rank order, each design that would be reported is verified fully
 test) and the ranking recomputed, until every reported design carries a full
 verdict.
 
-Sampling.  With ``[sampling]``, every design that would be reported is then
-mapped to its discrete controller and checked in the sampled loop
-(:func:`synth.verify.sampled.sampled_design`: Tustin pre-warped at the
-crossover, plant by zero-order hold with the dead time and the computation
-delay); a design whose sampled loop is unstable gets that violation and the
-ranking is recomputed, again until every reported design carries the check.
-The search itself still works on the continuous loop; the sampled-data
-search and verification proper (inter-sample output, sampled frequency
-response) come with the next piece of work.
+Sampling.  With ``[sampling]`` the controller is designed as a continuous
+compensator and mapped to z by Tustin's method pre-warped at its crossover
+(design by emulation).  The search works on the loop with the hold and the
+computation delay as an extra dead time ``T/2 + tau``
+(:func:`synth.problem.sampling.search_problem`; common practice), so its
+designs keep their margins once sampled; every candidate is then verified on
+the sampled-data loop itself (:mod:`synth.verify.sampled_eval`: the
+discrete controller the export prints, the plant behind the hold with the
+exact dead time and computation delay, the output between the samples, the
+loop on the unit circle up to Nyquist).  Each reported design also gets its
+discrete form (the contract's ``discrete``; :func:`synth.verify.sampled.sampled_design`).
 """
 
 from __future__ import annotations
@@ -280,13 +282,18 @@ def run_design(problem, strategies=None, families=None,
     DesignRun
     """
     from synth.explain import explain_problem
+    from synth.problem.sampling import search_problem
     from synth.strategies.base import SearchContext, family_work, resolve_strategies
 
     search = problem.search
     explanation = explain_problem(problem)
     proportional = explanation.to_json()["proportional"]
-    seeds = _gain_seeds(problem, explanation)
-    fams = families_for(problem, families)
+    # with [sampling] the search designs for the loop with the hold and the computation delay
+    # (an extra dead time T/2 + tau); every candidate is verified on the sampled-data loop
+    searched = search_problem(problem)
+    guide = explanation if searched is problem else explain_problem(searched)
+    seeds = _gain_seeds(searched, guide)
+    fams = families_for(searched, families)
     strats = resolve_strategies(strategies)
     total = len(fams) * len(strats) + 1
     done = 0
@@ -301,7 +308,7 @@ def run_design(problem, strategies=None, families=None,
     t_limit = t_search + search.time_budget
     for fam in fams:
         start = time.monotonic()
-        reason = fam.futility(explanation)
+        reason = fam.futility(guide)
         # a ruled-out family gets a fixed sliver of work whatever the effort: enough for a
         # few nearest designs to list, never a full search
         effort = FUTILE_EFFORT if reason else search.effort
@@ -317,9 +324,9 @@ def run_design(problem, strategies=None, families=None,
             else:
                 ctx = SearchContext(seed=_derived_seed(search.seed, fam.name, strat.name),
                                     work=int(strat.share * units), gain_seeds=seeds,
-                                    prior=tuple(found), explanation=explanation)
+                                    prior=tuple(found), explanation=guide)
                 try:
-                    new = _checked(strat.propose(problem, fam, ctx), fam, strat)
+                    new = _checked(strat.propose(searched, fam, ctx), fam, strat)
                 except StrategyDeclined as err:
                     # a real decline; any other error is a bug or bad input and propagates
                     declined.append(f"{strat.name} on {fam.name}: {err}")
@@ -345,6 +352,8 @@ def run_design(problem, strategies=None, families=None,
         setup = robust_setup(problem)
     dead = any(p.dead_time > 0 for p in (problem.plant, *(v.plant for v in models.variants))) \
         or any(r.name == "dead_time" for r in models.ranges)
+    # the sampled-data verifier always takes the dead time exactly: no Pade first pass
+    dead = dead and problem.sampling is None
     verdicts = _verify_all(problem, candidates, exact=not dead, actuator=False,
                            depth="quick" if robust else "full", setup=setup)
     pairs = list(zip(candidates, verdicts, strict=True))
@@ -354,7 +363,7 @@ def run_design(problem, strategies=None, families=None,
     ranked = rank_designs(pairs, problem)
     sampled: tuple = ()
     if problem.sampling is not None:
-        ranked, sampled = _sampled_stage(problem, pairs)
+        sampled = _sampled_stage(problem, ranked)
     if progress is not None:
         progress(total, total, "verified")
     stats = {"structures": [f.name for f in fams], "strategies": [s.name for s in strats],
@@ -366,31 +375,21 @@ def run_design(problem, strategies=None, families=None,
                      explanation=explanation, stats=stats, sampled=sampled)
 
 
-def _sampled_stage(problem, pairs: list) -> tuple[list, tuple]:
-    """Check every design that would be reported in the sampled loop; re-rank until stable.
+def _sampled_stage(problem, ranked) -> tuple:
+    """The discrete form of every reported design (the design JSON's ``discrete``), in rank order.
 
-    Mutates ``pairs`` (a design whose sampled loop is unstable gets the
-    violation); returns the final ranking and the reported designs'
-    :class:`synth.verify.sampled.SampledDesign` in rank order.
+    The verdicts already judge the sampled-data loop; this adds the discrete
+    controller as the export rebuilds it, the sample-rate figures and the
+    sampled loop's own figures (:func:`synth.verify.sampled.sampled_design`).
     """
-    from synth.verify.sampled import sampled_design, sampled_verdict
+    from synth.verify.sampled import sampled_design
 
     act = problem.actuator
     limits = None if act is None or act.limits is None else act.deviation_limits
     rate = None if act is None else act.max_rate
-    index = {id(c): i for i, (c, _) in enumerate(pairs)}
-    done: dict[int, Any] = {}
-    while True:
-        ranked = rank_designs(pairs, problem)
-        todo = [index[id(d.candidate)] for d in ranked if index[id(d.candidate)] not in done]
-        if not todo:
-            return ranked, tuple(done[index[id(d.candidate)]] for d in ranked)
-        for i in todo:
-            c, v = pairs[i]
-            sd = sampled_design(problem.plant, c.controller, problem.sampling, limits=limits,
-                                max_rate=rate)
-            done[i] = sd
-            pairs[i] = (c, sampled_verdict(v, sd))
+    return tuple(sampled_design(problem.plant, d.candidate.controller, problem.sampling,
+                                limits=limits, max_rate=rate)
+                 for d in ranked)
 
 
 # ----------------------------------------------------------------------------

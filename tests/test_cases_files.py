@@ -154,6 +154,23 @@ def test_flexure_stage_and_oven_and_tank_match_their_lumped_models():
     assert np.roots(tank.rational_den) == pytest.approx([-1 / 60])
 
 
+def test_current_loop_matches_the_winding_and_the_pwm_timing():
+    # i/v = 1 / (L s + R) (common practice: a winding with its back-emf fed forward); one
+    # sample per PWM period, the output one period later, the modulator half a period
+    L, R, f_pwm = 1.2e-3, 0.4, 10e3
+    problem = _load("servo-current-loop-sampled.toml")
+    plant = problem.plant
+    assert _monic(plant.rational_den) == pytest.approx([1.0, R / L], rel=1e-12)
+    assert plant.dc_gain() == pytest.approx(1 / R, rel=1e-12)
+    assert problem.sampling.period == pytest.approx(1 / f_pwm, rel=1e-12)
+    assert problem.sampling.compute_delay == pytest.approx(1 / f_pwm, rel=1e-12)
+    assert plant.dead_time == pytest.approx(0.5 / f_pwm, rel=1e-12)
+    # the header's "2 T = 200 us, about 23 deg at 2000 rad/s": hold T/2 + modulator T/2 + T
+    lag = 0.5 / f_pwm + plant.dead_time + problem.sampling.compute_delay
+    assert lag == pytest.approx(200e-6)
+    assert math.degrees(2000 * lag) == pytest.approx(23, abs=0.5)
+
+
 def test_satellite_axis_is_a_double_integrator_with_a_lightly_damped_mode():
     plant = _load("satellite-flexible-axis.toml").plant
     poles = np.roots(plant.den)

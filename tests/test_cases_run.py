@@ -4,7 +4,9 @@ The outputs are checked against the contract's JSON shapes and, independently
 of synth's own verifier, with numpy: closed-loop poles recomputed with
 numpy.roots from the unreduced characteristic polynomial, compensator
 polynomials against numpy.poly of the reported zeros and poles, and the
-proportional gain intervals against numpy.roots at interior gains.
+proportional gain intervals against numpy.roots at interior gains; a case
+with [sampling] also by tests/independent.py's sampled-loop check (scipy's
+zero-order hold, numpy eigenvalues, a fine-step simulation).
 """
 
 from __future__ import annotations
@@ -90,6 +92,13 @@ def test_design_on_every_case(case, tmp_path):
         reported = np.array([complex(*p) for p in d["closed_loop_poles"]])
         assert reported.size == roots.size
         assert np.allclose(np.sort_complex(reported), np.sort_complex(roots), rtol=1e-5, atol=1e-6)
+        if "sampling" in doc:
+            # the verdict is the sampled loop's: re-verify it from the document's C(z) with
+            # scipy's zero-order hold, numpy eigenvalues and a fine-step simulation
+            from synth.problem.requirements import load_problem
+            from tests.independent import independent_sampled_check
+
+            independent_sampled_check(load_problem(case), d)
 
 
 def test_trace_with_a_design_loop(tmp_path):

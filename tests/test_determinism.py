@@ -15,6 +15,8 @@ import json
 import subprocess
 import sys
 
+import pytest
+
 #: Fields of the design JSON that record wall-clock time, not results.
 TIMING_FIELDS = ("search_seconds", "family_seconds")
 
@@ -48,9 +50,15 @@ def _without_timing(path) -> str:
     return json.dumps(doc, sort_keys=True)
 
 
-def test_four_designs_run_at_once_give_identical_json(tmp_path):
+#: The same loop run by a sampled controller (the sampled-data verifier and the search's
+#: hold model: no clock either).
+SAMPLED = CASE + "\n[sampling]\nperiod = 0.05\ncompute_delay = 0.02\n"
+
+
+@pytest.mark.parametrize("text", [CASE, SAMPLED], ids=["continuous", "sampled"])
+def test_four_designs_run_at_once_give_identical_json(tmp_path, text):
     case = tmp_path / "lead.toml"
-    case.write_text(CASE)
+    case.write_text(text)
     outs = [tmp_path / f"run{i}.json" for i in range(4)]
     procs = [_design(case, out) for out in outs]
     codes = [p.wait(timeout=600) for p in procs]

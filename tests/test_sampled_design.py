@@ -2,8 +2,9 @@
 
 External references:
 * scipy.signal.cont2discrete (method "zoh" for the plant, "bilinear" for the compensator)
-  and scipy.signal.dlsim for the sampled loop at its samples, with a computation delay of
-  one period as one extra sample of delay (Franklin, Powell and Workman, Digital Control of
+  and scipy.signal.dlsim for the sampled loop at its samples (both simulations: at the samples
+  and between them), with a computation delay of one period and whole periods of dead time as
+  extra samples of delay (Franklin, Powell and Workman, Digital Control of
   Dynamic Systems, ch. 4, from memory);
 * scipy.signal.freqresp and scipy.signal.freqz for the continuous and the sampled loop's
   phase: a zero-order hold lags by w T / 2 and a delay tau by w tau (common practice;
@@ -48,12 +49,16 @@ def _freqz(num, den, w, period):
 PI = ((2.0, 3.0), (1.0, 0.0))       # 2 (s + 1.5) / s
 
 
-@pytest.mark.parametrize("delay_samples", [0, 1])
-def test_sampled_loop_at_the_samples_matches_cont2discrete_and_dlsim(delay_samples):
+@pytest.mark.parametrize("delay_samples,dead_samples", [(0, 0), (1, 0), (1, 2)])
+def test_sampled_loop_at_the_samples_matches_cont2discrete_and_dlsim(delay_samples, dead_samples):
+    # both simulations of the sampled loop: at the samples only (the export's vectors) and the
+    # sampled-data loop between the samples (the verdict's), read at the samples
+    from synth.verify.hybrid import sampled_loop
+
     period = 0.1
     gnd, gdd, _ = cont2discrete(PLANT, period, method="zoh")
     gnd = np.ravel(gnd)
-    gdd = np.concatenate([gdd, np.zeros(delay_samples)])   # z^-1 per period of delay
+    gdd = np.concatenate([gdd, np.zeros(delay_samples + dead_samples)])   # z^-1 per period
     cnd, cdd, _ = cont2discrete(PI, period, method="bilinear")
     cnd = np.ravel(cnd)
     # closed loop r -> y: C G / (1 + C G), formed from the scipy pieces
@@ -64,13 +69,15 @@ def test_sampled_loop_at_the_samples_matches_cont2discrete_and_dlsim(delay_sampl
     _, y_ref = dlsim((np.trim_zeros(ln, "f"), ld + ln, period), np.ones(steps))
     y_ref = np.ravel(y_ref)
 
-    plant = Plant.from_coefficients(*PLANT)
+    plant = Plant.from_coefficients(*PLANT, dead_time=dead_samples * period)
     model = discrete_controller(Controller(*PI), ZMap("tustin", period),
                                 compute_delay=delay_samples * period)
     gn, gd = zoh_discretise(plant.rational_num, plant.rational_den, period,
-                            delay_samples * period)
+                            (delay_samples + dead_samples) * period)
     y, _ = simulate_sampled_loop(gn, gd, model, np.ones(steps), 0.0)
     assert np.max(np.abs(y - y_ref)) <= 1e-9 * np.max(np.abs(y_ref))
+    hybrid = sampled_loop(plant, model).simulate((steps - 1) * period).y_samples[:steps]
+    assert np.max(np.abs(hybrid - y_ref)) <= 1e-9 * np.max(np.abs(y_ref))
 
 
 @pytest.mark.parametrize("w", [0.3, 1.0, 5.0])
@@ -182,16 +189,40 @@ def test_a_sampled_run_writes_the_contracts_discrete_field():
 
 
 def test_a_period_too_long_makes_the_sampled_loop_unstable_and_infeasible():
+    # a PI tuned for the continuous loop, sampled far too slowly: the verdict is the sampled
+    # loop's (numpy-free fact: a loop whose pole leaves the unit circle is unstable)
+    from synth.problem.requirements import problem_from_text
+    from synth.verify.verdict import verify
+
+    problem = problem_from_text(REQ + "period = 2.5\ncompute_delay = 2.5\n", "s.toml")
+    v = verify(problem, [2.0, 3.0], [1.0, 0.0])
+    assert not v.stable and not v.feasible
+    assert any(t.startswith("sampled loop unstable at T = 2.5 s with a computation delay of "
+                            "2.5 s") for t in v.violations)
+    sd = sampled_design(problem.plant, Controller((2.0, 3.0), (1.0, 0.0)), problem.sampling)
+    assert not sd.loop.stable and sd.loop.spectral_radius > 1.0
+    assert any(w.startswith("warning") for w in sd.warnings)
+
+
+def test_the_search_keeps_the_sampled_loop_stable_when_the_period_is_long():
+    # the search designs for the loop with the hold and the delay (T/2 + tau more dead time),
+    # so even at 2.5 s with 2.5 s of computation delay its designs are stable once sampled
     run = _run("period = 2.5\ncompute_delay = 2.5\n")
     doc = run.to_json()
-    unstable = [d for d in doc["designs"] if not d["discrete"]["sampled_loop"]["stable"]]
-    assert unstable
-    for d in unstable:
-        assert not d["feasible"]
-        assert any(v.startswith("sampled loop unstable at T = 2.5 s") for v in d["violations"])
-        assert any(w.startswith("warning") for w in d["discrete"]["warnings"])
+    assert doc["designs"]
+    # the plant by scipy.signal.cont2discrete (zoh), the 2.5 s delay as one sample (z^-1),
+    # C(z) as the document gives it; closed-loop roots by numpy.roots
+    gnd, gdd, _ = cont2discrete(PLANT, 2.5, method="zoh")
+    gnd, gdd = np.trim_zeros(np.ravel(gnd), "f"), np.concatenate([gdd, [0.0]])
+    for d in doc["designs"]:
+        dz = d["discrete"]
+        assert dz["sampled_loop"]["stable"]
+        char = np.polyadd(np.polymul(dz["denominator"], gdd), np.polymul(dz["numerator"], gnd))
+        assert np.max(np.abs(np.roots(char))) < 1.0
+        ours = sorted(abs(complex(*p)) for p in dz["sampled_loop"]["poles_z"])
+        assert ours[-1] == pytest.approx(np.max(np.abs(np.roots(char))), rel=1e-6)
     lines = "\n".join(run.table_lines())
-    assert "sampled every 2.5 s" in lines and "UNSTABLE" in lines
+    assert "sampled every 2.5 s" in lines and "warning: sampling at" in lines
 
 
 def test_report_has_a_discrete_implementation_part():

@@ -22,6 +22,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 
@@ -243,7 +244,10 @@ class Explanation:
     The contract's fields are ``stabilizing_gain_intervals``,
     ``requirement_gain_intervals`` (open intervals over all real gains,
     sorted, ``None`` for an unbounded end), ``strongly_stabilizable`` and
-    ``reasons``; the rest are extras (see :meth:`to_json`).
+    ``reasons``; the rest are extras (see :meth:`to_json`).  With ``[sampling]``,
+    ``z_plane`` (:class:`synth.locus.zplane.ZPlaneView`) answers the same question for
+    the sampled loop in the z-plane, and one more reason says what the hold and the
+    delays do to the stabilising gains.
     """
 
     plant: Plant
@@ -268,6 +272,7 @@ class Explanation:
     suggestions: tuple[Suggestion, ...]
     fact_lines: tuple[str, ...]
     models: ModelsAccount | None = None
+    z_plane: Any = None
 
     @property
     def reasons(self) -> list[str]:
@@ -329,6 +334,8 @@ class Explanation:
         }
         if self.models is not None:
             out["proportional"]["models"] = self.models.to_json()
+        if self.z_plane is not None:
+            out["z_plane"] = self.z_plane.to_json()
         return clean(out)
 
     def text_lines(self) -> list[str]:
@@ -373,6 +380,9 @@ class Explanation:
         if thin:
             lines.append(f"  numerically marginal (narrower than double precision can resolve): "
                          f"{f.intervals(thin)}")
+        if self.z_plane is not None:
+            lines.append("")
+            lines.extend(self.z_plane.text_lines())
         lines.append("")
         lines.append("Why")
         lines.extend(f"  - {r}" for r in self.reasons)
@@ -584,6 +594,15 @@ def explain_problem(problem) -> Explanation:
     reasons.append(Reason("candidates", 0,
                           f"Gains that pass every check made here: {f.intervals(cand)}.",
                           {"intervals": [list(iv) for iv in cand]}))
+    z_plane = None
+    if problem.sampling is not None:
+        # the controller runs sampled: the same question in the z-plane, with the hold and delays
+        from synth.locus.zplane import proportional_view
+
+        z_plane = proportional_view(problem)
+        reasons.append(Reason("sampled", 0, z_plane.reason(stab), {
+            "period": z_plane.period, "compute_delay": z_plane.compute_delay,
+            "intervals": [list(iv) for iv in z_plane.stabilizing_gain_intervals]}))
 
     warnings = requirement_warnings(facts, req, region, problem.search)
     suggestions = suggest(facts, req=req, region=region, stab=stab, reg=reg_in, candidates=cand,
@@ -599,7 +618,7 @@ def explain_problem(problem) -> Explanation:
         strongly_stabilizable=facts.strongly_stabilizable, facts=facts, crossings=crossings,
         asymptotes=(asym[1], asym[-1]), reason_details=tuple(reasons), best=best,
         warnings=tuple(warnings), suggestions=tuple(suggestions),
-        fact_lines=tuple(fact_sentences(facts)), models=models)
+        fact_lines=tuple(fact_sentences(facts)), models=models, z_plane=z_plane)
 
 
 def _snap(ivs, scale: float) -> list[Interval]:

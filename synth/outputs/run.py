@@ -27,6 +27,7 @@ _ALWAYS_SHOWN = ("peak_sensitivity", "peak_control_effort", "settling_time")
 
 #: Extra metrics of each design's JSON besides the contract's.
 _EXTRA_METRICS = ("delay_margin", "crossover_frequency", "final_value", "in_region")
+_SAMPLED_METRICS = ("spectral_radius", "peak_complementary_sensitivity", "noise_gain")
 
 
 # ----------------------------------------------------------------------------------------------
@@ -54,6 +55,8 @@ def _design_json(run, d, sampled=None) -> dict:
         params = fam.natural(np.asarray(c.params))
     metrics = {k: v.metrics.get(k) for k, m in METRICS.items() if m.contract}
     metrics.update({k: v.metrics.get(k) for k in _EXTRA_METRICS})
+    # the sampled-data verdict's own figures (with [sampling]; see docs/methods.md)
+    metrics.update({k: v.metrics[k] for k in _SAMPLED_METRICS if k in v.metrics})
     dead = run.problem.plant.dead_time
     out = {
         "rank": d.rank,
@@ -70,7 +73,9 @@ def _design_json(run, d, sampled=None) -> dict:
         "description": description,
         "score": d.score,
         "internally_stable": v.internally_stable,
-        "time_domain": ("exact dead time" if v.exact_delay and dead
+        "time_domain": ("sampled-data loop, output between the samples (exact dead time and "
+                        "computation delay)" if run.problem.sampling is not None else
+                        "exact dead time" if v.exact_delay and dead
                         else ("Pade form of the dead time" if dead else "no dead time")),
         "notes": list(v.notes),
         "provenance": dict(c.provenance),
@@ -183,6 +188,7 @@ def _verdict_sections(lines: list[str]) -> list[str]:
         elif sections[-1]:
             sections.append([])
     keep = [sec for sec in sections if sec and (sec[0].startswith("Proportional")
+                                                or sec[0].startswith("Sampled every")
                                                 or sec[0].startswith("Warnings"))]
     if not keep:
         return lines[:8]

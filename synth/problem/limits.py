@@ -82,6 +82,15 @@ MAX_PARAMETERS = 8
 #: their number; a dozen operating points covers the plants we know of.
 MAX_VARIANTS = 12
 
+#: Most sample periods the dead time plus the computation delay may span with
+#: ``[sampling]``.  The sampled-data verifier keeps every output still in flight
+#: as a state of the loop (one per period of delay), so a delay of N periods
+#: adds N states to every eigenvalue problem and simulation; 1000 keeps one
+#: verification of a candidate near a second, and a loop whose delay is more
+#: than a thousand samples is sampled far faster than it can use (sample slower
+#: or model the delay as a process dead time of a slower loop).
+MAX_DELAY_SAMPLES = 1000
+
 
 class TinyLiteral(float):
     """A literal that reads as 0.0 only because it underflowed (``1e-400``); it keeps its text.

@@ -56,7 +56,7 @@ from synth.problem.limits import (
 from synth.problem.models import DEAD_TIME, ModelSet, point_text
 from synth.problem.plant import Plant
 from synth.problem.region import Region, damping_from_overshoot, decay_rate_from_settling
-from synth.problem.sampling import Sampling, parse_sampling
+from synth.problem.sampling import Sampling, check_delay_samples, parse_sampling
 from synth.problem.source import read_input_text
 
 
@@ -712,6 +712,8 @@ def parse_problem(doc: dict, source: str = "<string>", *, read_data=None) -> Pro
     sampling = parse_sampling(doc["sampling"], src, _num) if "sampling" in doc else None
     actuator = parse_actuator(doc["actuator"], src) if "actuator" in doc else None
     check_time_scales(_rates(plant, req, models, sampling), src)
+    if sampling is not None:
+        check_delay_samples(sampling, plant.dead_time, src)
     return Problem(plant=plant, requirements=req, search=search, source=src, sampling=sampling,
                    actuator=actuator, models=models)
 

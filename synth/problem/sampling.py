@@ -33,6 +33,7 @@ __all__ = [
     "parse_sampling",
     "rate_message",
     "sampling_advice",
+    "search_problem",
 ]
 
 #: Keys of the ``[sampling]`` table.
@@ -122,6 +123,24 @@ def parse_sampling(table, source: str, number) -> Sampling:
                          "computed later than the next sample belongs to a longer period)",
                          source, "sampling.compute_delay")
     return Sampling(period=period, compute_delay=tau)
+
+
+def check_delay_samples(sampling: Sampling, dead_time: float, source: str) -> None:
+    """Refuse a dead time plus computation delay of more than ``MAX_DELAY_SAMPLES`` periods.
+
+    Raises
+    ------
+    InputError
+        Naming ``sampling.period``, with the number of periods and the limit.
+    """
+    from synth.problem.limits import MAX_DELAY_SAMPLES
+
+    periods = (dead_time + sampling.compute_delay) / sampling.period
+    if periods > MAX_DELAY_SAMPLES:
+        raise InputError(f"the dead time plus the computation delay span {periods:.4g} periods; "
+                         f"synth's sampled-loop verifier holds at most {MAX_DELAY_SAMPLES} "
+                         "(each period of delay is a state of the loop): sample slower",
+                         source, "sampling.period")
 
 
 def asked_bandwidth(requirements) -> tuple[float, str] | None:
@@ -246,3 +265,51 @@ def sampling_advice(sampling: Sampling, requirements) -> SamplingAdvice:
     msg = rate_message(ratio, sampling.sample_rate, bw,
                        f"the closed-loop bandwidth {by} asks for")
     return SamplingAdvice(sampling, bw, by, ratio, msg)
+
+
+def hold_delay(sampling: Sampling) -> float:
+    """The delay the search adds for the hold and the computation: ``T / 2 + tau`` (seconds).
+
+    A zero-order hold lags like a dead time of half a period at frequencies
+    well below the Nyquist frequency, and the computation delay ``tau`` is a
+    dead time (common practice; Franklin, Powell and Workman, ch. 6, from
+    memory).
+    """
+    return 0.5 * sampling.period + sampling.compute_delay
+
+
+def search_problem(problem):
+    """The problem the search designs for when the controller runs sampled.
+
+    The controller is designed as a continuous compensator and mapped to z
+    afterwards (docs/methods.md); for the designs to come out feasible in the
+    sampled loop, the search's loop model carries the hold and the
+    computation delay as an extra dead time :func:`hold_delay` (its Pade form
+    in the engine, exact in the search's frequency sweep) and no ``[sampling]``
+    of its own (it is the continuous problem the search solves).  Every
+    candidate is then verified on the sampled-data loop itself.  Without
+    ``[sampling]`` the problem is returned unchanged.
+
+    Parameters
+    ----------
+    problem : synth.problem.requirements.Problem
+
+    Returns
+    -------
+    synth.problem.requirements.Problem
+
+    References
+    ----------
+    .. [1] G. F. Franklin, J. D. Powell and M. L. Workman, *Digital Control of
+       Dynamic Systems*, 3rd ed., Addison-Wesley, 1998, ch. 6 (design by
+       emulation; the hold approximated by a delay of T/2), from memory.
+    """
+    from dataclasses import replace
+
+    if problem.sampling is None:
+        return problem
+    plant = problem.plant
+    extra = hold_delay(problem.sampling)
+    # a continuous problem: the hold is in the plant's model now, not in [sampling]
+    return replace(problem, plant=replace(plant, dead_time=plant.dead_time + extra),
+                   sampling=None)

@@ -594,6 +594,35 @@ class DiscreteController:
         return Program(inputs=(r, m), constants=tuple(consts), states=tuple(bld.states),
                        temps=tuple(bld.temps), statements=tuple(bld.statements), output=u)
 
+    def state_space(self) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+        """The linear controller as the program runs it: ``x[k+1] = A x + B w``, ``v = C x + D w``.
+
+        ``w = [reference, measurement]``; ``x`` the program's states in declaration order.
+        The limits and the rate limit are left out (so the anti-windup terms vanish, as they
+        do while nothing limits); everything else is the exported program, read off by one
+        step from unit states and unit inputs (:class:`ControllerRun` on a batch), so the
+        sampled-data verifier judges the very coefficients and structure that run.
+
+        Returns
+        -------
+        A : ndarray (n, n)
+        B : ndarray (n, 2)
+        C : ndarray (n,)
+        D : ndarray (2,)
+        """
+        from dataclasses import replace
+
+        program = replace(self, limits=None, max_rate=None).program()
+        names = [s[0] for s in program.states]
+        n = len(names)
+        basis = np.eye(n + 2)
+        run = ControllerRun(program, (n + 2,))
+        for i, name in enumerate(names):
+            run.set(name, basis[i].copy())
+        out = np.asarray(run.step(basis[n], basis[n + 1]), dtype=float)
+        nxt = np.array([np.asarray(run.value(nm), dtype=float) for nm in names]).reshape(n, n + 2)
+        return nxt[:, :n], nxt[:, n:], out[:n], out[n:]
+
     # -- running it ------------------------------------------------------------------------
 
     def start(self, shape: tuple[int, ...] = ()) -> ControllerRun:
@@ -718,6 +747,10 @@ class ControllerRun:
     def value(self, name: str):
         """The current value of a program variable (a state, a temp of the last step)."""
         return self._env[self._slot[name]]
+
+    def set(self, name: str, value) -> None:
+        """Set a state of the program (to read the linear map off the program itself)."""
+        self._env[self._slot[name]] = value
 
 
 # ----------------------------------------------------------------------------------------------

@@ -25,7 +25,8 @@ import numpy as np
 
 from synth.numerics.poly import scaled_roots, trim
 
-__all__ = ["LoopFrequency", "frequency_grid", "frequency_metrics", "loop_frequency"]
+__all__ = ["LoopFrequency", "frequency_grid", "frequency_metrics", "gain_crossovers",
+           "loop_frequency", "refined_peak"]
 
 
 @dataclass(frozen=True)
@@ -148,7 +149,7 @@ def _analyse(plant, num_c, den_c, details: bool) -> LoopFrequency:
     ``details`` adds the bandwidth (refined by brentq) and keeps the curve;
     the verdict's numbers do not depend on it.
     """
-    from scipy.optimize import brentq, minimize_scalar
+    from scipy.optimize import brentq
 
     nc, dc = trim(num_c), trim(den_c)
 
@@ -181,26 +182,8 @@ def _analyse(plant, num_c, den_c, details: bool) -> LoopFrequency:
     finite = np.isfinite(L)
     lw = np.log(w)
 
-    def on_log(fun):
-        return lambda x: fun(math.exp(x))
-
     # gain crossovers: |L| = 1
-    pms, dms, wcs = [], [], []
-    with np.errstate(divide="ignore", invalid="ignore"):
-        mag = np.log(np.abs(L))
-    sc = np.flatnonzero(finite[:-1] & finite[1:] & (np.sign(mag[:-1]) != np.sign(mag[1:])))
-    f_mag = on_log(lambda x: math.log(abs(loop(x))))
-    for i in sc:
-        try:
-            x = brentq(f_mag, lw[i], lw[i + 1], xtol=1e-12)
-        except ValueError:
-            continue
-        wc = math.exp(x)
-        phi = float(np.angle(loop(wc)))
-        lag = (phi + math.pi) % (2 * math.pi)  # clockwise rotation onto -1
-        pms.append(math.degrees(min(lag, 2 * math.pi - lag)))
-        dms.append(lag / wc)
-        wcs.append(wc)
+    pms, dms, wcs = gain_crossovers(w, L, loop)
     # phase crossovers: L real negative
     gms, wps = [], []
     im = L.imag
@@ -235,15 +218,7 @@ def _analyse(plant, num_c, den_c, details: bool) -> LoopFrequency:
     # peak sensitivity, refined around the grid maximum
     with np.errstate(divide="ignore", invalid="ignore"):
         S = np.where(finite, 1.0 / np.abs(1.0 + L), 0.0)
-    i = int(np.argmax(S))
-    ms = float(S[i])
-    w_peak = float(w[i])
-    if 0 < i < w.size - 1:
-        res = minimize_scalar(lambda x: -1.0 / abs(1.0 + loop(math.exp(x))),
-                              bounds=(lw[i - 1], lw[i + 1]), method="bounded",
-                              options={"xatol": 1e-10})
-        if res.success and float(-res.fun) > ms:
-            ms, w_peak = float(-res.fun), math.exp(float(res.x))
+    ms, w_peak = refined_peak(w, S, lambda x: 1.0 / abs(1.0 + loop(x)))
     if plant.dead_time == 0 and trim(nc).size + plant.rational_num.size == \
             trim(dc).size + plant.rational_den.size:  # biproper loop: the high-frequency end
         linf = nc[0] * plant.rational_num[0] / (dc[0] * plant.rational_den[0])
@@ -256,6 +231,69 @@ def _analyse(plant, num_c, den_c, details: bool) -> LoopFrequency:
         gain_margin_db=20.0 * math.log10(min(gms)) if gms else None,
         delay_margin=min(dms) if dms else None, peak_sensitivity=ms, peak_frequency=w_peak,
         phase_crossovers=tuple(sorted(wps)), bandwidth=bandwidth)
+
+
+def gain_crossovers(w, L, loop) -> tuple[list[float], list[float], list[float]]:
+    """Every gain crossover of a loop on a grid: phase margins, delay margins, frequencies.
+
+    Sign changes of ``log |L|`` between grid points, each refined by
+    :func:`scipy.optimize.brentq` in ``log w``.  The phase margin at a crossover is
+    the angular distance of ``L`` from -1 (0 to 180 deg); the delay margin the
+    clockwise rotation onto -1 over the frequency.
+
+    Parameters
+    ----------
+    w : ndarray
+        Ascending frequencies (rad/s), > 0.
+    L : ndarray of complex
+        The loop on ``w`` (non-finite at a pole).
+    loop : callable
+        ``loop(w) -> complex`` at one frequency.
+
+    Returns
+    -------
+    (list, list, list)
+        Phase margins (deg), delay margins (s) and crossover frequencies (rad/s).
+    """
+    from scipy.optimize import brentq
+
+    finite = np.isfinite(L)
+    lw = np.log(w)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        mag = np.log(np.abs(L))
+    pms, dms, wcs = [], [], []
+    sc = np.flatnonzero(finite[:-1] & finite[1:] & (np.sign(mag[:-1]) != np.sign(mag[1:])))
+    for i in sc:
+        try:
+            x = brentq(lambda v: math.log(abs(loop(math.exp(v)))), lw[i], lw[i + 1], xtol=1e-12)
+        except ValueError:
+            continue
+        wc = math.exp(x)
+        lag = (float(np.angle(loop(wc))) + math.pi) % (2 * math.pi)  # clockwise onto -1
+        pms.append(math.degrees(min(lag, 2 * math.pi - lag)))
+        dms.append(lag / wc)
+        wcs.append(wc)
+    return pms, dms, wcs
+
+
+def refined_peak(w, values, fun) -> tuple[float, float]:
+    """The largest of ``values`` on the grid ``w``, refined between its neighbours.
+
+    :func:`scipy.optimize.minimize_scalar` (bounded, in ``log w``) on ``fun(w)``;
+    non-finite values count as 0.  Returns ``(peak, frequency)``.
+    """
+    from scipy.optimize import minimize_scalar
+
+    v = np.where(np.isfinite(values), values, 0.0)
+    i = int(np.argmax(v))
+    best, where = float(v[i]), float(w[i])
+    if 0 < i < w.size - 1:
+        lw = np.log(w)
+        res = minimize_scalar(lambda x: -fun(math.exp(x)), bounds=(lw[i - 1], lw[i + 1]),
+                              method="bounded", options={"xatol": 1e-10})
+        if res.success and np.isfinite(res.fun) and float(-res.fun) > best:
+            best, where = float(-res.fun), math.exp(float(res.x))
+    return best, where
 
 
 def _bandwidth(L, w, lw, loop, brentq, lnum, lden) -> float | None:

@@ -16,7 +16,6 @@ References
 
 from __future__ import annotations
 
-import cmath
 import math
 import numbers
 from dataclasses import dataclass
@@ -26,6 +25,7 @@ import numpy as np
 
 from synth.errors import InputError
 from synth.numerics.poly import coefficients
+from synth.verify.hybrid import split_delay
 from synth.verify.simulation import discrete_step, hold_integrals, realise
 
 __all__ = [
@@ -33,11 +33,10 @@ __all__ = [
     "SampledDesign",
     "SampledLoopCheck",
     "design_zmap",
+    "map_design",
     "rate_figures",
     "sampled_design",
     "sampled_loop_check",
-    "sampled_loop_margin",
-    "sampled_verdict",
     "simulate_sampled_loop",
     "zoh_discretise",
     "ControllerVectors",
@@ -111,10 +110,7 @@ def zoh_discretise(num, den, T: float, dead_time: float = 0.0
     d = coefficients(den, "the plant denominator", allow_zero=False)
     if n.size > d.size:
         raise InputError("the plant is improper (numerator degree above denominator)")
-    whole = math.floor(dead_time / T + 1e-12)
-    frac = dead_time - whole * T
-    if frac <= 1e-12 * T:
-        frac = 0.0
+    whole, frac = split_delay(dead_time, T)
     order = d.size - 1
     if order == 0:
         gain = n[0] / d[0]
@@ -285,70 +281,6 @@ def sampled_loop_check(plant_numd, plant_dend, c_numd, c_dend, T: float) -> Samp
 # ----------------------------------------------------------------------------------------------
 
 
-def _unit_circle(num, den, w, T):
-    """``num(z) / den(z)`` at ``z = exp(j w T)``."""
-    z = np.exp(1j * np.asarray(w, dtype=float) * T)
-    return np.polyval(num, z) / np.polyval(den, z)
-
-
-def sampled_loop_margin(plant_numd, plant_dend, c_numd, c_dend, T: float,
-                        hint: float | None = None) -> tuple[float | None, float | None]:
-    """Gain crossover and phase margin of the sampled loop ``Cd(z) Gd(z)`` up to Nyquist.
-
-    The loop is evaluated on the unit circle ``z = exp(j w T)`` for ``w`` up
-    to ``pi / T`` (a logarithmic grid from ``pi / T`` down six decades, and
-    around ``hint``), each sign change of ``|L| - 1`` refined by
-    :func:`scipy.optimize.brentq`; the phase margin is the smallest angular
-    distance of ``L`` from -1 over the crossovers (0 to 180 degrees), as for
-    the continuous loop.
-
-    Parameters
-    ----------
-    plant_numd, plant_dend : array_like
-        The plant with its hold and delays (:func:`zoh_discretise`).
-    c_numd, c_dend : array_like
-        The discrete compensator.
-    T : float
-        Sample time, seconds.
-    hint : float, optional
-        A frequency (rad/s) the grid should cover densely, e.g. the
-        continuous loop's crossover.
-
-    Returns
-    -------
-    (float or None, float or None)
-        The crossover (rad/s) with the smallest margin and that margin in
-        degrees; ``(None, None)`` when ``|L|`` never crosses 1 below Nyquist.
-
-    References
-    ----------
-    .. [1] G. F. Franklin, J. D. Powell and M. L. Workman, *Digital Control of
-       Dynamic Systems*, 3rd ed., Addison-Wesley, 1998, ch. 7 (frequency
-       response of sampled systems), from memory.
-    """
-    from scipy.optimize import brentq
-
-    T = _positive_time(T)
-    num = np.convolve(coefficients(c_numd, "numerator"), coefficients(plant_numd, "numerator"))
-    den = np.convolve(coefficients(c_dend, "denominator"), coefficients(plant_dend, "denominator"))
-    nyq = math.pi / T
-    w = np.geomspace(nyq * 1e-6, nyq * (1 - 1e-9), 3000)
-    if hint is not None and 0 < hint < nyq:
-        w = np.unique(np.concatenate([w, np.geomspace(hint / 10, min(hint * 10, nyq * (1 - 1e-9)),
-                                                      800)]))
-    with np.errstate(divide="ignore", invalid="ignore"):
-        g = np.abs(_unit_circle(num, den, w, T)) - 1.0
-    best = (None, None)
-    for i in np.flatnonzero(np.isfinite(g[:-1]) & np.isfinite(g[1:]) & (np.sign(g[:-1])
-                                                                         != np.sign(g[1:]))):
-        wc = brentq(lambda x: abs(_unit_circle(num, den, x, T)) - 1.0, w[i], w[i + 1],
-                    xtol=1e-14 * w[i + 1], rtol=4 * np.finfo(float).eps)
-        pm = 180.0 - abs(math.degrees(cmath.phase(complex(_unit_circle(num, den, wc, T)))))
-        if best[1] is None or pm < best[1]:
-            best = (float(wc), float(pm))
-    return best
-
-
 @dataclass(frozen=True)
 class RateFigures:
     """The sample rate against a design's loop (common practice, with the numbers).
@@ -484,6 +416,42 @@ def design_zmap(crossover: float | None, T: float):
     return ZMap("tustin-prewarp", T, float(crossover)), None
 
 
+def map_design(plant, controller, sampling, limits=None, max_rate=None,
+               source: str | None = None, key: str | None = None):
+    """A continuous design's discrete controller, as the run maps it and the export rebuilds it.
+
+    Tustin's method pre-warped at the gain crossover of ``controller`` around
+    ``plant`` (:func:`design_zmap`), realised by
+    :func:`synth.verify.discrete.discrete_controller` with the limits.
+
+    Parameters
+    ----------
+    plant : synth.problem.plant.Plant
+        The plant whose loop sets the pre-warping frequency (the nominal plant:
+        one controller is exported, whatever model it is then judged against).
+    controller : synth.verify.controller.Controller
+    sampling : synth.problem.sampling.Sampling
+    limits : (float, float), optional
+    max_rate : float, optional
+    source, key : str, optional
+        Where errors point.
+
+    Returns
+    -------
+    (DiscreteController, LoopFrequency, str or None)
+        The controller, the continuous loop's frequency facts and the reason
+        plain Tustin was used (``None`` when pre-warped).
+    """
+    from synth.verify.discrete import discrete_controller
+    from synth.verify.frequency import loop_frequency
+
+    facts = loop_frequency(plant, controller.num, controller.den)
+    zmap, why = design_zmap(facts.crossover_frequency, sampling.period)
+    model = discrete_controller(controller, zmap, compute_delay=sampling.compute_delay,
+                                limits=limits, max_rate=max_rate, source=source, key=key)
+    return model, facts, why
+
+
 @dataclass(frozen=True)
 class SampledDesign:
     """A design as it runs sampled: its discrete controller and the sampled loop's figures.
@@ -499,7 +467,7 @@ class SampledDesign:
         delay exact at the samples) with the linear controller ``C(z)``.
     crossover_frequency, phase_margin_deg : float or None
         Of the sampled loop, on the unit circle up to Nyquist
-        (:func:`sampled_loop_margin`).
+        (:meth:`synth.verify.hybrid.SampledLoop.frequency`).
     rate : RateFigures
         The sample rate against the continuous design.
     continuous : dict
@@ -507,6 +475,13 @@ class SampledDesign:
         ``phase_margin_deg``, ``bandwidth``.
     warnings : tuple of str
         Every warning or note, with numbers.
+    poles_z : tuple of complex
+        The sampled-data loop's closed-loop poles in z (eigenvalues of the loop
+        from sample to sample, :meth:`synth.verify.hybrid.SampledLoop.poles`);
+        ``loop.stable`` and ``loop.spectral_radius`` are read from them.
+    frequency : synth.verify.hybrid.SampledFrequency or None
+        The loop on the unit circle (margins, ``Ms``, ``Mt``, noise gain), for
+        a stable loop.
     """
 
     period: float
@@ -518,10 +493,13 @@ class SampledDesign:
     rate: RateFigures
     continuous: dict
     warnings: tuple[str, ...]
+    poles_z: tuple[complex, ...] = ()
+    frequency: Any = None
 
     def to_json(self) -> dict:
         """The design JSON's ``discrete`` object (contract fields first)."""
         from synth.outputs.forms import difference_equation
+        from synth.outputs.jsonout import root_pairs
 
         num, den = self.controller.transfer()
         out = {"period": self.period, "compute_delay": self.compute_delay,
@@ -536,7 +514,15 @@ class SampledDesign:
                                "final_value": lp.final_value,
                                "numerically_marginal": lp.marginal,
                                "crossover_frequency": self.crossover_frequency,
-                               "phase_margin_deg": self.phase_margin_deg}
+                               "phase_margin_deg": self.phase_margin_deg,
+                               "poles_z": root_pairs(self.poles_z)}
+        if self.frequency is not None:
+            f = self.frequency
+            out["sampled_loop"].update(
+                gain_margin_db=f.gain_margin_db, delay_margin=f.delay_margin,
+                peak_sensitivity=f.peak_sensitivity,
+                peak_complementary_sensitivity=f.peak_complementary_sensitivity,
+                noise_gain=f.noise_gain)
         out["continuous"] = dict(self.continuous)
         out["rate"] = self.rate.to_json()
         out["warnings"] = list(self.warnings)
@@ -554,8 +540,9 @@ def sampled_design(plant, controller, sampling, limits=None, max_rate=None,
     reference shaping, the limits and its anti-windup, and checked in the
     sampled loop: the plant by zero-order hold with its dead time plus the
     computation delay (exact at the samples, :func:`zoh_discretise`),
-    stability and overshoot (:func:`sampled_loop_check`), crossover and phase
-    margin up to Nyquist (:func:`sampled_loop_margin`).
+    the overshoot at the samples (:func:`sampled_loop_check`), and from the
+    sampled-data loop the verdict judges (:mod:`synth.verify.hybrid`) its
+    poles in z, stability, crossover, margins and peaks up to Nyquist.
 
     Parameters
     ----------
@@ -576,22 +563,30 @@ def sampled_design(plant, controller, sampling, limits=None, max_rate=None,
     .. [1] G. F. Franklin, J. D. Powell and M. L. Workman, *Digital Control of
        Dynamic Systems*, 3rd ed., Addison-Wesley, 1998, ch. 4, 6 and 11, from memory.
     """
-    from synth.verify.discrete import discrete_controller
-    from synth.verify.frequency import loop_frequency
-
     T, tau = sampling.period, sampling.compute_delay
-    facts = loop_frequency(plant, controller.num, controller.den)
-    zmap, why = design_zmap(facts.crossover_frequency, T)
+    model, facts, why = map_design(plant, controller, sampling, limits=limits,
+                                   max_rate=max_rate, source=source, key=key)
     warnings = [why] if why else []
-    model = discrete_controller(controller, zmap, compute_delay=tau, limits=limits,
-                                max_rate=max_rate, source=source, key=key)
     warnings.extend(f"note: {n}" for n in model.notes)
     gn, gd = zoh_discretise(plant.rational_num, plant.rational_den, T, plant.dead_time + tau)
     cn, cd = model.transfer()
     loop = sampled_loop_check(gn, gd, cn, cd, T)
-    wc_d, pm_d = (None, None)
+    # stability, poles and margins from the sampled-data loop the verdict judges (eigenvalues
+    # of the loop from sample to sample; the loop on the unit circle): the polynomial check
+    # above keeps the overshoot at the samples and the characteristic polynomial
+    from dataclasses import replace
+
+    from synth.verify.frequency import frequency_grid
+    from synth.verify.hybrid import UNIT_CIRCLE_TOL, sampled_loop
+
+    hybrid = sampled_loop(plant, model)
+    poles_z = hybrid.poles()
+    rho = float(np.max(np.abs(poles_z))) if poles_z.size else 0.0
+    loop = replace(loop, stable=rho < 1.0 - UNIT_CIRCLE_TOL, spectral_radius=rho)
+    wc_d, pm_d, freq = None, None, None
     if loop.stable:
-        wc_d, pm_d = sampled_loop_margin(gn, gd, cn, cd, T, hint=facts.crossover_frequency)
+        freq = hybrid.frequency(frequency_grid(plant, controller.num, controller.den))
+        wc_d, pm_d = freq.crossover_frequency, freq.phase_margin_deg
     rate = rate_figures(T, tau, facts.crossover_frequency, facts.bandwidth,
                         facts.phase_margin_deg)
     if rate.message:
@@ -610,38 +605,8 @@ def sampled_design(plant, controller, sampling, limits=None, max_rate=None,
                   "phase_margin_deg": facts.phase_margin_deg, "bandwidth": facts.bandwidth}
     return SampledDesign(period=T, compute_delay=tau, controller=model, loop=loop,
                          crossover_frequency=wc_d, phase_margin_deg=pm_d, rate=rate,
-                         continuous=continuous, warnings=tuple(warnings))
-
-
-def sampled_verdict(verdict, sampled: SampledDesign):
-    """The verdict with the sampled loop's stability judged (a violation when it is unstable).
-
-    Parameters
-    ----------
-    verdict : synth.verify.verdict.Verdict
-        The continuous loop's verdict.
-    sampled : SampledDesign
-
-    Returns
-    -------
-    synth.verify.verdict.Verdict
-        Unchanged when the sampled loop is stable; otherwise with the
-        violation (shortfall key ``sampled_stability``, at least 100 like any
-        unstable loop) and ``feasible`` False.
-    """
-    from dataclasses import replace
-
-    lp = sampled.loop
-    if lp.stable:
-        return verdict
-    tau = sampled.compute_delay
-    text = (f"sampled loop unstable at T = {sampled.period:g} s"
-            + (f" with a computation delay of {tau:g} s" if tau else "")
-            + f": largest closed-loop root |z| = {lp.spectral_radius:.4g} (must be < 1)")
-    short = dict(verdict.shortfalls)
-    short["sampled_stability"] = 100.0 + max(0.0, lp.spectral_radius - 1.0)
-    return replace(verdict, violations=(*verdict.violations, text), feasible=False,
-                   shortfall=float(sum(short.values())), shortfalls=short)
+                         continuous=continuous, warnings=tuple(warnings),
+                         poles_z=tuple(complex(p) for p in poles_z), frequency=freq)
 
 
 def simulate_sampled_loop(plant_numd, plant_dend, controller, reference, load, noise=0.0

@@ -179,6 +179,29 @@ def _cancellations(plant, nc, dc) -> list[tuple[str, complex]]:
     return out
 
 
+def internal_stability(plant, nc, dc, violations: list, short: dict, notes: list) -> bool:
+    """Judge cancellations between compensator and plant; append what was found.
+
+    An unstable cancellation (a root with non-negative real part, judged
+    relative to its size so one at the origin counts) is a violation with
+    shortfall ``internal_stability``; a stable one is a note.  Returns whether
+    the loop is internally stable as far as cancellations go.
+    """
+    ok = True
+    for kind, r in _cancellations(plant, nc, dc):
+        what = ("compensator zero at {z} cancels the plant pole at {z}" if kind == "zero"
+                else "compensator pole at {z} cancels the plant zero at {z}")
+        text = what.format(z=format_complex(r))
+        if r.real >= -1e-9 * abs(r):  # relative: a cancellation at the origin is unstable
+            ok = False
+            violations.append(f"internally unstable: {text}; the unstable mode stays in the "
+                              "loop and no output shows it")
+            short["internal_stability"] = 2 * _UNSTABLE_SHORTFALL
+        else:
+            notes.append(f"{text} (a stable hidden mode decaying at rate {_fmt(-r.real)} 1/s)")
+    return ok
+
+
 def _fmt(v: float, digits: int = 3) -> str:
     return f"{v:.{digits}g}"
 
@@ -255,6 +278,11 @@ def evaluate_model(problem, plant, controller, exact_delay: bool = True,
     from synth.verify.frequency import loop_frequency
     from synth.verify.simulation import simulate_step
 
+    if problem.sampling is not None:
+        # the controller runs sampled: judge the sampled-data loop it makes
+        from synth.verify.sampled_eval import evaluate_sampled
+
+        return evaluate_sampled(problem, plant, controller, label)
     req = problem.requirements
     region = problem.region
     nc, dc = trim(controller.num), trim(controller.den)
@@ -269,19 +297,7 @@ def evaluate_model(problem, plant, controller, exact_delay: bool = True,
     metrics.update(delay_margin=None, crossover_frequency=None, final_value=None,
                    in_region=False, gain=gain)
 
-    # internal stability: cancellations between compensator and plant
-    internally_stable = True
-    for kind, r in _cancellations(plant, nc, dc):
-        what = ("compensator zero at {z} cancels the plant pole at {z}" if kind == "zero"
-                else "compensator pole at {z} cancels the plant zero at {z}")
-        text = what.format(z=format_complex(r))
-        if r.real >= -1e-9 * abs(r):  # relative: a cancellation at the origin is unstable
-            internally_stable = False
-            violations.append(f"internally unstable: {text}; the unstable mode stays in the "
-                              "loop and no output shows it")
-            short["internal_stability"] = 2 * _UNSTABLE_SHORTFALL
-        else:
-            notes.append(f"{text} (a stable hidden mode decaying at rate {_fmt(-r.real)} 1/s)")
+    internally_stable = internal_stability(plant, nc, dc, violations, short, notes)
 
     stable = bool(Region().contains(poles)) if poles.size else True
     n_full = max(np.polymul(dc, plant.den).size, np.polymul(nc, plant.num).size)
