@@ -447,6 +447,13 @@ def main(argv: list[str] | None = None) -> None:
     SIGINT and SIGTERM end the run after its cleanup with one line that says
     what was written, and exit codes 130 and 143 (128 + signal number).
     """
+    # synth's matrices are small (a dozen states): multi-threaded BLAS only makes threads wait
+    # for each other, and on a busy machine a 10 x 10 matrix function then costs milliseconds
+    # instead of microseconds.  Set before numpy is first imported (commands import it
+    # lazily); a user's own setting wins.
+    for var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
+        os.environ.setdefault(var, "1")
+
     try:
         from typer._click import exceptions as clickex  # typer >= 0.20 vendors click
     except ImportError:  # pragma: no cover - older typer uses click itself

@@ -4,6 +4,10 @@ from __future__ import annotations
 
 import os
 
+# as the CLI does: one BLAS thread for synth's small matrices (set before numpy loads)
+for _var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
+    os.environ.setdefault(_var, "1")
+
 import numpy as np
 import pytest
 
