@@ -8,8 +8,8 @@ import os
 for _var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
     os.environ.setdefault(_var, "1")
 
-import numpy as np
-import pytest
+import numpy as np  # noqa: E402  (after the BLAS setting above)
+import pytest  # noqa: E402
 
 # Plots in tests never need a screen.
 os.environ.setdefault("MPLBACKEND", "Agg")
