@@ -178,6 +178,19 @@ def _checked(new, family, strategy) -> list:
 
 def run_design(problem, strategies=None, families=None,
                progress: ProgressFn | None = None) -> DesignRun:
+    """Search, verify and rank compensators for ``problem`` (see :func:`_run_design`).
+
+    The whole run works with one BLAS thread (:func:`synth.numerics.threads.single_threaded`):
+    its matrices are small, and a thread pool only costs time on them.
+    """
+    from synth.numerics.threads import single_threaded
+
+    with single_threaded():
+        return _run_design(problem, strategies, families, progress)
+
+
+def _run_design(problem, strategies=None, families=None,
+                progress: ProgressFn | None = None) -> DesignRun:
     """Search, verify and rank compensators for ``problem``.
 
     Parameters

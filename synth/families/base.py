@@ -335,6 +335,9 @@ class Family:
     param_names: ClassVar[tuple[str, ...]] = ()
     #: names of the denominator values ``conic_form`` expects fixed
     fixed_names: ClassVar[tuple[str, ...]] = ()
+    #: whether the structure takes PID set-point weights ``(b, c)`` as its reference
+    #: shaping (``synth.verify.controller.setpoint_numerator``); others get a prefilter
+    setpoint_weights: ClassVar[bool] = False
 
     @property
     def n_params(self) -> int:

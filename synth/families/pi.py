@@ -26,6 +26,7 @@ class PIFamily(Family):
 
     name: ClassVar[str] = "PI"
     position: ClassVar[int] = 20
+    setpoint_weights: ClassVar[bool] = True
     param_names: ClassVar[tuple[str, ...]] = ("gain", "log10_zero")
 
     def _bounds(self):

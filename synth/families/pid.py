@@ -40,6 +40,7 @@ class PIDFamily(Family):
 
     name: ClassVar[str] = "PID"
     position: ClassVar[int] = 40
+    setpoint_weights: ClassVar[bool] = True
     param_names: ClassVar[tuple[str, ...]] = ("gain", "log10_outer_zero",
                                               "log10_zero_damping", "log10_filter_pole")
     fixed_names: ClassVar[tuple[str, ...]] = ("filter_pole",)

@@ -94,7 +94,8 @@ _POLISH_STEP = 0.02
 #: The scalar metrics the objective estimates (metric keys of the design JSON).
 _ESTIMATED = ("overshoot_percent", "settling_time", "rise_time", "steady_state_error",
               "peak_control_effort", "peak_sensitivity", "phase_margin_deg", "gain_margin_db",
-              "min_damping_ratio")
+              "min_damping_ratio", "load_iae", "load_peak", "peak_complementary_sensitivity",
+              "noise_gain", "final_value")
 
 
 def _pad_to(P, width):
@@ -136,15 +137,50 @@ def _first_crossing(t, z, level):
     return np.where(any_hit, tt, np.inf)
 
 
+#: Proportional set-point weights the search tries for a structure that takes them
+#: (the reference response is affine in b, so each costs one combination of two responses).
+SEARCH_WEIGHTS = (1.0, 0.7, 0.4, 0.0)
+
+
+def _step_figures(t, y, u, yss, band):
+    """Overshoot, settling time, rise time, steady-state error and peak effort per row."""
+    scale = np.maximum(np.abs(yss), 1e-9)
+    sgn = np.where(yss >= 0, 1.0, -1.0)
+    os_ = np.maximum(0.0, np.max(sgn[:, None] * (y - yss[:, None]), axis=1)) / scale * 100
+    outside = np.abs(y - yss[:, None]) > band * scale[:, None]
+    last = (t.shape[1] - 1) - np.argmax(outside[:, ::-1], axis=1)
+    rows = np.arange(y.shape[0])
+    ts = np.where(outside.any(axis=1), t[rows, np.minimum(last + 1, t.shape[1] - 1)], 0.0)
+    z = sgn[:, None] * y / scale[:, None]
+    with np.errstate(invalid="ignore"):  # inf - inf: never rises
+        tr = _first_crossing(t, z, 0.9) - _first_crossing(t, z, 0.1)
+    tr = np.where(np.isfinite(tr), tr, np.inf)
+    return {"overshoot_percent": os_, "settling_time": ts, "rise_time": tr,
+            "steady_state_error": np.abs(1.0 - yss),
+            "peak_control_effort": np.max(np.abs(u), axis=1), "final_value": yss}
+
+
+def _trapezoid_abs(t, y):
+    """Per row: integral of |y| over the row's time grid (trapezoid, sign changes split)."""
+    y0, y1 = y[:, :-1], y[:, 1:]
+    a0, a1 = np.abs(y0), np.abs(y1)
+    cross = y0 * y1 < 0
+    with np.errstate(invalid="ignore", divide="ignore"):
+        seg = np.where(cross, (y0 * y0 + y1 * y1) / np.where(cross, a0 + a1, 1.0), a0 + a1)
+    return np.sum(0.5 * np.diff(t, axis=1) * seg, axis=1)
+
+
 class SearchObjective:
     """Vectorised objective of one family for one problem (see the module docstring).
 
     Call with ``X`` of shape (B, n_params); returns shape (B,).
-    :meth:`details` returns the estimated metrics as arrays.
+    :meth:`details` returns the estimated metrics as arrays (metric keys of
+    the design JSON), the chosen set-point weight ``setpoint_b`` (NaN where
+    none) and the objective ``f``.
     """
 
     def __init__(self, problem, family):
-        from synth.rank import reference_scales
+        from synth.problem.objectives import ObjectiveScales, objective
 
         self.problem = problem
         self.family = family
@@ -159,6 +195,16 @@ class SearchObjective:
         # a structure's own limits (the gain range) are the family's bounds already
         self.targets = tuple((entry, entry.search_limit(limit, _TIGHTEN, _WIDEN))
                              for entry, limit in req.limits() if entry.concerns != "structure")
+        self.reference_targets = tuple(t for t in self.targets if t[0].concerns == "reference")
+        self.objective = objective(problem)
+        self.scales = ObjectiveScales.for_problem(problem)
+        shaping = problem.search.reference_shaping
+        # reference shaping the search estimates: set-point weights for the structures
+        # that take them (only worth their cost when a reference-step limit is set), the
+        # static gain correction 1/T(0) for the others (synth.shaping)
+        self.weights = SEARCH_WEIGHTS if (shaping and family.setpoint_weights
+                                          and self.reference_targets) else None
+        self.static_correction = shaping and not family.setpoint_weights
         sp = family.space
         self.w_char = sp.w_char
         lo = max(sp.w_min, sp.w_char * 1e-3)
@@ -178,7 +224,6 @@ class SearchObjective:
         self.w = np.unique(np.concatenate([w, *extra])) if extra else w
         self.g_jw = plant.evaluate(1j * self.w, exact_delay=True)
         self.tau = np.linspace(0.0, 1.0, _T_POINTS) ** 2
-        self.refs = reference_scales(problem)
         self.ts_floor = req.limit("settling_time")
         ranges = [aim for entry, aim in self.targets if entry.kind == "contain"]
         self.range_factors = np.geomspace(*ranges[0], 3) if ranges else None
@@ -192,12 +237,83 @@ class SearchObjective:
         num_l, den_l = _pad_to(num_l, width), _pad_to(den_l, width)
         return num_c, den_c, num_l, den_l, den_l + num_l
 
+    def _shortfall(self, targets, est, n):
+        """Sum of the catalogue's normalised shortfalls of the estimates against ``targets``."""
+        sh = np.zeros(n)
+        for entry, aim in targets:
+            value = est[entry.metric]
+            if entry.kind == "contain":
+                pen = entry.shortfall(value, aim)
+            else:
+                with np.errstate(invalid="ignore"):
+                    pen = entry.shortfall(value, aim)
+                # undefined (NaN): a shortfall of 1 where the verifier would fail it too
+                pen = np.where(np.isnan(value), 1.0 if entry.undefined else 0.0, pen)
+            if entry.cap is not None:
+                pen = np.minimum(pen, entry.cap)
+            sh = sh + pen
+        return sh
+
+    def _reference(self, r, dch, nc, dc, c0, t):
+        """Reference-step estimates, with the best estimated shaping per row.
+
+        Returns the step figures (dict of (b,) arrays) and the set-point
+        weight chosen per row (NaN: none).
+        """
+        b_rows = r.shape[0]
+        if self.weights is not None:
+            from synth.verify.controller import setpoint_numerators
+
+            n0 = setpoint_numerators(nc, dc, 0.0, 0.0)
+            n1 = setpoint_numerators(nc, dc, 1.0, 0.0)
+            nums = [n0, n1]
+        else:
+            nums = [nc]
+        width = max(nums[0].shape[1] + max(self.gnum.size, self.gden.size) - 1,
+                    dch.shape[1] + 1)
+        ys, us, yss = [], [], []
+        denom = r * _polyval_rows(dch, r)
+        E = np.exp(r[:, :, None] * t[:, None, :])
+        for nr in nums:
+            ny = _pad_to(batch_polymul(nr, self.gnum), width)
+            nu = _pad_to(batch_polymul(nr, self.gden), width)
+            ys.append((ny[:, -1] / c0)[:, None] + np.real(np.einsum(
+                "bn,bnt->bt", _polyval_rows(ny, r) / denom, E)))
+            us.append((nu[:, -1] / c0)[:, None] + np.real(np.einsum(
+                "bn,bnt->bt", _polyval_rows(nu, r) / denom, E)))
+            yss.append(ny[:, -1] / c0)
+        if self.weights is None:
+            y, u, yf = ys[0], us[0], yss[0]
+            if self.static_correction:
+                # a type-0 loop whose static loop gain is at least 1: the prefilter 1/T(0)
+                # brings the final value to 1 (synth.shaping.static_correction)
+                l0 = np.abs(yf / np.where(yf != 1.0, 1.0 - yf, np.inf))
+                fix = (l0 >= 1.0) & np.isfinite(yf) & (yf != 0.0)
+                g = np.where(fix, 1.0 / np.where(yf != 0.0, yf, 1.0), 1.0)
+                y, u, yf = y * g[:, None], u * g[:, None], yf * g
+            return _step_figures(t, y, u, yf, self.band), np.full(b_rows, np.nan)
+        # set-point weights: y(b) = y0 + b (y1 - y0), the same for u; keep the b whose
+        # reference figures fall shortest of the limits (ties: the objective, then larger b)
+        best = None
+        for b in self.weights:
+            y = ys[0] + b * (ys[1] - ys[0])
+            u = us[0] + b * (us[1] - us[0])
+            fig = _step_figures(t, y, u, yss[0] + b * (yss[1] - yss[0]), self.band)
+            sh = self._shortfall(self.reference_targets, fig, b_rows)
+            if best is None:
+                best = (sh, fig, np.full(b_rows, b))
+                continue
+            better = sh < best[0] - 1e-9
+            best = (np.where(better, sh, best[0]),
+                    {k: np.where(better, fig[k], best[1][k]) for k in fig},
+                    np.where(better, b, best[2]))
+        return best[1], best[2]
+
     def details(self, X) -> dict[str, np.ndarray]:
         """Estimated metrics and the objective for a batch (arrays of shape (B,))."""
         from synth.locus.core import roots_batch
         from synth.numerics.screening import in_region_batch as _in_region
         from synth.problem.region import Region
-        from synth.rank import score_arrays
 
         X = np.atleast_2d(np.asarray(X, dtype=float))
         B = X.shape[0]
@@ -210,6 +326,7 @@ class SearchObjective:
 
         out = {k: np.full(B, np.nan) for k in _ESTIMATED}
         out["stable_plant_gain_range"] = np.full((B, 2), np.nan)
+        out["setpoint_b"] = np.full(B, np.nan)
         short = np.zeros(B)
         idx = np.flatnonzero(stable)
         if idx.size:
@@ -219,49 +336,43 @@ class SearchObjective:
             # closed-loop damping and region shaping
             mag = np.abs(r)
             zeta = np.min(-r.real / np.maximum(mag, 1e-300), axis=1, initial=1.0)
-            out["min_damping_ratio"][idx] = zeta
             reg_short = np.sum(np.maximum(-self.region.margin(r), 0.0), axis=1) / self.w_char
-            # modal step response of y and u
+            # modal responses: y(t) = N(0)/char(0) + sum Res_i exp(p_i t)
             n = ch.shape[1] - 1
             powers = np.arange(n, 0, -1)
             dch = ch[:, :-1] * powers
             c0 = ch[:, -1]
-            nu = _pad_to(batch_polymul(nc, self.gden), ch.shape[1])
             with np.errstate(all="ignore"):
-                denom = r * _polyval_rows(dch, r)
-                ry = _polyval_rows(nl, r) / denom
-                ru = _polyval_rows(nu, r) / denom
-                yss = nl[:, -1] / c0
-                uss = nu[:, -1] / c0
                 sig = np.min(-r.real, axis=1, initial=np.inf)  # a static loop has no poles
                 horizon = np.where(np.isfinite(sig), (math.log(1.0 / self.band) + 6.0) / sig,
                                    1.0)
                 if self.ts_floor is not None:
                     horizon = np.maximum(horizon, 1.3 * self.ts_floor)
                 t = horizon[:, None] * self.tau[None, :]
+                est, b_chosen = self._reference(r, dch, nc, dc, c0, t)
+                # the load step at the plant input (r = 0): Y/D = num_G den_C / char
+                nd = _pad_to(batch_polymul(dc, self.gnum), ch.shape[1])
                 E = np.exp(r[:, :, None] * t[:, None, :])
-                y = yss[:, None] + np.real(np.einsum("bn,bnt->bt", ry, E))
-                u = uss[:, None] + np.real(np.einsum("bn,bnt->bt", ru, E))
-            ok = np.all(np.isfinite(y), axis=1) & np.all(np.isfinite(u), axis=1)
-            scale = np.maximum(np.abs(yss), 1e-9)
-            sgn = np.where(yss >= 0, 1.0, -1.0)
-            os_ = np.maximum(0.0, np.max(sgn[:, None] * (y - yss[:, None]), axis=1)) / scale * 100
-            outside = np.abs(y - yss[:, None]) > self.band * scale[:, None]
-            last = (t.shape[1] - 1) - np.argmax(outside[:, ::-1], axis=1)
-            rows = np.arange(idx.size)
-            ts = np.where(outside.any(axis=1), t[rows, np.minimum(last + 1, t.shape[1] - 1)], 0.0)
-            z = sgn[:, None] * y / scale[:, None]
-            with np.errstate(invalid="ignore"):  # inf - inf: never rises
-                tr = _first_crossing(t, z, 0.9) - _first_crossing(t, z, 0.1)
-            tr = np.where(np.isfinite(tr), tr, np.inf)
-            eff = np.max(np.abs(u), axis=1)
-            sse = np.abs(1.0 - yss)
+                yd_ss = nd[:, -1] / c0
+                yd = yd_ss[:, None] + np.real(np.einsum(
+                    "bn,bnt->bt", _polyval_rows(nd, r) / (r * _polyval_rows(dch, r)), E))
+            ok = np.isfinite(est["overshoot_percent"]) & np.isfinite(est["peak_control_effort"]) \
+                & np.all(np.isfinite(yd), axis=1)
+            load_iae = np.where(yd_ss == 0.0, _trapezoid_abs(t, yd), np.nan)
+            load_peak = np.max(np.abs(yd), axis=1)
             # frequency response with the exact delay
             s = 1j * self.w
             with np.errstate(all="ignore"):
-                L = _polyval_grid(nc, s) / _polyval_grid(dc, s) * self.g_jw[None, :]
+                C = _polyval_grid(nc, s) / _polyval_grid(dc, s)
+                L = C * self.g_jw[None, :]
                 S = 1.0 / np.abs(1.0 + L)
                 ms = np.max(np.where(np.isfinite(S), S, 0.0), axis=1)
+                mt = np.max(np.where(np.isfinite(S), np.abs(L) * S, 1.0), axis=1)
+                noise = np.max(np.where(np.isfinite(S), np.abs(C) * S, 0.0), axis=1)
+                # the high-frequency gain of a biproper compensator is noise too
+                c_inf = np.where(dc[:, 0] != 0.0, nc[:, 0] / np.where(dc[:, 0] != 0, dc[:, 0], 1),
+                                 0.0)
+                noise = np.maximum(noise, np.abs(c_inf))
                 lm = np.log(np.abs(L))
                 dist = np.degrees(np.abs(np.angle(-L)))  # angular distance from -1
                 cross = np.sign(lm[:, :-1]) != np.sign(lm[:, 1:])
@@ -277,34 +388,34 @@ class SearchObjective:
                 hi = np.min(np.where(pcross & (lmag < 1), inv, np.inf), axis=1)
                 lo = np.max(np.where(pcross & (lmag > 1), inv, 0.0), axis=1)
                 gm_db = 20 * np.log10(hi)
-            est = {"overshoot_percent": os_, "settling_time": ts, "rise_time": tr,
-                   "steady_state_error": sse, "peak_control_effort": eff,
-                   "peak_sensitivity": ms, "phase_margin_deg": pm, "gain_margin_db": gm_db,
-                   "min_damping_ratio": zeta, "stable_plant_gain_range": (lo, hi)}
+            est.update({"peak_sensitivity": ms, "phase_margin_deg": pm, "gain_margin_db": gm_db,
+                        "min_damping_ratio": zeta, "stable_plant_gain_range": (lo, hi),
+                        "load_iae": load_iae, "load_peak": load_peak,
+                        "peak_complementary_sensitivity": mt, "noise_gain": noise})
             for key in _ESTIMATED:
                 out[key][idx] = est[key]
             out["stable_plant_gain_range"][idx] = np.column_stack([lo, hi])
+            out["setpoint_b"][idx] = b_chosen
 
             # penalties: the catalogue's normalised shortfall of each estimate against
             # its tightened limit, in catalogue order
-            sh = np.zeros(idx.size)
-            for entry, aim in self.targets:
-                if entry.kind == "contain":
-                    # the estimated interval comes from crossings on a coarse grid: also
-                    # count the test factors at which the eigenvalue-free kernel fails
-                    fails = np.zeros(idx.size)
-                    for k in self.range_factors:
-                        fails += ~_in_region(dl + k * nl, Region())
-                    sh += fails / self.range_factors.size
-                pen = entry.shortfall(est[entry.metric], aim)
-                if entry.cap is not None:
-                    pen = np.minimum(pen, entry.cap)
-                sh += pen
+            sh = self._shortfall(self.targets, est, idx.size)
+            if self.range_factors is not None:
+                # the estimated interval comes from crossings on a coarse grid: also
+                # count the test factors at which the eigenvalue-free kernel fails
+                fails = np.zeros(idx.size)
+                for k in self.range_factors:
+                    fails += ~_in_region(dl + k * nl, Region())
+                sh += fails / self.range_factors.size
             sh = np.where(ok, sh, 5.0)
             feas = sh <= 0
-            sc = score_arrays(ms, lo, hi, ts, eff, self.family.n_params, self.refs,
-                              final_value=yss)
-            val = np.where(feas, np.minimum(sc, 0.999999), 1.0 + sh + 0.1 * np.log1p(reg_short))
+            # feasible: the objective, squashed into [0, 1) (values first, then fallbacks)
+            with np.errstate(invalid="ignore", over="ignore"):
+                v = self.objective.values(est, self.scales)
+                fb = self.objective.fallbacks(est, self.scales)
+                sq = np.where(np.isfinite(v), 0.5 * v / (1.0 + v),
+                              np.where(np.isfinite(fb), 0.5 + 0.4999 * fb / (1.0 + fb), 0.9999))
+            val = np.where(feas, sq, 1.0 + sh + 0.1 * np.log1p(reg_short))
             short[idx] = val
         f = np.where(stable, short, 10.0 + np.log1p(unstable_part / self.w_char))
         f = np.where(np.isfinite(f), f, 1e6)

@@ -143,7 +143,7 @@ def setpoint_numerator(num, den, b: float, c: float) -> np.ndarray:
     Returns
     -------
     ndarray
-        Descending powers of s, over ``den``.
+        Descending powers of s, over ``den`` (as long as ``den``).
 
     References
     ----------
@@ -152,18 +152,41 @@ def setpoint_numerator(num, den, b: float, c: float) -> np.ndarray:
     """
     num = np.trim_zeros(np.asarray(num, dtype=float), "f")
     den = np.trim_zeros(np.asarray(den, dtype=float), "f")
-    integral = den.size > 1 and den[-1] == 0.0
-    d1 = den[:-1] if integral else den
-    if integral and d1[-1] == 0.0:
+    width = den.size
+    row = np.zeros((1, width))
+    row[0, width - num.size:] = num
+    return setpoint_numerators(row, den[None, :], b, c)[0]
+
+
+def setpoint_numerators(num, den, b, c) -> np.ndarray:
+    """:func:`setpoint_numerator` for a batch: rows of ``num`` and ``den`` of one shape.
+
+    ``num`` and ``den`` are (B, k) arrays padded on the left to the same
+    width ``k``, ``den`` monic or not, every row with a root at the origin
+    or none; ``b`` and ``c`` scalars or (B,) arrays.  Returns (B, k).
+    """
+    num = np.asarray(num, dtype=float)
+    den = np.asarray(den, dtype=float)
+    b = np.asarray(b, dtype=float).reshape(-1, 1) if np.ndim(b) else float(b)
+    c = np.asarray(c, dtype=float).reshape(-1, 1) if np.ndim(c) else float(c)
+    integral = bool(den[0, -1] == 0.0) and den.shape[1] > 1
+    d1 = den[:, :-1] if integral else den                # (B, k - 1) or (B, k)
+    if integral and np.any(d1[:, -1] == 0.0):
         raise ValueError("set-point weights need at most one integrator in the compensator")
-    ki = num[-1] / d1[-1] if integral else 0.0
     if integral:
-        rest = np.polysub(num, ki * d1)          # constant term cancels: divide by s
-        q = rest[:-1] if rest.size > 1 else np.zeros(1)
+        ki = num[:, -1:] / d1[:, -1:]
+        rest = num.copy()
+        rest[:, 1:] -= ki * d1               # num - ki d1: its constant term cancels
+        q = rest[:, :-1]                     # ... so divide by s
     else:
+        ki = np.zeros((num.shape[0], 1))
         q = num
-    kp = np.polyval(q, 0.0) / d1[-1]
-    part = np.polyadd(b * kp * d1, c * np.polysub(q, kp * d1))   # b kp + c D(s), over d1
+    kp = q[:, -1:] / d1[:, -1:]
+    part = b * kp * d1 + c * (q - kp * d1)               # b kp + c D(s), over d1
     if integral:
-        return np.polyadd(ki * d1, np.polymul([1.0, 0.0], part))
+        # ki d1 + s * part, over s d1 = den
+        out = np.zeros_like(num)
+        out[:, 1:] += ki * d1
+        out[:, :-1] += part
+        return out
     return part
