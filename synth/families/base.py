@@ -427,6 +427,14 @@ class Family:
         """
         return NotSupported(f"no fixed-denominator form for the {self.name} structure")
 
+    def circle_form(self) -> str | NotSupported:
+        """``"PI"`` or ``"PID"`` when the structure is ``kp + ki/s`` (plus a filtered derivative).
+
+        The circle strategy (:mod:`synth.strategies.circle`) designs such a
+        structure exactly under the robustness circles.
+        """
+        return NotSupported(f"the {self.name} structure is not affine in kp and ki")
+
     def pid_gains(self, num, den) -> ParallelGains | NotSupported:
         """Parallel PID gains of a compensator of this family."""
         return NotSupported(f"the {self.name} structure has no PID form")

@@ -109,6 +109,9 @@ class PIFamily(Family):
         # K s + K z: both coefficients nonnegative for a zero in the left half-plane
         return _conic([1.0, 0.0], _power_generators(2, w), [0.0, 0.0], [True, False], (), ())
 
+    def circle_form(self):
+        return "PI"
+
     def pid_gains(self, num, den):
         x = self.from_polys(num, den)
         if x is None:

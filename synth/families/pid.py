@@ -159,6 +159,9 @@ class PIDFamily(Family):
         return _conic([1.0, N, 0.0], _power_generators(3, w), [0.0, 0.0, 0.0],
                       [True, False, False], (N,), self.fixed_names)
 
+    def circle_form(self):
+        return "PID"
+
     def pid_gains(self, num, den):
         x = self.from_polys(num, den)
         if x is None:

@@ -387,12 +387,16 @@ def _simulate_delay(plant, ctrl, inputs, poles, t_end):
     Bw[ng:, 1] = br
     Phi, G0, G1 = hold_integrals(A, Bw, h)
     cy = np.concatenate([Cg[0], np.zeros(nk)])
-    cu = np.concatenate([dy * Cg[0], ck])
+    E = inputs.shape[1]
+    # the output maps may differ per experiment (compensators sharing a denominator)
+    dr = np.broadcast_to(np.asarray(dr, dtype=float), (E,))
+    dy = np.broadcast_to(np.asarray(dy, dtype=float), (E,))
+    ck = np.broadcast_to(np.asarray(ck, dtype=float), (E, nk))
+    cu = np.hstack([dy[:, None] * Cg[0][None, :], ck])          # (E, n)
     # one step: z+ = Phi z + g_a a + g_b b + g_r r  (a, b: v at the step's left and right end)
     G = np.column_stack([G0[:, 0], G1[:, 0], G0[:, 1] + G1[:, 1]])
     B = max(1, min(m, _LIFT))
     P, Q = _lifted(Phi, G, B)
-    E = inputs.shape[1]
     r, d = inputs[0], inputs[1]
     s_plus = np.zeros((steps + 1, E))     # u + d, right limits at the samples
     s_minus = np.zeros((steps + 1, E))    # left limits (zero at t = 0-)
@@ -420,7 +424,7 @@ def _simulate_delay(plant, ctrl, inputs, poles, t_end):
         Z = (P[:b * n] @ z + Q[:b * n, :3 * b] @ W).reshape(b, n, E)
         a_next = delayed(s_plus, k + 1 - m, b)       # v(t_j+1+)
         cyz = np.einsum("i,bie->be", cy, Z)
-        cuz = np.einsum("i,bie->be", cu, Z)
+        cuz = np.einsum("ei,bie->be", cu, Z)
         y[k + 1:k + 1 + b] = cyz + dg * a_next
         u_minus = cuz + uc + dy * dg * b_in
         u[k + 1:k + 1 + b] = cuz + uc + dy * dg * a_next
@@ -430,6 +434,97 @@ def _simulate_delay(plant, ctrl, inputs, poles, t_end):
         k += b
     t = h * np.arange(steps + 1)
     return t, y, u
+
+
+def batch_load_responses(plant, nums, den, t_end: float, exact_delay: bool = True):
+    """Load-step responses (r = 0) of many compensators ``nums[i] / den`` sharing a denominator.
+
+    With a dead time the compensators share the joint dynamics of
+    :func:`_simulate_delay` (only the output maps differ), so the whole
+    batch is one lifted simulation with one column per compensator; without
+    one each loop is simulated exactly on its own.  Every loop gets the
+    same horizon ``t_end`` (and, with a dead time, the same step).
+
+    Parameters
+    ----------
+    plant : synth.problem.plant.Plant
+    nums : array_like, shape (E, k)
+        Numerators, padded on the left to the length ``k`` of ``den``.
+    den : array_like, shape (k,)
+    t_end : float
+    exact_delay : bool
+
+    Returns
+    -------
+    t : ndarray (T,) or list of ndarray
+    y : ndarray (T, E) or list of ndarray
+        The output; a list per loop when the loops were simulated one by one.
+    """
+    from synth.verify.controller import Controller
+
+    nums = np.atleast_2d(np.asarray(nums, dtype=float))
+    den = trim(np.asarray(den, dtype=float))
+    E = nums.shape[0]
+    if exact_delay and plant.dead_time > 0 and den.size > 1:
+        A, B, C = None, None, []
+        D = []
+        for row in nums:
+            a, b, c, d = realise(row[row.size - den.size:] if row.size > den.size else row, den)
+            A, B = a, b
+            C.append(c[0])
+            D.append(d[0, 0])
+        ctrl = ControllerRealisation(A, B[:, 0], -B[:, 0], np.array(C), 0.0, 0.0)
+        # per-column maps: the reference weight dr is unused (r = 0)
+        fast = 0.0
+        for row in nums:
+            _, _, char = loop_polynomials(plant, row, den)
+            pr = np.roots(trim(char)) if trim(char).size > 1 else np.zeros(0)
+            fast = max(fast, float(np.max(np.abs(pr))) if pr.size else 0.0)
+        out = _simulate_delay(plant, _Columns(ctrl, np.array(D)), np.vstack([np.zeros(E),
+                                                                             np.ones(E)]),
+                              np.array([fast]), t_end)
+        if out is not None:
+            t, y, _ = out
+            return t, y
+    ts, ys = [], []
+    for row in nums:
+        resp = _responses(plant, Controller(tuple(row), tuple(den)), np.array([[0.0], [1.0]]),
+                          t_end, None, exact_delay)[0]
+        ts.append(resp.t)
+        ys.append(resp.y)
+    return ts, ys
+
+
+@dataclass(frozen=True)
+class _Columns:
+    """A controller realisation whose output map differs per simulated column."""
+
+    base: ControllerRealisation
+    d: np.ndarray
+
+    @property
+    def A(self):
+        return self.base.A
+
+    @property
+    def br(self):
+        return self.base.br
+
+    @property
+    def by(self):
+        return self.base.by
+
+    @property
+    def c(self):
+        return self.base.c
+
+    @property
+    def dr(self):
+        return self.d
+
+    @property
+    def dy(self):
+        return -self.d
 
 
 def _lifted(Phi, G, B):
