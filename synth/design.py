@@ -25,10 +25,18 @@ Strategy errors.  A strategy that raises :class:`synth.errors.StrategyDeclined`
 for a family is recorded in ``search.declined``; any other exception (a
 user error of another kind, or a bug) propagates.
 
-Dead time.  All candidates are first verified with the Pade form in the
-simulation (quick); then, in rank order, each design that would be reported
-is re-verified with the exact delay and the ranking recomputed, until every
-reported design carries an exact-delay verdict.
+Dead time.  Every candidate is verified with the exact delay (the
+verifier's lifted simulation makes that as quick as the Pade form).
+
+Screening.  At most :data:`_VERIFY_PER_FAMILY` candidates of a family are
+verified: the best by the search's own estimate of the objective, and the
+best of each strategy (:func:`_screen`); ``search.screened_out`` counts the
+others.
+
+Reference shaping.  With ``search.reference_shaping`` the finishing stage
+(:func:`synth.shaping.shape_designs`) chooses set-point weights or a
+prefilter for the best designs after the first ranking; they are verified
+again with it and ranked once more.
 """
 
 from __future__ import annotations
@@ -45,6 +53,7 @@ from synth.families import families_for
 from synth.outputs.cautions import CAUTION
 from synth.outputs.run import SCHEMA
 from synth.rank import RankedDesign, rank_designs
+from synth.shaping import shape_designs
 from synth.verify.verdict import verify
 
 __all__ = ["CAUTION", "DesignRun", "SCHEMA", "prepare_report", "run_design"]
@@ -161,6 +170,46 @@ class DesignRun:
 # ----------------------------------------------------------------------------
 
 
+#: Most candidates of one family that go on to full verification (the rest are screened
+#: out by the search's own estimate of the objective; see :func:`_screen`).
+_VERIFY_PER_FAMILY = 12
+
+
+def _screen(problem, family, cands, limit: int) -> list:
+    """The ``limit`` most promising candidates of one family, by the search's estimate.
+
+    Strategies propose overlapping sets (the global search polishes the
+    others' candidates); verifying all of them costs more than the search.
+    The family's vectorised objective (:class:`synth.strategies.evolve.SearchObjective`:
+    estimated shortfall, then the objective) orders those with family
+    coordinates; candidates outside the family's space are always kept, and
+    so is the best one of each strategy, so no strategy's answer is lost.
+    """
+    if len(cands) <= limit:
+        return list(cands)
+    import numpy as np
+
+    from synth.strategies.evolve import SearchObjective
+
+    inside = [i for i, c in enumerate(cands) if c.params]
+    if not inside:
+        return list(cands)
+    f = SearchObjective(problem, family)(np.array([cands[i].params for i in inside]))
+    order = [inside[j] for j in np.argsort(f, kind="stable")]
+    keep = set(i for i, c in enumerate(cands) if not c.params)
+    seen_origin_strategy = set()
+    for i in order:                      # the best of each strategy's provenance method
+        key = (cands[i].origin, str(cands[i].provenance.get("method", "")))
+        if key not in seen_origin_strategy:
+            seen_origin_strategy.add(key)
+            keep.add(i)
+    for i in order:
+        if len(keep) >= limit:
+            break
+        keep.add(i)
+    return [c for i, c in enumerate(cands) if i in keep]
+
+
 def _verify_all(problem, cands, exact: bool) -> list:
     return [verify(problem, c.controller, exact_delay=exact)
             for c in cands]
@@ -228,6 +277,7 @@ def _run_design(problem, strategies=None, families=None,
     futile: dict[str, str] = {}
     capped: list[str] = []
     declined: list[str] = []
+    dropped = 0
     t_search = time.monotonic()
     # a safety limit only: the search's amount is counted in work units
     t_limit = t_search + search.time_budget
@@ -260,32 +310,26 @@ def _run_design(problem, strategies=None, families=None,
             done += 1
             if progress is not None:
                 progress(done, total, f"{fam.name} ({strat.name})")
-        candidates.extend(found)
+        screened = _screen(problem, fam, found, _VERIFY_PER_FAMILY)
+        dropped += len(found) - len(screened)
+        candidates.extend(screened)
         per_family[fam.name] = round(time.monotonic() - start, 3)
     search_seconds = time.monotonic() - t_search
 
-    dead = problem.plant.dead_time > 0
-    verdicts = _verify_all(problem, candidates, exact=not dead)
+    verdicts = _verify_all(problem, candidates, exact=True)
     pairs = list(zip(candidates, verdicts, strict=True))
-    if dead:
-        # make every reported design carry an exact-delay verdict
-        exact = [False] * len(pairs)
-        index = {id(c): i for i, c in enumerate(candidates)}
-        while True:
-            ranked = rank_designs(pairs, problem)
-            todo = [index[id(d.candidate)] for d in ranked if not exact[index[id(d.candidate)]]]
-            if not todo:
-                break
-            for i in todo:
-                c = candidates[i]
-                pairs[i] = (c, verify(problem, c.controller))
-                exact[i] = True
     ranked = rank_designs(pairs, problem)
+    if problem.search.reference_shaping:
+        # the finishing stage: reference shaping for the designs a report could list
+        # (twice the kept number, since shaping may reorder them), then the final order
+        wide = rank_designs(pairs, problem, keep=2 * problem.search.keep)
+        ranked = rank_designs(shape_designs(problem, [(d.candidate, d.verdict) for d in wide],
+                                            len(wide)), problem)
     if progress is not None:
         progress(total, total, "verified")
     stats = {"structures": [f.name for f in fams], "strategies": [s.name for s in strats],
              "effort": search.effort, "work": work, "futile": futile,
-             "candidates": len(candidates), "search_seconds": round(search_seconds, 3),
+             "candidates": len(candidates), "screened_out": dropped, "search_seconds": round(search_seconds, 3),
              "family_seconds": per_family, "time_capped": capped,
              "time_budget_reached": bool(capped), "declined": declined}
     return DesignRun(problem=problem, designs=tuple(ranked), proportional=proportional,

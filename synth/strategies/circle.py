@@ -64,8 +64,12 @@ SIM_UNITS = 4
 #: kp grid points, fractions of ki_max, local grid size and refinement rounds.
 _N_KP = 25
 _FRACTIONS = (1.0, 0.85, 0.7, 0.5)
-_LOCAL = 5
-_ROUNDS = 3
+_LOCAL = 3
+_ROUNDS = 4
+#: Candidates of the first grid simulated (the ones with the least IE = 1/ki).
+_SCREEN = 10
+#: Derivative settings designed in full (the ones with the largest ki_max).
+_PID_FULL = 3
 #: Derivative times (fractions of the PI's integral time) and filter constants for PID.
 _TD_FRACTIONS = (0.1, 0.25, 0.45, 0.7)
 _FILTER_N = (4.0, 8.0, 16.0)
@@ -311,7 +315,7 @@ def _refine(evaluate, setting, sign, kim, kp0, f0, span, lo, hi):
     Returns ``(value, kp, fraction)``.
     """
     best = (math.inf, kp0, f0)
-    dk, df = span, 0.15
+    dk, df = span, 0.2
     for _ in range(_ROUNDS):
         kps = np.clip(best[1] + dk * np.linspace(-1, 1, _LOCAL), lo, hi)
         frs = np.clip(best[2] + df * np.linspace(-1, 1, _LOCAL), 0.05, 1.0)
@@ -324,7 +328,7 @@ def _refine(evaluate, setting, sign, kim, kp0, f0, span, lo, hi):
             j = int(np.argmin(vals))
             if vals[j] < best[0]:
                 best = (float(vals[j]), float(KP[ok][j]), float(FR[ok][j]))
-        dk, df = dk / 3.0, df / 3.0
+        dk, df = dk / 2.0, df / 2.0
     return best
 
 
@@ -395,21 +399,28 @@ class CircleStrategy:
                         if kd <= 0:
                             continue
                         trials.append(_Setting(kd=kd, tf=td / n))
-                scored = []
+                # rank the derivative settings by their largest admissible ki (MIGO), then
+                # design the best few in full on the exact simulation
+                ranked = []
                 for st in trials:
+                    L0 = sign * st.response(w) * P
+                    lo, hi = _kp_range(L0, P, cons)
+                    if not (math.isfinite(hi) and hi > 0):
+                        continue
+                    lo = 0.0 if (integrating or not math.isfinite(lo)) else lo
+                    kps = np.linspace(lo, hi, _N_KP + 2)[1:-1]
+                    km = ki_limits(kps, L0, P, Q, cons)
+                    evaluate.units += kps.size
+                    if np.any(np.isfinite(km) & (km > 0)):
+                        ranked.append((-float(np.nanmax(np.where(km > 0, km, np.nan))), st))
+                ranked.sort(key=lambda x: x[0])
+                for _, st in ranked[:_PID_FULL]:
                     if evaluate.units > budget:
                         break
                     res = self._design(evaluate, st, cons, P, Q, w, sign, integrating, budget,
-                                       refine=False)
+                                       gfun=gfun)
                     if res is not None:
-                        scored.append((res, st))
-                scored.sort(key=lambda x: x[0][0])
-                for res, st in scored[:2]:
-                    if evaluate.units > budget:
-                        break
-                    fine = self._design(evaluate, st, cons, P, Q, w, sign, integrating, budget,
-                                        start=res, gfun=gfun)
-                    found.append((*(fine or res), st, level))
+                        found.append((*res, st, level))
         if form == "PID":
             found = [f for f in found if f[3].kd > 0] or found
         found.sort(key=lambda x: x[0])
@@ -454,11 +465,14 @@ class CircleStrategy:
             KP = np.repeat(kps[ok], len(_FRACTIONS))
             FR = np.tile(_FRACTIONS, int(np.sum(ok)))
             KI = FR * np.repeat(km[ok], len(_FRACTIONS)) * _INSIDE
-            vals = evaluate(setting, KP, KI, sign)
+            # screen by the integrated error IE = 1/ki, a lower bound of the load IAE
+            # (common practice; Astrom and Hagglund 2006): simulate the most promising
+            order = np.argsort(1.0 / KI, kind="stable")[:_SCREEN]
+            vals = evaluate(setting, KP[order], KI[order], sign)
             j = int(np.argmin(vals))
             if not math.isfinite(vals[j]):
                 return None
-            best = (float(vals[j]), float(KP[j]), float(FR[j]))
+            best = (float(vals[j]), float(KP[order][j]), float(FR[order][j]))
         else:
             kp0, ki0 = start[1], start[2]
             km0 = float(kim(np.array([kp0]))[0])

@@ -91,6 +91,10 @@ _POLISH_ITERATIONS = 30
 _POLISH_STEP = 0.02
 
 
+#: The metrics of the reference step.
+_REFERENCE = ("overshoot_percent", "settling_time", "rise_time", "steady_state_error",
+              "peak_control_effort", "final_value")
+
 #: The scalar metrics the objective estimates (metric keys of the design JSON).
 _ESTIMATED = ("overshoot_percent", "settling_time", "rise_time", "steady_state_error",
               "peak_control_effort", "peak_sensitivity", "phase_margin_deg", "gain_margin_db",
@@ -198,6 +202,8 @@ class SearchObjective:
         self.reference_targets = tuple(t for t in self.targets if t[0].concerns == "reference")
         self.objective = objective(problem)
         self.scales = ObjectiveScales.for_problem(problem)
+        self.need_reference = bool(self.reference_targets) or any(
+            m in _REFERENCE for m in self.objective.metrics)
         shaping = problem.search.reference_shaping
         # reference shaping the search estimates: set-point weights for the structures
         # that take them (only worth their cost when a reference-step limit is set), the
@@ -254,11 +260,13 @@ class SearchObjective:
             sh = sh + pen
         return sh
 
-    def _reference(self, r, dch, nc, dc, c0, t):
+    def _reference(self, r, denom, E, nc, dc, c0, t):
         """Reference-step estimates, with the best estimated shaping per row.
 
-        Returns the step figures (dict of (b,) arrays) and the set-point
-        weight chosen per row (NaN: none).
+        ``denom`` is ``p char'(p)`` at the closed-loop poles ``r``, ``E`` the
+        modes ``exp(p t)`` on the rows' time grids ``t``.  Returns the step
+        figures (dict of (b,) arrays) and the set-point weight chosen per row
+        (NaN: none).
         """
         b_rows = r.shape[0]
         if self.weights is not None:
@@ -269,11 +277,8 @@ class SearchObjective:
             nums = [n0, n1]
         else:
             nums = [nc]
-        width = max(nums[0].shape[1] + max(self.gnum.size, self.gden.size) - 1,
-                    dch.shape[1] + 1)
+        width = max(nums[0].shape[1] + max(self.gnum.size, self.gden.size) - 1, r.shape[1] + 1)
         ys, us, yss = [], [], []
-        denom = r * _polyval_rows(dch, r)
-        E = np.exp(r[:, :, None] * t[:, None, :])
         for nr in nums:
             ny = _pad_to(batch_polymul(nr, self.gnum), width)
             nu = _pad_to(batch_polymul(nr, self.gden), width)
@@ -349,13 +354,23 @@ class SearchObjective:
                 if self.ts_floor is not None:
                     horizon = np.maximum(horizon, 1.3 * self.ts_floor)
                 t = horizon[:, None] * self.tau[None, :]
-                est, b_chosen = self._reference(r, dch, nc, dc, c0, t)
+                E = np.exp(r[:, :, None] * t[:, None, :])
+                denom = r * _polyval_rows(dch, r)
+                # the reference step only where something reads it: a reference-step
+                # limit, an objective of the reference step, or the fallback order of
+                # loops without integral action (whose load IAE is unbounded)
+                if self.need_reference or np.any(dc[:, -1] != 0.0):
+                    est, b_chosen = self._reference(r, denom, E, nc, dc, c0, t)
+                else:
+                    est = {k: np.full(idx.size, np.nan) for k in _REFERENCE}
+                    est["overshoot_percent"] = np.zeros(idx.size)   # (not estimated)
+                    est["peak_control_effort"] = np.zeros(idx.size)
+                    b_chosen = np.full(idx.size, np.nan)
                 # the load step at the plant input (r = 0): Y/D = num_G den_C / char
                 nd = _pad_to(batch_polymul(dc, self.gnum), ch.shape[1])
-                E = np.exp(r[:, :, None] * t[:, None, :])
                 yd_ss = nd[:, -1] / c0
                 yd = yd_ss[:, None] + np.real(np.einsum(
-                    "bn,bnt->bt", _polyval_rows(nd, r) / (r * _polyval_rows(dch, r)), E))
+                    "bn,bnt->bt", _polyval_rows(nd, r) / denom, E))
             ok = np.isfinite(est["overshoot_percent"]) & np.isfinite(est["peak_control_effort"]) \
                 & np.all(np.isfinite(yd), axis=1)
             load_iae = np.where(yd_ss == 0.0, _trapezoid_abs(t, yd), np.nan)
