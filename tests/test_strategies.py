@@ -75,8 +75,9 @@ def _stable(num_c, den_c, problem) -> bool:
 # ----------------------------------------------------------------------------
 
 
-def test_registry_holds_one_strategy_per_contract_origin():
-    assert sorted(s.origin for s in STRATEGIES) == sorted(ORIGINS)
+def test_registry_covers_every_contract_origin():
+    # every origin the contract names has a strategy, and no strategy uses another name
+    assert {s.origin for s in STRATEGIES} == set(ORIGINS)
     names = [s.name for s in STRATEGIES]
     assert len(set(names)) == len(names)
     assert [s.order for s in STRATEGIES] == sorted(s.order for s in STRATEGIES)
@@ -121,10 +122,12 @@ def test_every_strategy_conforms(strategy, structure):
 
 
 @pytest.mark.parametrize("strategy", STRATEGIES, ids=lambda s: s.name)
-@pytest.mark.parametrize("structure", ["lead", "PD"])
-def test_every_strategy_stabilises_the_textbook_lead_plant(strategy, structure):
-    # 4/(s(s+2)) is stabilised by any lead or PD with a positive gain: each strategy proposes
-    # at least one such loop (numpy.roots)
+@pytest.mark.parametrize("which", [0, 1])
+def test_every_strategy_stabilises_the_textbook_lead_plant(strategy, which):
+    # 4/(s(s+2)) is stabilised by any lead or PD with a positive gain (and by PI and PID
+    # with small enough integral action): each strategy proposes at least one such loop
+    # (numpy.roots) for the structures it designs
+    structure = (["PI", "PID"] if strategy.name == "circle" else ["lead", "PD"])[which]
     fam = family_for(structure, OGATA)
     cands = strategy.propose(OGATA, fam, _context(strategy, fam))
     assert any(_stable(c.num, c.den, OGATA) for c in cands)
@@ -203,7 +206,7 @@ def test_a_throwaway_family_and_strategy_plug_in_from_one_file():
     doc = json.loads(json.dumps(run.to_json(), allow_nan=False))
     assert doc["search"]["structures"] == ["P", "roll-off"]
     assert doc["search"]["strategies"] == ["decliner", "grid-probe", "placement", "convex",
-                                           "search"]
+                                           "circle", "search"]
     assert doc["search"]["declined"] == ["decliner on P: nothing for P",
                                          "decliner on roll-off: nothing for roll-off"]
     rolled = [d for d in doc["designs"] if d["structure"] == "roll-off"]

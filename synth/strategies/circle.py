@@ -338,7 +338,7 @@ class CircleStrategy:
 
     name: str = "circle"
     origin: str = "search"
-    share: float = 0.25
+    share: float = 0.2
     order: int = 25
 
     def propose(self, problem, family, context) -> list:
@@ -377,9 +377,13 @@ class CircleStrategy:
         levels = (ms_file,) if ms_file is not None else MS_LEVELS
         evaluate = _Evaluator(problem, scales, w, G)
         budget = int(context.work)
+        if budget < _N_KP + SIM_UNITS * _SCREEN:
+            return []     # not even one level's first grid fits in the work allowance
         found = []        # (value, kp, ki, setting, level)
         P, Q = Gs, Gs / (1j * w)
         for level in levels:
+            if evaluate.units > budget:
+                break
             cons = circles(problem, Gs, scales, level)
             if not cons:
                 continue

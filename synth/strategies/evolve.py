@@ -559,7 +559,7 @@ class EvolveStrategy:
 
     name: str = "search"
     origin: str = ORIGIN
-    share: float = 0.68
+    share: float = 0.48
     order: int = 30
 
     def propose(self, problem, family, context) -> list:
