@@ -388,7 +388,8 @@ def prepare_report(problem, doc: dict, explanation=None, top: int | None = None)
             note = ""
         except InputError as err:  # a zero gain: the loop has no locus to draw
             trace, gain, note = None, None, err.message
-        figures.append(DesignFigures(rank=d.rank, curves=curves(problem, c.num, c.den),
+        figures.append(DesignFigures(rank=d.rank, curves=curves(problem, c.num, c.den,
+                                                                shaping=d.shaping()),
                                      locus=trace, locus_gain=gain, locus_note=note))
     return ReportInput(problem=problem, document=document, explanation=explanation,
                        figures=tuple(figures))

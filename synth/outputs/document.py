@@ -196,6 +196,35 @@ class DesignRecord:
         """Whether the document gives this metric (possibly as ``null``)."""
         return key in self.metrics or key == "gain"
 
+    def shaping(self):
+        """The design's reference shaping as a :class:`synth.verify.controller.ReferenceShaping`.
+
+        From the contract's ``reference_filter`` (a prefilter ``{numerator,
+        denominator}`` or ``{setpoint_weights: {b, c}}``); ``None`` without one.
+        Raises InputError for a malformed object.
+        """
+        from synth.verify.controller import ReferenceShaping
+
+        rf = self.reference_filter
+        if rf is None:
+            return None
+        key = f"designs[{self.index}].reference_filter"
+        method = rf.get("method") if isinstance(rf.get("method"), str) else ""
+        weights = rf.get("setpoint_weights")
+        if weights is not None:
+            b, c = (weights.get(k) if isinstance(weights, Mapping) else None for k in "bc")
+            if not (_is_number(b) and _is_number(c)):
+                raise InputError("setpoint_weights needs numbers b and c", "<design>", key)
+            return ReferenceShaping(setpoint_weights=(float(b), float(c)), method=method)
+        num, den = rf.get("numerator"), rf.get("denominator")
+        ok = all(isinstance(x, (list, tuple)) and x and all(_is_number(v) for v in x)
+                 for x in (num, den))
+        if not ok:
+            raise InputError("needs numerator and denominator lists of numbers",
+                             "<design>", key)
+        return ReferenceShaping(numerator=tuple(float(v) for v in num),
+                                denominator=tuple(float(v) for v in den), method=method)
+
 
 @dataclass(frozen=True)
 class DesignDocument:

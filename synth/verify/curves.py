@@ -50,7 +50,7 @@ class LoopCurves:
     stable: bool
 
 
-def curves(problem, num_c, den_c, t_end: float | None = None) -> LoopCurves:
+def curves(problem, num_c, den_c, t_end: float | None = None, shaping=None) -> LoopCurves:
     """The curves of the loop around ``problem.plant`` with compensator ``num_c/den_c``.
 
     Parameters
@@ -61,6 +61,9 @@ def curves(problem, num_c, den_c, t_end: float | None = None) -> LoopCurves:
         Compensator polynomials.
     t_end : float, optional
         Simulation length (default: the verifier's horizon).
+    shaping : synth.verify.controller.ReferenceShaping, optional
+        The design's reference shaping (the step response goes through it;
+        the frequency response does not depend on it).
 
     Returns
     -------
@@ -72,7 +75,9 @@ def curves(problem, num_c, den_c, t_end: float | None = None) -> LoopCurves:
     stable = bool(np.all(poles.real < 0))
     step = None
     if nc.size <= dc.size:
-        step = simulate_step(problem.plant, nc, dc, t_end=t_end,
+        from synth.verify.controller import Controller
+
+        step = simulate_step(problem.plant, Controller(tuple(nc), tuple(dc), shaping), t_end=t_end,
                              requirements=problem.requirements)
     return LoopCurves(step=step, frequency=loop_frequency(problem.plant, nc, dc),
                       closed_loop_poles=poles, stable=stable)
