@@ -77,11 +77,11 @@ __all__ = ["DEFAULT_NOISE_KU", "DEFAULT_OBJECTIVE", "OBJECTIVES", "Objective",
 DEFAULT_OBJECTIVE = "balanced"
 
 #: The default noise bound in units of the plant's ultimate gain ``Ku`` (module docstring):
-#: about the noise gain of the published PID rules with the usual derivative filter
-#: (N = 10) tuned for Ms near 1.4 (AMIGO: 2 to 4 Ku on the benchmark batch of Astrom and
-#: Hagglund 2004), so derivative action stays available but cannot buy a little load IAE
-#: with unbounded high-frequency gain.
-DEFAULT_NOISE_KU = 3.0
+#: the noise gain of the classic Ziegler-Nichols PID (kp = 0.6 Ku) with the usual derivative
+#: filter N = 10, ``0.6 (1 + 10) Ku``, the noisiest of the published PID rules (common
+#: practice; Astrom and Hagglund 2006, sec. 3.3 on the filter).  Derivative action stays
+#: available, but a design cannot buy a little load IAE with unbounded high-frequency gain.
+DEFAULT_NOISE_KU = 6.6
 
 #: The robustness factor of ``balanced``: ``1 + (max(0, Ms - MS_FREE) / MS_WIDTH)^2``.
 MS_FREE = 1.4

@@ -70,9 +70,12 @@ _ROUNDS = 4
 _SCREEN = 10
 #: Derivative settings designed in full (the ones with the largest ki_max).
 _PID_FULL = 3
+#: Compass search over (log10 kd, log10 Tf) for PID: first step (decades) and rounds.
+_COMPASS_STEP = 0.25
+_COMPASS_ROUNDS = 4
 #: Derivative times (fractions of the PI's integral time) and filter constants for PID.
-_TD_FRACTIONS = (0.1, 0.25, 0.45, 0.7)
-_FILTER_N = (4.0, 8.0, 16.0)
+_TD_FRACTIONS = (0.1, 0.17, 0.25, 0.35, 0.5, 0.7, 1.0)
+_FILTER_N = (2.5, 4.0, 6.0, 9.0, 14.0, 20.0)
 #: Candidates returned per structure.
 _N_OUT = 3
 #: Relative margin kept inside the circle limits (the verifier refines the peaks).
@@ -418,13 +421,48 @@ class CircleStrategy:
                     if np.any(np.isfinite(km) & (km > 0)):
                         ranked.append((-float(np.nanmax(np.where(km > 0, km, np.nan))), st))
                 ranked.sort(key=lambda x: x[0])
+                # the objective (screened simulations, no refinement) of the best few by
+                # ki_max, then a compass search over (log kd, log Tf) from the best of them
+                tried = {}
+
+                def quick(st, tried=tried, cons=cons):
+                    key = (round(math.log10(st.kd), 6), round(math.log10(st.tf), 6))
+                    if key not in tried:
+                        tried[key] = self._design(evaluate, st, cons, P, Q, w, sign,
+                                                  integrating, budget, refine=False)
+                    return tried[key]
+
+                starts = []
                 for _, st in ranked[:_PID_FULL]:
                     if evaluate.units > budget:
                         break
-                    res = self._design(evaluate, st, cons, P, Q, w, sign, integrating, budget,
-                                       gfun=gfun)
+                    res = quick(st)
                     if res is not None:
-                        found.append((*res, st, level))
+                        starts.append((res, st))
+                if not starts:
+                    continue
+                starts.sort(key=lambda x: x[0][0])
+                (best_res, best_st) = starts[0]
+                step = _COMPASS_STEP
+                for _ in range(_COMPASS_ROUNDS):
+                    moved = False
+                    for dk, dt in ((1, 0), (-1, 0), (0, 1), (0, -1)):
+                        if evaluate.units > budget:
+                            break
+                        st = _Setting(kd=best_st.kd * 10 ** (dk * step),
+                                      tf=best_st.tf * 10 ** (dt * step))
+                        res = quick(st)
+                        if res is not None and res[0] < best_res[0]:
+                            best_res, best_st, moved = res, st, True
+                    if not moved:
+                        step /= 2.0
+                for res, st in [(best_res, best_st)] + starts[1:2]:
+                    # the fine limit always; the refinement while the work lasts
+                    fine = self._design(evaluate, st, cons, P, Q, w, sign, integrating, budget,
+                                        start=res, gfun=gfun,
+                                        refine=evaluate.units <= budget)
+                    if fine is not None:
+                        found.append((*fine, st, level))
         if form == "PID":
             found = [f for f in found if f[3].kd > 0] or found
         found.sort(key=lambda x: x[0])
