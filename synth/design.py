@@ -172,7 +172,7 @@ class DesignRun:
 
 #: Most candidates of one family that go on to full verification (the rest are screened
 #: out by the search's own estimate of the objective; see :func:`_screen`).
-_VERIFY_PER_FAMILY = 12
+_VERIFY_PER_FAMILY = 8
 
 
 def _screen(problem, family, cands, limit: int) -> list:
@@ -320,9 +320,9 @@ def _run_design(problem, strategies=None, families=None,
     pairs = list(zip(candidates, verdicts, strict=True))
     ranked = rank_designs(pairs, problem)
     if problem.search.reference_shaping:
-        # the finishing stage: reference shaping for the designs a report could list
-        # (twice the kept number, since shaping may reorder them), then the final order
-        wide = rank_designs(pairs, problem, keep=2 * problem.search.keep)
+        # the finishing stage: reference shaping for the designs a report lists (a few
+        # more, since shaping may reorder them), then the final order
+        wide = rank_designs(pairs, problem, keep=problem.search.keep + 2)
         ranked = rank_designs(shape_designs(problem, [(d.candidate, d.verdict) for d in wide],
                                             len(wide)), problem)
     if progress is not None:

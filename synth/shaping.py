@@ -224,9 +224,15 @@ def shape_designs(problem, pairs, limit: int):
 
     if not problem.search.reference_shaping:
         return list(pairs)
+    from synth.problem.catalogue import REQUIREMENTS
+
     out = list(pairs)
     for i, (cand, verdict) in enumerate(out[:limit]):
-        if not verdict.stable:
+        # shaping only changes the reference step: not worth simulating for a loop that
+        # fails anything else
+        if not verdict.stable or any(
+                k not in REQUIREMENTS or REQUIREMENTS[k].concerns != "reference"
+                for k in verdict.shortfalls):
             continue
         choice = choose_shaping(problem, cand.structure, cand.num, cand.den, verdict)
         if choice.shaping is None:

@@ -102,13 +102,9 @@ def circles(problem, G, scales, ms: float | None) -> list[Circle]:
     req = problem.requirements
     out = []
     limits = [ms] if ms is not None else []
-    pm = req.limit("phase_margin_deg")
-    if pm is not None:
-        limits.append(1.0 / (2.0 * math.sin(math.radians(pm) / 2.0)))
-    gm = req.limit("gain_margin_db")
-    if gm is not None:
-        g = 10.0 ** (gm / 20.0)
-        limits.append(g / (g - 1.0))
+    margin = _margin_ms(problem)
+    if margin is not None:
+        limits.append(margin)
     if limits:
         m = min(limits) * _INSIDE
         out.append(Circle(np.array(1.0), np.array(1.0), np.array(1.0 - 1.0 / (m * m))))
@@ -123,6 +119,31 @@ def circles(problem, G, scales, ms: float | None) -> list[Circle]:
         a = (noise * _INSIDE) ** 2 * np.abs(G) ** 2
         out.append(Circle(a - 1.0, a, a))
     return out
+
+
+def _margin_ms(problem) -> float | None:
+    """The Ms bound implied by the file's phase and gain margin limits (module docstring)."""
+    req = problem.requirements
+    out = []
+    pm = req.limit("phase_margin_deg")
+    if pm is not None:
+        out.append(1.0 / (2.0 * math.sin(math.radians(pm) / 2.0)))
+    gm = req.limit("gain_margin_db")
+    if gm is not None:
+        g = 10.0 ** (gm / 20.0)
+        out.append(g / (g - 1.0))
+    return min(out) if out else None
+
+
+def design_levels(problem) -> tuple[float, ...]:
+    """The Ms levels to design at: the file's limit, else :data:`MS_LEVELS` (those the margins allow)."""
+    ms_file = problem.requirements.limit("peak_sensitivity")
+    if ms_file is not None:
+        return (ms_file,)
+    margin = _margin_ms(problem)
+    if margin is None:
+        return MS_LEVELS
+    return tuple(dict.fromkeys(min(level, margin) for level in MS_LEVELS))
 
 
 def _first_bound(a, b, c):
@@ -376,8 +397,7 @@ class CircleStrategy:
         sign = 1.0 if low > 0 else -1.0
         Gs = sign * G
         integrating = den[-1] == 0.0
-        ms_file = problem.requirements.limit("peak_sensitivity")
-        levels = (ms_file,) if ms_file is not None else MS_LEVELS
+        levels = design_levels(problem)
         evaluate = _Evaluator(problem, scales, w, G)
         budget = int(context.work)
         if budget < _N_KP + SIM_UNITS * _SCREEN:
@@ -395,74 +415,80 @@ class CircleStrategy:
             if pi_best is None:
                 continue
             found.append((*pi_best, _Setting(), level))
-            if form == "PID":
-                kp, ki = pi_best[1], pi_best[2]
-                ti = kp / ki if ki > 0 and kp > 0 else 1.0 / max(ki, 1e-300)
-                trials = []
-                for frac in _TD_FRACTIONS:
-                    for n in _FILTER_N:
-                        td = frac * ti
-                        kd = max(kp, 0.0) * td
-                        if kd <= 0:
-                            continue
-                        trials.append(_Setting(kd=kd, tf=td / n))
-                # rank the derivative settings by their largest admissible ki (MIGO), then
-                # design the best few in full on the exact simulation
-                ranked = []
-                for st in trials:
-                    L0 = sign * st.response(w) * P
-                    lo, hi = _kp_range(L0, P, cons)
-                    if not (math.isfinite(hi) and hi > 0):
+        pid_levels = []
+        if form == "PID" and found:
+            # the derivative part is searched at the level where the PI did best
+            pid_levels = [min(found, key=lambda f: f[0])[4]]
+        for level in pid_levels:
+            cons = circles(problem, Gs, scales, level)
+            pi_best = next(f[:3] for f in found if f[4] == level)
+            kp, ki = pi_best[1], pi_best[2]
+            ti = kp / ki if ki > 0 and kp > 0 else 1.0 / max(ki, 1e-300)
+            trials = []
+            for frac in _TD_FRACTIONS:
+                for n in _FILTER_N:
+                    td = frac * ti
+                    kd = max(kp, 0.0) * td
+                    if kd <= 0:
                         continue
-                    lo = 0.0 if (integrating or not math.isfinite(lo)) else lo
-                    kps = np.linspace(lo, hi, _N_KP + 2)[1:-1]
-                    km = ki_limits(kps, L0, P, Q, cons)
-                    evaluate.units += kps.size
-                    if np.any(np.isfinite(km) & (km > 0)):
-                        ranked.append((-float(np.nanmax(np.where(km > 0, km, np.nan))), st))
-                ranked.sort(key=lambda x: x[0])
-                # the objective (screened simulations, no refinement) of the best few by
-                # ki_max, then a compass search over (log kd, log Tf) from the best of them
-                tried = {}
+                    trials.append(_Setting(kd=kd, tf=td / n))
+            # rank the derivative settings by their largest admissible ki (MIGO), then
+            # design the best few in full on the exact simulation
+            ranked = []
+            for st in trials:
+                L0 = sign * st.response(w) * P
+                lo, hi = _kp_range(L0, P, cons)
+                if not (math.isfinite(hi) and hi > 0):
+                    continue
+                lo = 0.0 if (integrating or not math.isfinite(lo)) else lo
+                kps = np.linspace(lo, hi, _N_KP + 2)[1:-1]
+                km = ki_limits(kps, L0, P, Q, cons)
+                evaluate.units += kps.size
+                if np.any(np.isfinite(km) & (km > 0)):
+                    ranked.append((-float(np.nanmax(np.where(km > 0, km, np.nan))), st))
+            ranked.sort(key=lambda x: x[0])
+            # the objective (screened simulations, no refinement) of the best few by
+            # ki_max, then a compass search over (log kd, log Tf) from the best of them
+            tried = {}
 
-                def quick(st, tried=tried, cons=cons):
-                    key = (round(math.log10(st.kd), 6), round(math.log10(st.tf), 6))
-                    if key not in tried:
-                        tried[key] = self._design(evaluate, st, cons, P, Q, w, sign,
-                                                  integrating, budget, refine=False)
-                    return tried[key]
+            def quick(st, tried=tried, cons=cons):
+                key = (round(math.log10(st.kd), 6), round(math.log10(st.tf), 6))
+                if key not in tried:
+                    tried[key] = self._design(evaluate, st, cons, P, Q, w, sign,
+                                              integrating, budget, refine=False)
+                return tried[key]
 
-                starts = []
-                for _, st in ranked[:_PID_FULL]:
+            starts = []
+            for _, st in ranked[:_PID_FULL]:
+                if evaluate.units > budget:
+                    break
+                res = quick(st)
+                if res is not None:
+                    starts.append((res, st))
+            if not starts:
+                continue
+            starts.sort(key=lambda x: x[0][0])
+            (best_res, best_st) = starts[0]
+            step = _COMPASS_STEP
+            for _ in range(_COMPASS_ROUNDS):
+                moved = False
+                for dk, dt in ((1, 0), (-1, 0), (0, 1), (0, -1)):
                     if evaluate.units > budget:
                         break
+                    st = _Setting(kd=best_st.kd * 10 ** (dk * step),
+                                  tf=best_st.tf * 10 ** (dt * step))
                     res = quick(st)
-                    if res is not None:
-                        starts.append((res, st))
-                if not starts:
-                    continue
-                starts.sort(key=lambda x: x[0][0])
-                (best_res, best_st) = starts[0]
-                step = _COMPASS_STEP
-                for _ in range(_COMPASS_ROUNDS):
-                    moved = False
-                    for dk, dt in ((1, 0), (-1, 0), (0, 1), (0, -1)):
-                        if evaluate.units > budget:
-                            break
-                        st = _Setting(kd=best_st.kd * 10 ** (dk * step),
-                                      tf=best_st.tf * 10 ** (dt * step))
-                        res = quick(st)
-                        if res is not None and res[0] < best_res[0]:
-                            best_res, best_st, moved = res, st, True
-                    if not moved:
-                        step /= 2.0
-                for res, st in [(best_res, best_st)] + starts[1:2]:
-                    # the fine limit always; the refinement while the work lasts
-                    fine = self._design(evaluate, st, cons, P, Q, w, sign, integrating, budget,
-                                        start=res, gfun=gfun,
-                                        refine=evaluate.units <= budget)
-                    if fine is not None:
-                        found.append((*fine, st, level))
+                    if res is not None and res[0] < best_res[0]:
+                        best_res, best_st, moved = res, st, True
+                if not moved:
+                    step /= 2.0
+            for res, st in [(best_res, best_st)] + starts[1:2]:
+                # the fine limit always; the refinement while the work lasts
+                fine = self._design(evaluate, st, cons, P, Q, w, sign, integrating, budget,
+                                    start=res, gfun=gfun,
+                                    refine=evaluate.units <= budget)
+                if fine is not None:
+                    found.append((*fine, st, level))
         if form == "PID":
             found = [f for f in found if f[3].kd > 0] or found
         found.sort(key=lambda x: x[0])
