@@ -312,9 +312,8 @@ class _Evaluator:
         s = 1j * self.w
         metrics = {"load_iae": np.empty(idx.size), "load_peak": np.empty(idx.size)}
         for j in range(idx.size):
-            tj, yj = (t, y[:, j]) if not isinstance(t, list) else (t[j], y[j])
-            metrics["load_iae"][j] = integral_abs(tj, yj)
-            metrics["load_peak"][j] = float(np.max(np.abs(yj)))
+            metrics["load_iae"][j] = integral_abs(t, y[:, j])
+            metrics["load_peak"][j] = float(np.max(np.abs(y[:, j])))
         Cw = np.array([np.polyval(row, s) for row in num[idx]]) / np.polyval(den, s)[None, :]
         L = Cw * self.G[None, :]
         with np.errstate(divide="ignore", invalid="ignore"):

@@ -143,7 +143,7 @@ def _first_crossing(t, z, level):
 
 #: Proportional set-point weights the search tries for a structure that takes them
 #: (the reference response is affine in b, so each costs one combination of two responses).
-SEARCH_WEIGHTS = (1.0, 0.7, 0.4, 0.0)
+SEARCH_WEIGHTS = (1.0, 0.5, 0.0)
 
 
 def _step_figures(t, y, u, yss, band):
@@ -559,7 +559,7 @@ class EvolveStrategy:
 
     name: str = "search"
     origin: str = ORIGIN
-    share: float = 0.48
+    share: float = 0.38
     order: int = 30
 
     def propose(self, problem, family, context) -> list:

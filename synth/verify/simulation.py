@@ -280,21 +280,36 @@ def _simulate_rational(gnum, gden, ctrl, inputs, poles, t_end):
     """Exact samples of the delay-free closed-loop responses to steps of ``inputs``.
 
     ``inputs`` is (2, E): per experiment the step sizes of ``r`` and ``d``.
-    The closed loop is driven by constant inputs, so the step-invariant
-    (zero-order-hold) discretisation is exact at the samples.  The step starts
-    fine enough for the fastest pole and doubles every ``_SEG_STEPS`` steps
-    until the horizon, so slow tails cost few samples.  Returns ``t`` and
-    ``y``, ``u`` of shape (samples, E).
+    Returns ``t`` and ``y``, ``u`` of shape (samples, E); see :func:`_step_invariant`.
     """
-    from scipy.linalg import expm
-
     A, B, Cy, Dy, Cu, Du = _closed_loop(gnum, gden, ctrl)
-    n = A.shape[0]
-    dy0, du0 = Dy @ inputs, Du @ inputs
-    if n == 0:
+    blocks = [(A, B @ inputs[:, e], Cy, float(Dy @ inputs[:, e]), Cu, float(Du @ inputs[:, e]))
+              for e in range(inputs.shape[1])]
+    return _step_invariant(blocks, poles, t_end)
+
+
+def _step_invariant(blocks, poles, t_end):
+    """Exact samples of constant-input responses of several linear systems on one time grid.
+
+    ``blocks`` holds per column ``(A, b, cy, dy, cu, du)``: ``x' = A x + b``,
+    ``y = cy x + dy``, ``u = cu x + du`` from ``x(0) = 0``.  The systems are
+    stacked block-diagonally and advanced together by the step-invariant
+    (zero-order-hold) discretisation, exact at the samples for a constant
+    input.  The step starts fine enough for the fastest of ``poles`` and
+    doubles every ``_SEG_STEPS`` steps until the horizon, so slow tails cost
+    few samples.
+    """
+    from scipy.linalg import block_diag, expm
+
+    E = len(blocks)
+    sizes = [blk[0].shape[0] for blk in blocks]
+    if sum(sizes) == 0:
         t = np.array([0.0, t_end])
-        return t, np.tile(dy0, (2, 1)), np.tile(du0, (2, 1))
-    x_ss = -np.linalg.solve(A, B @ inputs)            # (n, E)
+        return (t, np.tile([blk[3] for blk in blocks], (2, 1)),
+                np.tile([blk[5] for blk in blocks], (2, 1)))
+    A = block_diag(*[blk[0] for blk in blocks])
+    b = np.concatenate([blk[1] for blk in blocks])
+    x_ss = -np.linalg.solve(A, b)
     fast = float(np.max(np.abs(poles))) if len(poles) else 1.0
     h = min(t_end / _SEG_STEPS, 0.1 / fast if fast > 0 else math.inf)
     h = max(h, t_end / (_SEG_STEPS * 2.0 ** 24))
@@ -302,21 +317,25 @@ def _simulate_rational(gnum, gden, ctrl, inputs, poles, t_end):
     z = -x_ss
     ts, zs = [], []
     t0 = 0.0
-    E = inputs.shape[1]
     while t0 < t_end:
         steps = _SEG_STEPS if t0 + _SEG_STEPS * h < t_end else int(math.ceil((t_end - t0) / h)) + 1
-        # the experiments side by side: one state vector of n * E entries
-        Z = _powers(np.kron(np.eye(E), Phi), z.T.ravel(), steps + 1).reshape(steps + 1, E, n)
+        Z = _powers(Phi, z, steps + 1)
         ts.append(t0 + h * np.arange(steps))
         zs.append(Z[:steps])
-        z = Z[steps].T
+        z = Z[steps]
         t0 += steps * h
         Phi = Phi @ Phi
         h *= 2.0
     t = np.concatenate(ts)
-    X = np.concatenate(zs) + x_ss.T[None, :, :]      # (samples, E, n)
-    y = X @ Cy + dy0
-    u = X @ Cu + du0
+    X = np.concatenate(zs) + x_ss[None, :]
+    y = np.empty((t.size, E))
+    u = np.empty((t.size, E))
+    k = 0
+    for j, (_, _, cy, dy, cu, du) in enumerate(blocks):
+        xj = X[:, k:k + sizes[j]]
+        y[:, j] = xj @ cy + dy
+        u[:, j] = xj @ cu + du
+        k += sizes[j]
     return t, y, u
 
 
@@ -442,7 +461,8 @@ def batch_load_responses(plant, nums, den, t_end: float, exact_delay: bool = Tru
     With a dead time the compensators share the joint dynamics of
     :func:`_simulate_delay` (only the output maps differ), so the whole
     batch is one lifted simulation with one column per compensator; without
-    one each loop is simulated exactly on its own.  Every loop gets the
+    one the closed loops are stacked block-diagonally into one step-invariant
+    run (:func:`_step_invariant`).  Every loop gets the
     same horizon ``t_end`` (and, with a dead time, the same step).
 
     Parameters
@@ -456,9 +476,9 @@ def batch_load_responses(plant, nums, den, t_end: float, exact_delay: bool = Tru
 
     Returns
     -------
-    t : ndarray (T,) or list of ndarray
-    y : ndarray (T, E) or list of ndarray
-        The output; a list per loop when the loops were simulated one by one.
+    t : ndarray (T,)
+    y : ndarray (T, E)
+        The output after the load step, one column per compensator.
     """
     from synth.verify.controller import Controller
 
@@ -486,13 +506,18 @@ def batch_load_responses(plant, nums, den, t_end: float, exact_delay: bool = Tru
         if out is not None:
             t, y, _ = out
             return t, y
-    ts, ys = [], []
+    # delay-free (or the Pade form): the closed loops stacked, one step-invariant run
+    blocks, poles = [], []
     for row in nums:
-        resp = _responses(plant, Controller(tuple(row), tuple(den)), np.array([[0.0], [1.0]]),
-                          t_end, None, exact_delay)[0]
-        ts.append(resp.t)
-        ys.append(resp.y)
-    return ts, ys
+        A, B, Cy, Dy, Cu, Du = _closed_loop(plant.num, plant.den,
+                                            realise_controller(Controller(tuple(row),
+                                                                          tuple(den))))
+        blocks.append((A, B[:, 1], Cy, float(Dy[1]), Cu, float(Du[1])))
+        _, _, char = loop_polynomials(plant, row, den)
+        pr = np.roots(trim(char)) if trim(char).size > 1 else np.zeros(0)
+        poles.extend(pr.tolist())
+    t, y, _ = _step_invariant(blocks, np.asarray(poles), t_end)
+    return t, y
 
 
 @dataclass(frozen=True)
