@@ -302,3 +302,21 @@ def test_each_strategy_alone_and_all_together(problem):
         if score is not None and name in ("placement", "search"):
             # (to 1e-6: the ranking keeps one of two designs its "same design" rule merges)
             assert top <= score * (1 + 1e-6), (name, score, top)
+
+
+def test_latin_hypercube_hits_every_stratum_once_like_scipys():
+    # the defining property of a Latin hypercube (McKay, Beckman and Conover 1979), as
+    # scipy.stats.qmc.LatinHypercube samples it: every dimension's n strata hit exactly once
+    from scipy.stats import qmc
+
+    from synth.strategies.evolve import _latin_hypercube
+
+    lo, hi = np.array([-2.0, 0.0, 1.0]), np.array([2.0, 5.0, 1.5])
+    n = 17
+    ours = _latin_hypercube(np.random.default_rng(4), n, lo, hi)
+    ref = lo + qmc.LatinHypercube(d=3, rng=np.random.default_rng(4)).random(n) * (hi - lo)
+    for sample in (ours, ref):
+        unit = (sample - lo) / (hi - lo)
+        assert np.all((unit >= 0) & (unit < 1))
+        for j in range(3):
+            assert sorted(np.floor(unit[:, j] * n).astype(int)) == list(range(n))

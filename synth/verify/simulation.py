@@ -75,39 +75,55 @@ class StepResponse:
 def realise(num, den):
     """State-space realisation ``(A, B, C, D)`` of a proper rational function.
 
-    The controllable companion form of :func:`scipy.signal.tf2ss`; a constant
-    gives empty ``A``, ``B``, ``C``.  Leading numerator coefficients are kept
-    however small (no normalisation warning: they are legitimate here).
+    The controllable companion (controller canonical) form, the same matrices
+    as :func:`scipy.signal.tf2ss` (a test compares them); a constant gives
+    empty ``A``, ``B``, ``C``.  Leading numerator coefficients are kept however
+    small.  Written out here because importing :mod:`scipy.signal` costs more
+    than a whole PI design (about 1.5 s on the project's machine): the form is
+    a few lines of linear algebra.
 
     Parameters
     ----------
     num, den : array_like
-        Descending powers of s; ``len(num) <= len(den)`` after trimming.
+        Descending powers of s; ``len(num) <= len(den)`` after trimming.  A
+        2-D ``num`` (one row per output, padded to a common length) gives the
+        single-input, multiple-output form.
 
     Returns
     -------
     A : ndarray (n, n)
     B : ndarray (n, 1)
-    C : ndarray (1, n)
-    D : ndarray (1, 1)
+    C : ndarray (m, n)
+    D : ndarray (m, 1)
 
     References
     ----------
     .. [1] T. Kailath, *Linear Systems*, Prentice Hall, 1980, sec. 2.1
        (controller canonical form), from memory.
     """
-    import warnings
-
-    from scipy.signal import BadCoefficients, tf2ss
-
-    n, d = trim(num), trim(den)
-    if d.size == 1:
-        return (np.zeros((0, 0)), np.zeros((0, 1)), np.zeros((1, 0)),
-                np.array([[n[-1] / d[0]]]))
-    with warnings.catch_warnings():
-        # tiny leading numerator coefficients are legitimate here (no normalisation wanted)
-        warnings.simplefilter("ignore", BadCoefficients)
-        A, B, C, D = tf2ss(n, d)
+    d = trim(den)
+    rows = np.atleast_2d(np.asarray(num, dtype=float))
+    if rows.shape[0] == 1:
+        rows = trim(rows[0])[None, :]
+    if rows.shape[1] > d.size:
+        extra = rows[:, :rows.shape[1] - d.size]
+        if np.any(extra != 0.0):
+            raise ValueError("improper transfer function: more zeros than poles")
+        rows = rows[:, rows.shape[1] - d.size:]
+    k = d.size - 1
+    lead = d[0]
+    nn = np.zeros((rows.shape[0], k + 1))
+    nn[:, k + 1 - rows.shape[1]:] = rows / lead
+    dd = d / lead
+    D = nn[:, :1].copy()
+    if k == 0:
+        return np.zeros((0, 0)), np.zeros((0, 1)), np.zeros((rows.shape[0], 0)), D
+    A = np.zeros((k, k))
+    A[0, :] = -dd[1:]
+    A[1:, :-1] = np.eye(k - 1)
+    B = np.zeros((k, 1))
+    B[0, 0] = 1.0
+    C = nn[:, 1:] - D * dd[1:][None, :]
     return A, B, C, D
 
 
@@ -136,8 +152,8 @@ def realise_controller(controller) -> ControllerRealisation:
     """The realisation of a whole controller: the compensator and its reference shaping.
 
     Set-point weights share the compensator's state (one realisation of the
-    two-input law, the transpose of :func:`scipy.signal.tf2ss`'s
-    single-input, two-output form); a prefilter ``F`` gets states of its own
+    two-input law, the transpose of the single-input, two-output companion
+    form of :func:`realise`); a prefilter ``F`` gets states of its own
     that feed ``F r`` into the error.
 
     Parameters
@@ -172,21 +188,10 @@ def realise_controller(controller) -> ControllerRealisation:
     nr = trim(num_r)
     both[0, width - nr.size:] = nr
     both[1, width - num.size:] = -num
-    A, B, C, D = _tf2ss(both, den)
+    A, B, C, D = realise(both, den)
     # the transpose of the single-input two-output form is a two-input one-output form
     return ControllerRealisation(A.T.copy(), C[0].copy(), C[1].copy(), B[:, 0].copy(),
                                  float(D[0, 0]), float(D[1, 0]))
-
-
-def _tf2ss(num, den):
-    """:func:`scipy.signal.tf2ss` without the normalisation warning (small leading terms are legitimate)."""
-    import warnings
-
-    from scipy.signal import BadCoefficients, tf2ss
-
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore", BadCoefficients)
-        return tf2ss(num, den)
 
 
 def _closed_loop(gnum, gden, ctrl: ControllerRealisation):
