@@ -146,6 +146,15 @@ def design_levels(problem) -> tuple[float, ...]:
     return tuple(dict.fromkeys(min(level, margin) for level in MS_LEVELS))
 
 
+def _quadratic(cst: Circle, A, Q):
+    """``(a, b, c)`` with ``q(x) = a x^2 + 2 b x + c`` the circle's value at ``L = A + x Q``."""
+    al, be, ga = cst.alpha, cst.beta, cst.gamma
+    c = al * np.abs(A) ** 2 + 2.0 * np.real(np.conj(be) * A) + ga
+    a = al * np.abs(Q) ** 2 * np.ones_like(c)
+    b = al * np.real(A * np.conj(Q)) + np.real(np.conj(be) * Q)
+    return a, b, c
+
+
 def _first_bound(a, b, c):
     """Per frequency: the least ``x > 0`` where ``a x^2 + 2 b x + c`` turns negative (inf: never).
 
@@ -191,11 +200,7 @@ def ki_limits(kp, L0, P, Q, constraints) -> np.ndarray:
     A = L0[None, :] + kp * P[None, :]
     best = np.full(kp.shape[0], np.inf)
     for cst in constraints:
-        al, be, ga = cst.alpha, cst.beta, cst.gamma
-        a = al * np.abs(Q) ** 2
-        b = al * np.real(A * np.conj(Q)) + np.real(np.conj(be) * Q)
-        c = al * np.abs(A) ** 2 + 2.0 * np.real(np.conj(be) * A) + ga
-        bound = _first_bound(a * np.ones_like(c), b, c)
+        bound = _first_bound(*_quadratic(cst, A, Q))
         best = np.minimum(best, np.min(bound, axis=1))
         best = np.where(np.any(np.isnan(bound), axis=1), np.nan, best)
     return best
@@ -211,12 +216,8 @@ def _fine_limit(kp, L0, P, Q, w, constraints, setting, sign, gfun) -> float:
     A = L0 + kp * P
     best = math.inf
     for cst in constraints:
-        al, be, ga = cst.alpha, cst.beta, cst.gamma
-        a = al * np.abs(Q) ** 2
-        b = al * np.real(A * np.conj(Q)) + np.real(np.conj(be) * Q)
-        c = al * np.abs(A) ** 2 + 2.0 * np.real(np.conj(be) * A) + ga
-        bound = _first_bound(a * np.ones_like(c), b, c)
-        if not np.any(np.isfinite(bound)) or np.ndim(al) != 0:
+        bound = _first_bound(*_quadratic(cst, A, Q))
+        if not np.any(np.isfinite(bound)) or np.ndim(cst.alpha) != 0:
             continue   # unbounded, or a frequency-dependent circle (the noise bound): smooth
         i = int(np.nanargmin(bound))
         wf = np.geomspace(w[max(i - 2, 0)], w[min(i + 2, w.size - 1)], 401)
@@ -233,10 +234,7 @@ def _kp_range(L0, P, constraints) -> tuple[float, float]:
     """The interval around 0 of ``kp`` for which ``L0 + kp P`` meets every circle."""
     lo, hi = -math.inf, math.inf
     for cst in constraints:
-        al, be, ga = cst.alpha, cst.beta, cst.gamma
-        a = al * np.abs(P) ** 2 * np.ones(P.shape)
-        b = al * np.real(L0 * np.conj(P)) + np.real(np.conj(be) * P)
-        c = al * np.abs(L0) ** 2 + 2.0 * np.real(np.conj(be) * L0) + ga
+        a, b, c = _quadratic(cst, L0, P)
         up = _first_bound(a, b, c)
         down = _first_bound(a, -b, c)
         if np.any(np.isnan(up)):

@@ -178,17 +178,12 @@ def _analyse(plant, num_c, den_c, details: bool) -> LoopFrequency:
         val = np.polyval(lnum, s) / np.polyval(lden, s)
         return val * np.exp(-s * delay) if delay else val
 
+    rational = _scalar_ratio(ln, ld)
+
     def loop(w):
-        """L(jw) at one frequency: Horner in Python complex arithmetic (fast for scalars)."""
-        s = complex(0.0, w)
-        a = 0j
-        for c in ln:
-            a = a * s + c
-        b = 0j
-        for c in ld:
-            b = b * s + c
-        val = a / b if b != 0 else complex(math.inf, 0.0)
-        return val * cmath.exp(-s * delay) if delay else val
+        """L(jw) at one frequency (exact dead time)."""
+        val = rational(w)
+        return val * cmath.exp(-1j * w * delay) if delay else val
 
     w = frequency_grid(plant, nc, dc)
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
@@ -249,17 +244,7 @@ def _analyse(plant, num_c, den_c, details: bool) -> LoopFrequency:
             gms.append(-1.0 / L0)
     # peaks of |S|, |T| and |C S|, each refined around its grid maximum
     cw = np.polyval(nc, 1j * w) / np.polyval(dc, 1j * w)
-    nl, dl = nc.tolist(), dc.tolist()
-
-    def comp(x):
-        s = complex(0.0, x)
-        a = 0j
-        for c in nl:
-            a = a * s + c
-        b = 0j
-        for c in dl:
-            b = b * s + c
-        return a / b if b != 0 else complex(math.inf, 0.0)
+    comp = _scalar_ratio(nc.tolist(), dc.tolist())
 
     with np.errstate(divide="ignore", invalid="ignore"):
         S = np.where(finite, 1.0 / np.abs(1.0 + L), 0.0)
@@ -301,6 +286,22 @@ def _analyse(plant, num_c, den_c, details: bool) -> LoopFrequency:
         delay_margin=min(dms) if dms else None, peak_sensitivity=ms, peak_frequency=w_peak,
         phase_crossovers=tuple(sorted(wps)), bandwidth=bandwidth,
         peak_complementary_sensitivity=mt, noise_gain=noise)
+
+
+def _scalar_ratio(num: list, den: list):
+    """``w -> num(jw) / den(jw)`` by Horner in Python complex arithmetic (fast for scalars)."""
+
+    def at(w):
+        s = complex(0.0, w)
+        a = 0j
+        for c in num:
+            a = a * s + c
+        b = 0j
+        for c in den:
+            b = b * s + c
+        return a / b if b != 0 else complex(math.inf, 0.0)
+
+    return at
 
 
 def _refined_peak(values, w, lw, fun) -> tuple[float, float]:

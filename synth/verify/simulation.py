@@ -133,7 +133,9 @@ class ControllerRealisation:
 
     ``x' = A x + br r + by y``, ``u = c x + dr r + dy y``.  Built by
     :func:`realise_controller`; without reference shaping ``br = -by`` and
-    ``dr = -dy`` (the error feedback ``u = C (r - y)``).
+    ``dr = -dy`` (the error feedback ``u = C (r - y)``).  For a batch of
+    compensators sharing a denominator (:func:`batch_load_responses`) ``c``
+    is (E, n) and ``dr``, ``dy`` are (E,): one output map per simulated column.
     """
 
     A: np.ndarray
@@ -498,15 +500,15 @@ def batch_load_responses(plant, nums, den, t_end: float, exact_delay: bool = Tru
             A, B = a, b
             C.append(c[0])
             D.append(d[0, 0])
-        ctrl = ControllerRealisation(A, B[:, 0], -B[:, 0], np.array(C), 0.0, 0.0)
-        # per-column maps: the reference weight dr is unused (r = 0)
+        # the output maps differ per column (C, D of each numerator); r = 0, so dr is unused
+        ctrl = ControllerRealisation(A, B[:, 0], -B[:, 0], np.array(C), np.array(D),
+                                     -np.array(D))
         fast = 0.0
         for row in nums:
             _, _, char = loop_polynomials(plant, row, den)
             pr = np.roots(trim(char)) if trim(char).size > 1 else np.zeros(0)
             fast = max(fast, float(np.max(np.abs(pr))) if pr.size else 0.0)
-        out = _simulate_delay(plant, _Columns(ctrl, np.array(D)), np.vstack([np.zeros(E),
-                                                                             np.ones(E)]),
+        out = _simulate_delay(plant, ctrl, np.vstack([np.zeros(E), np.ones(E)]),
                               np.array([fast]), t_end)
         if out is not None:
             t, y, _ = out
@@ -523,38 +525,6 @@ def batch_load_responses(plant, nums, den, t_end: float, exact_delay: bool = Tru
         poles.extend(pr.tolist())
     t, y, _ = _step_invariant(blocks, np.asarray(poles), t_end)
     return t, y
-
-
-@dataclass(frozen=True)
-class _Columns:
-    """A controller realisation whose output map differs per simulated column."""
-
-    base: ControllerRealisation
-    d: np.ndarray
-
-    @property
-    def A(self):
-        return self.base.A
-
-    @property
-    def br(self):
-        return self.base.br
-
-    @property
-    def by(self):
-        return self.base.by
-
-    @property
-    def c(self):
-        return self.base.c
-
-    @property
-    def dr(self):
-        return self.d
-
-    @property
-    def dy(self):
-        return -self.d
 
 
 def _lifted(Phi, G, B):
