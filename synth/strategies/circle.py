@@ -457,8 +457,8 @@ class CircleStrategy:
 
             starts = []
             for _, st in ranked[:_PID_FULL]:
-                if evaluate.units > budget:
-                    break
+                if evaluate.units > budget and starts:
+                    break     # (one setting at least: the structure asked for is a PID)
                 res = quick(st)
                 if res is not None:
                     starts.append((res, st))

@@ -481,8 +481,8 @@ def _prior_starts(family, context) -> list[tuple[np.ndarray, str]]:
     return out
 
 
-def _compass(objective, X, F, lo, hi):
-    """Batched compass search from several starts at once (``_POLISH_ITERATIONS`` at most).
+def _compass(objective, X, F, lo, hi, iterations=_POLISH_ITERATIONS):
+    """Batched compass search from several starts at once (``iterations`` at most).
 
     Each iteration evaluates, for every start, the 2p points one step along
     each coordinate and one pattern move (repeating the last successful
@@ -501,7 +501,7 @@ def _compass(objective, X, F, lo, hi):
     last = np.zeros_like(X)
     dirs = np.concatenate([np.eye(p), -np.eye(p)])
     evaluations = 0
-    for _ in range(_POLISH_ITERATIONS):
+    for _ in range(iterations):
         trial = X[:, None, :] + dirs[None, :, :] * steps[:, None, :]
         trial = np.concatenate([trial, (X + last)[:, None, :]], axis=1)
         trial = np.clip(trial, lo, hi)
@@ -551,9 +551,19 @@ def _converged(intermediate_result) -> bool:
     return bool(np.std(E) <= _DE_TOL * abs(float(np.mean(E))))
 
 
-def _polish_reserve(p: int) -> int:
+def _polish_iterations(p: int, work: int) -> int:
+    """Compass iterations the polish gets: all of them, or what half the work pays for.
+
+    At a small ``search.effort`` the full polish would leave the evolution
+    no generation at all; half the work then goes to each.
+    """
+    per = (2 * p + 1) * (_N_POLISH + _N_PRIOR_POLISH)
+    return max(1, min(_POLISH_ITERATIONS, (int(work) // 2 - 20) // per))
+
+
+def _polish_reserve(p: int, iterations: int = _POLISH_ITERATIONS) -> int:
     """Work units kept for the polish: every compass iteration from every start, plus priors."""
-    return _POLISH_ITERATIONS * (2 * p + 1) * (_N_POLISH + _N_PRIOR_POLISH) + 20
+    return iterations * (2 * p + 1) * (_N_POLISH + _N_PRIOR_POLISH) + 20
 
 
 @dataclass(frozen=True)
@@ -592,7 +602,10 @@ class EvolveStrategy:
         popmult = max(5, int(math.ceil(_POPULATION / p)))
         npop = popmult * p
         if int(context.work) < npop:
-            return []  # not even the initial population fits in the work allowance
+            if int(context.work) < 2 * p + 2:
+                return []  # not even a small sample fits in the work allowance
+            # too little work for the evolution: a smaller initial sample is the answer
+            npop = int(context.work)
         objective = SearchObjective(problem, family)
         lo, hi = family.bounds()
         rng = np.random.default_rng(context.seed)
@@ -602,7 +615,8 @@ class EvolveStrategy:
             init[i] = x
         # the evolution costs npop rows per generation plus the initial population
         # each generation costs npop rows, plus the initial population of each run
-        rows = int(context.work) - _polish_reserve(p)
+        iterations = _polish_iterations(p, context.work)
+        rows = int(context.work) - _polish_reserve(p, iterations)
         generations = rows // npop - 1
         pops, energies_list, labels = [], [], []
         nit = 0
@@ -657,7 +671,7 @@ class EvolveStrategy:
                 prior_src = [f"polished {priors[i][1]} candidate" for i in keep]
             if k + len(prior_x):
                 X1, F1, used = _compass(objective, np.array(xs[:k] + prior_x),
-                                        np.array(fs[:k] + prior_f), lo, hi)
+                                        np.array(fs[:k] + prior_f), lo, hi, iterations)
                 polish_evaluations += used
                 for j in range(k):
                     if F1[j] < fs[j]:
