@@ -322,9 +322,17 @@ def _run_design(problem, strategies=None, families=None,
     if problem.search.reference_shaping:
         # the finishing stage: reference shaping for the designs a report lists (a few
         # more, since shaping may reorder them), then the final order
-        wide = rank_designs(pairs, problem, keep=problem.search.keep + 2)
-        ranked = rank_designs(shape_designs(problem, [(d.candidate, d.verdict) for d in wide],
-                                            len(wide)), problem)
+        every = rank_designs(pairs, problem, keep=len(pairs))
+        # the first keep + 2, and the best two of every structure: an unshaped loop that
+        # fails only a reference-step limit may rank low before shaping meets it
+        chosen, per = [], {}
+        for d in every:
+            s = d.candidate.structure
+            if len(chosen) < problem.search.keep + 2 or per.get(s, 0) < 2:
+                chosen.append(d)
+                per[s] = per.get(s, 0) + 1
+        ranked = rank_designs(shape_designs(problem, [(d.candidate, d.verdict) for d in chosen],
+                                            len(chosen)), problem)
     if progress is not None:
         progress(total, total, "verified")
     stats = {"structures": [f.name for f in fams], "strategies": [s.name for s in strats],
