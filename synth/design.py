@@ -210,6 +210,35 @@ def _screen(problem, family, cands, limit: int) -> list:
     return [c for i, c in enumerate(cands) if i in keep]
 
 
+def _shaping_window(problem, pairs) -> list:
+    """The designs the finishing stage shapes: the loops shaping can make feasible, best first.
+
+    A loop that fails only reference-step limits may rank low before shaping
+    meets them, so the window is every stable loop that fails nothing else,
+    ordered by the objective: the first ``keep + 2`` and the best two of
+    every structure.
+    """
+    from synth.problem.catalogue import REQUIREMENTS
+    from synth.problem.objectives import ObjectiveScales, objective_order
+
+    scales = ObjectiveScales.for_problem(problem)
+    ok = []
+    for i, (_, verdict) in enumerate(pairs):
+        if verdict.stable and all(k in REQUIREMENTS and REQUIREMENTS[k].concerns == "reference"
+                                  for k in verdict.shortfalls):
+            # (no near-duplicate removal here: of two similar loops the one that shaping
+            # helps more may be the one the unshaped ranking would drop)
+            ok.append((objective_order(problem, verdict.metrics, scales), i))
+    ok.sort()
+    chosen, per = [], {}
+    for _, i in ok:
+        s = pairs[i][0].structure
+        if len(chosen) < problem.search.keep + 2 or per.get(s, 0) < 2:
+            chosen.append(pairs[i])
+            per[s] = per.get(s, 0) + 1
+    return chosen
+
+
 def _verify_all(problem, cands, exact: bool) -> list:
     return [verify(problem, c.controller, exact_delay=exact)
             for c in cands]
@@ -322,17 +351,10 @@ def _run_design(problem, strategies=None, families=None,
     if problem.search.reference_shaping:
         # the finishing stage: reference shaping for the designs a report lists (a few
         # more, since shaping may reorder them), then the final order
-        every = rank_designs(pairs, problem, keep=len(pairs))
-        # the first keep + 2, and the best two of every structure: an unshaped loop that
-        # fails only a reference-step limit may rank low before shaping meets it
-        chosen, per = [], {}
-        for d in every:
-            s = d.candidate.structure
-            if len(chosen) < problem.search.keep + 2 or per.get(s, 0) < 2:
-                chosen.append(d)
-                per[s] = per.get(s, 0) + 1
-        ranked = rank_designs(shape_designs(problem, [(d.candidate, d.verdict) for d in chosen],
-                                            len(chosen)), problem)
+        window = _shaping_window(problem, pairs)
+        inside = {id(c) for c, _ in window}
+        shaped = shape_designs(problem, window, len(window))
+        ranked = rank_designs(shaped + [pv for pv in pairs if id(pv[0]) not in inside], problem)
     if progress is not None:
         progress(total, total, "verified")
     stats = {"structures": [f.name for f in fams], "strategies": [s.name for s in strats],
