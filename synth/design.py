@@ -26,7 +26,8 @@ for a family is recorded in ``search.declined``; any other exception (a
 user error of another kind, or a bug) propagates.
 
 Dead time and several plant models.  All candidates are first verified
-quickly: with the Pade form of a dead time in the simulation, and, when the
+quickly: with the exact delay (the verifier's lifted simulation makes that as
+quick as the Pade form), the actuator's limits left out and, when the
 problem has ranges or variants, with only the nominal plant evaluated exactly
 and the other models screened by estimates (``verify(..., depth="quick")``).
 Then, in rank order, each design that would be reported is verified fully
@@ -45,6 +46,16 @@ discrete controller the export prints, the plant behind the hold with the
 exact dead time and computation delay, the output between the samples, the
 loop on the unit circle up to Nyquist).  Each reported design also gets its
 discrete form (the contract's ``discrete``; :func:`synth.verify.sampled.sampled_design`).
+
+Screening.  At most :data:`_VERIFY_PER_FAMILY` candidates of a family are
+verified: the best by the search's own estimate of the objective, and the
+best of each strategy (:func:`_screen`); ``search.screened_out`` counts the
+others.
+
+Reference shaping.  With ``search.reference_shaping`` the finishing stage
+(:func:`synth.shaping.shape_designs`) chooses set-point weights or a
+prefilter for the best designs after the first ranking; they are verified
+again with it and ranked once more.
 """
 
 from __future__ import annotations
@@ -61,6 +72,7 @@ from synth.families import families_for
 from synth.outputs.cautions import CAUTION
 from synth.outputs.run import SCHEMA
 from synth.rank import RankedDesign, rank_designs
+from synth.shaping import shape_designs
 from synth.verify.verdict import verify
 
 __all__ = ["CAUTION", "DesignRun", "SCHEMA", "prepare_report", "run_design"]
@@ -186,6 +198,75 @@ class DesignRun:
 # ----------------------------------------------------------------------------
 
 
+#: Most candidates of one family that go on to full verification (the rest are screened
+#: out by the search's own estimate of the objective; see :func:`_screen`).
+_VERIFY_PER_FAMILY = 8
+
+
+def _screen(problem, family, cands, limit: int) -> list:
+    """The ``limit`` most promising candidates of one family, by the search's estimate.
+
+    Strategies propose overlapping sets (the global search polishes the
+    others' candidates); verifying all of them costs more than the search.
+    The family's vectorised objective (:class:`synth.strategies.evolve.SearchObjective`:
+    estimated shortfall, then the objective) orders those with family
+    coordinates; candidates outside the family's space are always kept, and
+    so is the best one of each strategy, so no strategy's answer is lost.
+    """
+    if len(cands) <= limit:
+        return list(cands)
+    import numpy as np
+
+    from synth.strategies.evolve import SearchObjective
+
+    inside = [i for i, c in enumerate(cands) if c.params]
+    if not inside:
+        return list(cands)
+    f = SearchObjective(problem, family)(np.array([cands[i].params for i in inside]))
+    order = [inside[j] for j in np.argsort(f, kind="stable")]
+    keep = set(i for i, c in enumerate(cands) if not c.params)
+    seen_origin_strategy = set()
+    for i in order:                      # the best of each strategy's provenance method
+        key = (cands[i].origin, str(cands[i].provenance.get("method", "")))
+        if key not in seen_origin_strategy:
+            seen_origin_strategy.add(key)
+            keep.add(i)
+    for i in order:
+        if len(keep) >= limit:
+            break
+        keep.add(i)
+    return [c for i, c in enumerate(cands) if i in keep]
+
+
+def _shaping_window(problem, pairs) -> list:
+    """The designs the finishing stage shapes: the loops shaping can make feasible, best first.
+
+    A loop that fails only reference-step limits may rank low before shaping
+    meets them, so the window is every stable loop that fails nothing else,
+    ordered by the objective: the first ``keep + 2`` and the best two of
+    every structure.
+    """
+    from synth.problem.catalogue import REQUIREMENTS
+    from synth.problem.objectives import ObjectiveScales, objective_order
+
+    scales = ObjectiveScales.for_problem(problem)
+    ok = []
+    for i, (_, verdict) in enumerate(pairs):
+        if verdict.stable and all(k in REQUIREMENTS and REQUIREMENTS[k].concerns == "reference"
+                                  for k in verdict.shortfalls):
+            # (no near-duplicate removal here: of two similar loops the one that shaping
+            # helps more may be the one the unshaped ranking would drop)
+            ok.append((objective_order(problem, verdict.metrics, scales), i))
+    ok.sort()
+    chosen, per = [], {}
+    for _, i in ok:
+        s = pairs[i][0].structure
+        if len(chosen) < problem.search.keep + 2 or per.get(s, 0) < 2:
+            chosen.append(pairs[i])
+            per[s] = per.get(s, 0) + 1
+    return chosen
+
+
 def _verify_all(problem, cands, exact: bool, actuator: bool = True, depth: str = "full",
                 setup=None) -> list:
     return [verify(problem, c.controller, exact_delay=exact, actuator=actuator, depth=depth,
@@ -261,6 +342,19 @@ def _checked(new, family, strategy) -> list:
 
 def run_design(problem, strategies=None, families=None,
                progress: ProgressFn | None = None) -> DesignRun:
+    """Search, verify and rank compensators for ``problem`` (see :func:`_run_design`).
+
+    The whole run works with one BLAS thread (:func:`synth.numerics.threads.single_threaded`):
+    its matrices are small, and a thread pool only costs time on them.
+    """
+    from synth.numerics.threads import single_threaded
+
+    with single_threaded():
+        return _run_design(problem, strategies, families, progress)
+
+
+def _run_design(problem, strategies=None, families=None,
+                progress: ProgressFn | None = None) -> DesignRun:
     """Search, verify and rank compensators for ``problem``.
 
     Parameters
@@ -303,6 +397,7 @@ def run_design(problem, strategies=None, families=None,
     futile: dict[str, str] = {}
     capped: list[str] = []
     declined: list[str] = []
+    dropped = 0
     t_search = time.monotonic()
     # a safety limit only: the search's amount is counted in work units
     t_limit = t_search + search.time_budget
@@ -335,14 +430,17 @@ def run_design(problem, strategies=None, families=None,
             done += 1
             if progress is not None:
                 progress(done, total, f"{fam.name} ({strat.name})")
-        candidates.extend(found)
+        screened = _screen(problem, fam, found, _VERIFY_PER_FAMILY)
+        dropped += len(found) - len(screened)
+        candidates.extend(screened)
         per_family[fam.name] = round(time.monotonic() - start, 3)
     search_seconds = time.monotonic() - t_search
 
-    # first pass: quick verdicts (the Pade form of a dead time in the simulation; with
-    # several plant models, only the nominal one evaluated exactly; the actuator's limits left
-    # out); then every design that would be reported gets the full verdict, in rank order,
-    # until all have one (with the anti-windup finishing stage when there is an actuator)
+    # first pass: quick verdicts (the actuator's limits left out; with several plant models,
+    # only the nominal one evaluated exactly); reference shaping for the designs that may be
+    # reported; then every design that would be reported gets the full verdict, in rank
+    # order, until all have one (with the anti-windup finishing stage when there is an
+    # actuator)
     models = problem.model_set
     robust = not models.is_single
     setup = None
@@ -350,15 +448,18 @@ def run_design(problem, strategies=None, families=None,
         from synth.verify.robust import robust_setup
 
         setup = robust_setup(problem)
-    dead = any(p.dead_time > 0 for p in (problem.plant, *(v.plant for v in models.variants))) \
-        or any(r.name == "dead_time" for r in models.ranges)
-    # the sampled-data verifier always takes the dead time exactly: no Pade first pass
-    dead = dead and problem.sampling is None
-    verdicts = _verify_all(problem, candidates, exact=not dead, actuator=False,
-                           depth="quick" if robust else "full", setup=setup)
+    quick = {"actuator": False, "depth": "quick" if robust else "full", "setup": setup}
+    verdicts = _verify_all(problem, candidates, exact=True, **quick)
     pairs = list(zip(candidates, verdicts, strict=True))
+    if problem.search.reference_shaping:
+        # the finishing stage: reference shaping for the designs a report lists (a few
+        # more, since shaping may reorder them)
+        window = _shaping_window(problem, pairs)
+        inside = {id(c) for c, _ in window}
+        shaped = shape_designs(problem, window, len(window), quick)
+        pairs = shaped + [pv for pv in pairs if id(pv[0]) not in inside]
     finishing: dict[str, Any] = {}
-    if dead or robust or problem.actuator is not None:
+    if robust or problem.actuator is not None:
         pairs, finishing = _final_verification(problem, pairs, setup)
     ranked = rank_designs(pairs, problem)
     sampled: tuple = ()
@@ -368,7 +469,7 @@ def run_design(problem, strategies=None, families=None,
         progress(total, total, "verified")
     stats = {"structures": [f.name for f in fams], "strategies": [s.name for s in strats],
              "effort": search.effort, "work": work, "futile": futile,
-             "candidates": len(candidates), "search_seconds": round(search_seconds, 3),
+             "candidates": len(candidates), "screened_out": dropped, "search_seconds": round(search_seconds, 3),
              "family_seconds": per_family, "time_capped": capped,
              "time_budget_reached": bool(capped), "declined": declined, **finishing}
     return DesignRun(problem=problem, designs=tuple(ranked), proportional=proportional,
@@ -482,7 +583,7 @@ def prepare_report(problem, doc: dict, explanation=None, top: int | None = None,
         except InputError as err:  # a zero gain: the loop has no locus to draw
             trace, gain, note = None, None, err.message
         # the whole controller: its shaping and anti-windup shape the saturated curves
-        controller = document.controller(d)
+        controller = document.controller(d)  # with its shaping and anti-windup
         own = curves(problem, controller)
         swept = None
         if sweep and trace is not None:

@@ -58,6 +58,37 @@ def _check_margins(req, L, nyquist_end=False):
             assert -20 * np.log10(max(mags)) >= req.min_gain_margin_db - 0.05
 
 
+def reference_path(nc, dc, shaping):
+    """``(nr, extra)`` with ``C_r = nr / (extra dc)``: the reference path the design JSON describes.
+
+    Set-point weights (Astrom and Hagglund, Advanced PID Control, 2006, sec. 3.4):
+    the partial fractions of C by scipy.signal.residue give ``ki`` (the residue at
+    s = 0), ``kp`` (what is left, at s = 0) and the derivative part ``D = C - ki/s - kp``;
+    ``C_r = ki/s + b kp + c D``, rebuilt with scipy.signal.invres.  A prefilter F:
+    ``C_r = F C``.
+    """
+    if not shaping:
+        return np.asarray(nc, float), np.ones(1)
+    if "setpoint_weights" in shaping:
+        b, c = shaping["setpoint_weights"]["b"], shaping["setpoint_weights"]["c"]
+        r, p, k = signal.residue(nc, dc)
+        at0 = np.abs(p) == 0
+        ki = float(np.real(np.sum(r[at0])))
+        rest_r, rest_p = r[~at0], p[~at0]
+        direct = float(k[0]) if len(k) else 0.0
+        kp = direct + float(np.real(np.sum(rest_r / (0.0 - rest_p))))
+        # C_r = ki/s + b kp + c (direct - kp + sum rest_r / (s - rest_p))
+        res = np.concatenate([[ki] if np.any(at0) else [], c * rest_r])
+        poles = np.concatenate([[0.0] if np.any(at0) else [], rest_p])
+        kk = [b * kp + c * (direct - kp)]
+        nr, dr = signal.invres(res, poles, kk)
+        nr, dr = np.real(nr), np.real(dr)
+        # same poles as C: over dc itself
+        np.testing.assert_allclose(dr / dr[0], np.asarray(dc, float) / dc[0], rtol=1e-9, atol=0)
+        return nr * (dc[0] / dr[0]), np.ones(1)
+    return np.polymul(shaping["numerator"], nc), np.asarray(shaping["denominator"], float)
+
+
 def independent_check(problem, design):
     """Re-verify one feasible design without synth: numpy.roots, scipy.signal."""
     req = problem.requirements
@@ -79,10 +110,18 @@ def independent_check(problem, design):
     num_l, den_l = np.polymul(nc, pnum), np.polymul(dc, pden)
     cl = np.polyadd(den_l, num_l)
     sigma = float(np.min(-np.roots(cl).real))
+    # the reference path C_r = nr / dr (set-point weights or a prefilter, as the JSON says):
+    # Y/R = G C_r / (1 + G C) = pnum nr dc / (dr cl), U/R = nr pden dc / (dr cl)
+    nr, dr = reference_path(nc, dc, design.get("reference_filter"))
+    ry_num, ry_den = np.polymul(pnum, nr), np.polymul(dr, cl)
+    ru_num = np.polymul(pden, nr)
+    slow = np.roots(dr) if np.asarray(dr).size > 1 else np.zeros(0)
+    if slow.size:
+        sigma = min(sigma, float(np.min(-slow.real)))
     t = np.linspace(0.0, min(40.0 / sigma, 2000.0), 40001)
-    _, y = signal.step(signal.TransferFunction(num_l, cl), T=t)
-    _, u = signal.step(signal.TransferFunction(np.polymul(nc, pden), cl), T=t)
-    yf = np.polyval(num_l, 0.0) / np.polyval(cl, 0.0)
+    _, y = signal.step(signal.TransferFunction(ry_num, ry_den), T=t)
+    _, u = signal.step(signal.TransferFunction(ru_num, ry_den), T=t)
+    yf = np.polyval(ry_num, 0.0) / np.polyval(ry_den, 0.0)
     _check_step(req, t, y, u, yf, overshoot_slack=0.2, time_slack=2 * (t[1] - t[0]),
                 effort_slack=1.01)
     if req.max_steady_state_error is not None:

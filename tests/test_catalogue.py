@@ -27,11 +27,15 @@ from synth.problem.requirements import Requirements, problem_from_text
 CONTRACT_KEYS = ("max_overshoot_percent", "max_settling_time", "settling_band_percent",
                  "min_damping_ratio", "max_rise_time", "max_steady_state_error",
                  "plant_gain_range", "gain_range", "min_phase_margin_deg", "min_gain_margin_db",
-                 "max_peak_sensitivity", "max_control_effort")
-#: The contract's design-JSON metric keys.
+                 "max_peak_sensitivity", "max_control_effort",
+                 # second round ("Extensions, second round", new keys)
+                 "max_peak_complementary_sensitivity", "max_noise_gain", "max_load_iae",
+                 "max_load_peak")
+#: The contract's design-JSON metric keys (format 1, then the second round's additions).
 CONTRACT_METRICS = ("overshoot_percent", "settling_time", "rise_time", "steady_state_error",
                     "min_damping_ratio", "phase_margin_deg", "gain_margin_db",
-                    "peak_sensitivity", "peak_control_effort", "stable_plant_gain_range")
+                    "peak_sensitivity", "peak_control_effort", "stable_plant_gain_range",
+                    "load_iae", "load_peak", "peak_complementary_sensitivity", "noise_gain")
 
 PLANT = "[plant]\nnumerator = [1.0]\ndenominator = [1.0, 3.0, 2.0]\n"
 
@@ -64,6 +68,8 @@ def test_allowed_values_match_the_requirements_file_reference():
     ("max_steady_state_error", 1.5), ("plant_gain_range", [0.0, 2.0]), ("gain_range", [3, 1]),
     ("min_phase_margin_deg", 180.0), ("min_gain_margin_db", 0.0),
     ("max_peak_sensitivity", 0.9), ("max_control_effort", 0.0),
+    ("max_peak_complementary_sensitivity", 0.5), ("max_noise_gain", 0.0),
+    ("max_load_iae", -1.0), ("max_load_peak", 0.0),
 ])
 def test_out_of_range_values_are_one_line_errors_naming_the_key(key, bad):
     value = repr(bad).lower() if not isinstance(bad, list) else str(bad)

@@ -122,7 +122,8 @@ def plants(draw):
 _REQ_KEYS = ["max_overshoot_percent", "max_settling_time", "settling_band_percent",
              "min_damping_ratio", "max_rise_time", "max_steady_state_error", "plant_gain_range",
              "gain_range", "min_phase_margin_deg", "min_gain_margin_db", "max_peak_sensitivity",
-             "max_control_effort"]
+             "max_control_effort", "max_peak_complementary_sensitivity", "max_noise_gain",
+             "max_load_iae", "max_load_peak"]
 _ODD_KEYS = ["max_setling_time", "bad\nkey", "\x1b[2J", "", "k" * 300, "plant", "é"]
 RANGES = st.one_of(st.lists(NUMBERS, min_size=2, max_size=2), NUMBER_LISTS)
 
@@ -141,7 +142,10 @@ def documents(draw):
             "structures": st.one_of(st.lists(st.sampled_from([*STRUCTURES, "PIDD", ""]),
                                              max_size=4), WRONG),
             "general_order": VALUES, "max_frequency": VALUES, "seed": VALUES,
-            "keep": VALUES, "time_budget": VALUES}))
+            "keep": VALUES, "time_budget": VALUES,
+            "objective": st.one_of(st.sampled_from(["disturbance", "speed", "robustness",
+                                                     "effort", "balanced", "fast", ""]), WRONG),
+            "reference_shaping": st.one_of(st.booleans(), WRONG)}))
     if draw(st.integers(0, 5)) == 5:
         doc["sampling"] = draw(st.one_of(
             st.fixed_dictionaries({}, optional={"period": VALUES, "compute_delay": VALUES,
@@ -234,7 +238,9 @@ def small_designs(draw):
     doc["plant"] = {"expression": draw(st.sampled_from(["1/(s*(s+2))", "2/((s+1)*(s+3))",
                                                         "1/(s^2-1)", "1e-6/((s+1e-3)*(s+2e-3))"]))}
     doc["search"] = {"structures": [draw(st.sampled_from(["P", "PI", "lead"]))], "keep": 2,
-                     "time_budget": 20.0}
+                     "time_budget": 20.0,
+                     "objective": draw(st.sampled_from(["disturbance", "speed", "robustness",
+                                                        "effort", "balanced"]))}
     return tomli_w.dumps(doc).encode("utf-8", "surrogatepass")
 
 

@@ -75,8 +75,9 @@ def _stable(num_c, den_c, problem) -> bool:
 # ----------------------------------------------------------------------------
 
 
-def test_registry_holds_one_strategy_per_contract_origin():
-    assert sorted(s.origin for s in STRATEGIES) == sorted(ORIGINS)
+def test_registry_covers_every_contract_origin():
+    # every origin the contract names has a strategy, and no strategy uses another name
+    assert {s.origin for s in STRATEGIES} == set(ORIGINS)
     names = [s.name for s in STRATEGIES]
     assert len(set(names)) == len(names)
     assert [s.order for s in STRATEGIES] == sorted(s.order for s in STRATEGIES)
@@ -121,10 +122,12 @@ def test_every_strategy_conforms(strategy, structure):
 
 
 @pytest.mark.parametrize("strategy", STRATEGIES, ids=lambda s: s.name)
-@pytest.mark.parametrize("structure", ["lead", "PD"])
-def test_every_strategy_stabilises_the_textbook_lead_plant(strategy, structure):
-    # 4/(s(s+2)) is stabilised by any lead or PD with a positive gain: each strategy proposes
-    # at least one such loop (numpy.roots)
+@pytest.mark.parametrize("which", [0, 1])
+def test_every_strategy_stabilises_the_textbook_lead_plant(strategy, which):
+    # 4/(s(s+2)) is stabilised by any lead or PD with a positive gain (and by PI and PID
+    # with small enough integral action): each strategy proposes at least one such loop
+    # (numpy.roots) for the structures it designs
+    structure = (["PI", "PID"] if strategy.name == "circle" else ["lead", "PD"])[which]
     fam = family_for(structure, OGATA)
     cands = strategy.propose(OGATA, fam, _context(strategy, fam))
     assert any(_stable(c.num, c.den, OGATA) for c in cands)
@@ -203,7 +206,7 @@ def test_a_throwaway_family_and_strategy_plug_in_from_one_file():
     doc = json.loads(json.dumps(run.to_json(), allow_nan=False))
     assert doc["search"]["structures"] == ["P", "roll-off"]
     assert doc["search"]["strategies"] == ["decliner", "grid-probe", "placement", "convex",
-                                           "search"]
+                                           "circle", "search"]
     assert doc["search"]["declined"] == ["decliner on P: nothing for P",
                                          "decliner on roll-off: nothing for roll-off"]
     rolled = [d for d in doc["designs"] if d["structure"] == "roll-off"]
@@ -299,3 +302,21 @@ def test_each_strategy_alone_and_all_together(problem):
         if score is not None and name in ("placement", "search"):
             # (to 1e-6: the ranking keeps one of two designs its "same design" rule merges)
             assert top <= score * (1 + 1e-6), (name, score, top)
+
+
+def test_latin_hypercube_hits_every_stratum_once_like_scipys():
+    # the defining property of a Latin hypercube (McKay, Beckman and Conover 1979), as
+    # scipy.stats.qmc.LatinHypercube samples it: every dimension's n strata hit exactly once
+    from scipy.stats import qmc
+
+    from synth.strategies.evolve import _latin_hypercube
+
+    lo, hi = np.array([-2.0, 0.0, 1.0]), np.array([2.0, 5.0, 1.5])
+    n = 17
+    ours = _latin_hypercube(np.random.default_rng(4), n, lo, hi)
+    ref = lo + qmc.LatinHypercube(d=3, rng=np.random.default_rng(4)).random(n) * (hi - lo)
+    for sample in (ours, ref):
+        unit = (sample - lo) / (hi - lo)
+        assert np.all((unit >= 0) & (unit < 1))
+        for j in range(3):
+            assert sorted(np.floor(unit[:, j] * n).astype(int)) == list(range(n))

@@ -422,3 +422,28 @@ def test_curves_hold_the_verdicts_step_and_margins():
     assert c.frequency.peak_sensitivity == v.metrics["peak_sensitivity"]
     # an ideal derivative has no step response to draw (its effort to a step is an impulse)
     assert curves(TYPE1, [1.0, 1.0, 0.0], [1.0]).step is None
+
+
+@pytest.mark.parametrize("num, den", [
+    ([1.0], [1.0, 3.0, 3.0, 1.0]),
+    ([2.0, 1.5, 0.4], [1.0, 5.0, 0.0]),                 # biproper PID with filter
+    ([1e-9, 2.0, 1.0], [3.0, 2.0, 1.0]),                # a tiny leading coefficient is kept
+    ([[1.0, 2.0, 3.0], [0.0, -1.0, -1.0]], [1.0, 3.0, 0.0]),   # one input, two outputs
+    ([5.0], [2.0]),                                     # a constant
+])
+def test_realisation_is_scipys_controller_canonical_form(num, den):
+    # the same matrices as scipy.signal.tf2ss (synth writes the form out to avoid importing
+    # scipy.signal at start-up)
+    import warnings
+
+    from synth.verify.simulation import realise
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", signal.BadCoefficients)
+        ref = signal.tf2ss(num, den)
+    got = realise(num, den)
+    if np.asarray(den).size == 1:      # scipy gives a 1 x 1 zero state for a constant
+        np.testing.assert_allclose(got[3], ref[3], rtol=1e-15)
+        return
+    for a, b in zip(got, ref, strict=True):
+        np.testing.assert_allclose(a, b, rtol=1e-15, atol=0)

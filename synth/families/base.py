@@ -323,6 +323,9 @@ class Family:
     param_names: ClassVar[tuple[str, ...]] = ()
     #: names of the denominator values ``conic_form`` expects fixed
     fixed_names: ClassVar[tuple[str, ...]] = ()
+    #: whether the structure takes PID set-point weights ``(b, c)`` as its reference
+    #: shaping (``synth.verify.controller.setpoint_numerator``); others get a prefilter
+    setpoint_weights: ClassVar[bool] = False
 
     @property
     def n_params(self) -> int:
@@ -411,6 +414,14 @@ class Family:
             are scaled by powers of ``w`` so useful ``x`` are of order one.
         """
         return NotSupported(f"no fixed-denominator form for the {self.name} structure")
+
+    def circle_form(self) -> str | NotSupported:
+        """``"PI"`` or ``"PID"`` when the structure is ``kp + ki/s`` (plus a filtered derivative).
+
+        The circle strategy (:mod:`synth.strategies.circle`) designs such a
+        structure exactly under the robustness circles.
+        """
+        return NotSupported(f"the {self.name} structure is not affine in kp and ki")
 
     def pid_gains(self, num, den) -> ParallelGains | NotSupported:
         """Parallel PID gains of a compensator of this family."""

@@ -17,6 +17,7 @@ class PFamily(Family):
 
     name: ClassVar[str] = "P"
     position: ClassVar[int] = 10
+    setpoint_weights: ClassVar[bool] = True
     param_names: ClassVar[tuple[str, ...]] = ("gain",)
 
     def _bounds(self):

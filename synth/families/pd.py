@@ -33,6 +33,7 @@ class PDFamily(Family):
 
     name: ClassVar[str] = "PD"
     position: ClassVar[int] = 30
+    setpoint_weights: ClassVar[bool] = True
     param_names: ClassVar[tuple[str, ...]] = ("gain", "log10_filter_pole", "log10_ratio")
     fixed_names: ClassVar[tuple[str, ...]] = ("filter_pole",)
 

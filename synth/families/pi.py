@@ -26,6 +26,7 @@ class PIFamily(Family):
 
     name: ClassVar[str] = "PI"
     position: ClassVar[int] = 20
+    setpoint_weights: ClassVar[bool] = True
     param_names: ClassVar[tuple[str, ...]] = ("gain", "log10_zero")
 
     def _bounds(self):
@@ -107,6 +108,9 @@ class PIFamily(Family):
     def conic_form(self, fixed, w):
         # K s + K z: both coefficients nonnegative for a zero in the left half-plane
         return _conic([1.0, 0.0], _power_generators(2, w), [0.0, 0.0], [True, False], (), ())
+
+    def circle_form(self):
+        return "PI"
 
     def pid_gains(self, num, den):
         x = self.from_polys(num, den)

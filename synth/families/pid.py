@@ -40,6 +40,7 @@ class PIDFamily(Family):
 
     name: ClassVar[str] = "PID"
     position: ClassVar[int] = 40
+    setpoint_weights: ClassVar[bool] = True
     param_names: ClassVar[tuple[str, ...]] = ("gain", "log10_outer_zero",
                                               "log10_zero_damping", "log10_filter_pole")
     fixed_names: ClassVar[tuple[str, ...]] = ("filter_pole",)
@@ -157,6 +158,9 @@ class PIDFamily(Family):
         N = float(fixed[0])
         return _conic([1.0, N, 0.0], _power_generators(3, w), [0.0, 0.0, 0.0],
                       [True, False, False], (N,), self.fixed_names)
+
+    def circle_form(self):
+        return "PID"
 
     def pid_gains(self, num, den):
         x = self.from_polys(num, den)

@@ -576,6 +576,16 @@ def _short(v: Any) -> str:
     return str(v)
 
 
+def _described(record) -> str:
+    """A design's description with its reference shaping (the loop alone decides "same")."""
+    sh = record.shaping()
+    if sh is None:
+        return record.description
+    from synth.outputs.run import shaping_text
+
+    return f"{record.description}; {shaping_text(sh)}"
+
+
 def compare_runs(runs: list[tuple[str, Any]], rtol: float = DEFAULT_RTOL,
                  binding_margin: float = BINDING_MARGIN) -> Comparison:
     """Compare several design runs side by side.
@@ -632,7 +642,7 @@ def compare_runs(runs: list[tuple[str, Any]], rtol: float = DEFAULT_RTOL,
                 best[1][r] = entry
 
     shared = tuple(
-        SharedDesign(id=f"D{i + 1}", structure=f[0].structure, description=f[0].description,
+        SharedDesign(id=f"D{i + 1}", structure=f[0].structure, description=_described(f[0]),
                      zeros=f[0].compensator.zeros, poles=f[0].compensator.poles,
                      gain=f[0].compensator.gain,
                      entries=tuple(f[1].get(r) for r in range(n_runs)))

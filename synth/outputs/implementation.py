@@ -112,6 +112,31 @@ def _discrete(plant, c: CompensatorRecord, T: float) -> dict:
     return out
 
 
+def _reference_form(shaping, sample_time: float | None) -> dict:
+    """How the reference enters: the set-point-weighted law, or the prefilter (and its Tustin form).
+
+    References
+    ----------
+    .. [1] K. J. Astrom and T. Hagglund, *Advanced PID Control*, ISA, 2006,
+       sec. 3.4 (set-point weighting).
+    """
+    from synth.outputs.forms import polynomial_text, tustin_prewarp
+
+    if shaping.setpoint_weights is not None:
+        b, c = shaping.setpoint_weights
+        return {"setpoint_weights": {"b": b, "c": c},
+                "law": f"u = Kp ({b:.4g} r - y) + Ki/s (r - y) + Kd s/(1 + s Tf) ({c:.4g} r - y)"}
+    num, den = list(shaping.numerator), list(shaping.denominator)
+    out = {"prefilter": {"numerator": num, "denominator": den,
+                         "text": f"F(s) = ({polynomial_text(num)}) / ({polynomial_text(den)})"}}
+    if sample_time is not None:
+        nz, dz = tustin_prewarp(num, den, sample_time)
+        out["prefilter"]["discrete"] = {"numerator": [float(v) for v in nz],
+                                        "denominator": [float(v) for v in dz],
+                                        "method": "tustin"}
+    return out
+
+
 def add_implementation_forms(doc: dict, sample_time: float | None = None) -> dict:
     """Return a copy of a synth.design/1 document with implementation forms added.
 
@@ -127,7 +152,9 @@ def add_implementation_forms(doc: dict, sample_time: float | None = None) -> dic
     Returns
     -------
     dict
-        The same document with ``designs[i]["implementation"]`` set, and
+        The same document with ``designs[i]["implementation"]`` set (with
+        ``reference``: the set-point-weighted law or the prefilter, when the
+        design has reference shaping), and
         ``doc["implementation_settings"] = {"sample_time": T}``.
 
     Raises
@@ -170,6 +197,9 @@ def add_implementation_forms(doc: dict, sample_time: float | None = None) -> dic
         }
         if sample_time is not None:
             impl["discrete"] = _discrete(plant, c, sample_time)
+        sh = d.shaping()
+        if sh is not None:
+            impl["reference"] = _reference_form(sh, sample_time)
         out["designs"][d.index]["implementation"] = clean(impl)
     out["implementation_settings"] = {"sample_time": sample_time}
     return out

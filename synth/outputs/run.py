@@ -18,7 +18,8 @@ from synth.outputs.jsonout import clean, root_pairs
 from synth.outputs.text import Row, TextReport, TextTable, plain_lines
 from synth.problem.catalogue import METRICS
 
-__all__ = ["SCHEMA", "design_json", "design_lines", "design_text"]
+__all__ = ["SCHEMA", "design_json", "design_lines", "design_text", "shaping_json",
+           "shaping_text"]
 
 SCHEMA = "synth.design/1"
 
@@ -82,6 +83,8 @@ def _design_json(run, d, sampled=None) -> dict:
     }
     if params is not None:
         out["params"] = params
+    if c.shaping is not None:
+        out["reference_filter"] = shaping_json(c.shaping)
     if sampled is not None:
         out["discrete"] = sampled.to_json()
     if run.problem.actuator is not None:
@@ -109,6 +112,34 @@ def _actuator_json(candidate, verdict) -> dict:
     return out
 
 
+def shaping_json(shaping) -> dict:
+    """The contract's ``reference_filter`` object of a reference shaping (plus its ``method``).
+
+    ``{"numerator": [...], "denominator": [...]}`` for a prefilter,
+    ``{"setpoint_weights": {"b": b, "c": c}}`` for PID set-point weights.
+    """
+    if shaping.setpoint_weights is not None:
+        b, c = shaping.setpoint_weights
+        out = {"setpoint_weights": {"b": float(b), "c": float(c)}}
+    else:
+        out = {"numerator": [float(x) for x in shaping.numerator],
+               "denominator": [float(x) for x in shaping.denominator]}
+    if shaping.method:
+        out["method"] = shaping.method
+    return out
+
+
+def shaping_text(shaping) -> str:
+    """One line for the terminal and the report: what shapes the reference step."""
+    if shaping.setpoint_weights is not None:
+        b, c = shaping.setpoint_weights
+        return f"reference: set-point weights b = {b:.3g}, c = {c:.3g}"
+    from synth.problem.plant import describe_factored
+
+    return ("reference prefilter F(s) = "
+            f"{describe_factored(np.asarray(shaping.numerator), np.asarray(shaping.denominator))}")
+
+
 def design_json(run) -> dict:
     """The contract's ``synth.design/1`` object of a run, plus extra fields; no NaN or infinity.
 
@@ -134,6 +165,7 @@ def design_json(run) -> dict:
     s = problem.search
     out = {
         "schema": SCHEMA,
+        "objective": s.objective,
         "plant": problem.plant.to_json(),
         "designs": [_design_json(run, d, sd) for d, sd in
                     zip(run.designs, run.sampled or (None,) * len(run.designs), strict=True)],
@@ -143,6 +175,7 @@ def design_json(run) -> dict:
         "proportional": run.proportional,
         "caution": CAUTION,
         "search": {"seed": s.seed, "time_budget": s.time_budget, "keep": s.keep,
+                   "objective": s.objective, "reference_shaping": s.reference_shaping,
                    "structures": list(s.structures or FAMILIES),
                    "max_frequency": SearchSpace.for_problem(problem).w_max, **run.stats},
     }
@@ -232,6 +265,7 @@ def design_text(run) -> TextReport:
     catalogue), then the peak sensitivity, peak effort and settling time
     where no requirement limits them.
     """
+    from synth.problem.objectives import objective
     from synth.problem.plant import describe_factored
 
     pr = run.problem
@@ -239,6 +273,7 @@ def design_text(run) -> TextReport:
     before = _proportional_lines(run)
     title = pr.plant.label or pr.source
     before.append(f"Designs for {pr.plant.describe()}" + (f"  ({title})" if title else ""))
+    before.append(f"  objective: {pr.search.objective} ({objective(pr).label})")
     if not pr.region.is_stability_only:
         before.append(f"  requirement region: {pr.region.describe()}")
     if pr.sampling is not None:
@@ -254,7 +289,8 @@ def design_text(run) -> TextReport:
                       "lines)")
     before.append("")
     cols = [(entry.column(limit), entry.metric, entry.key) for entry, limit in req.limits()]
-    cols += [(METRICS[m].symbol, m, None) for m in _ALWAYS_SHOWN if req.limit(m) is None]
+    shown = [m for m in (*objective(pr).metrics, *_ALWAYS_SHOWN) if req.limit(m) is None]
+    cols += [(METRICS[m].symbol, m, None) for m in dict.fromkeys(shown)]
     header = ("rank", "structure", "origin", "ok?", *(c[0] for c in cols))
     rows = []
     sampled = run.sampled or (None,) * len(run.designs)
@@ -278,6 +314,8 @@ def design_text(run) -> TextReport:
             marks.append(mark)
         num, den = np.asarray(d.candidate.num), np.asarray(d.candidate.den)
         details = [f"C(s) = {describe_factored(num, den)}"]
+        if d.candidate.shaping is not None:
+            details.append(shaping_text(d.candidate.shaping))
         aw = d.candidate.anti_windup
         if pr.actuator is not None and aw is not None:
             details.append("anti-windup: " + _anti_windup_text(aw))

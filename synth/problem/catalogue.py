@@ -142,6 +142,11 @@ METRICS: Mapping[str, Metric] = MappingProxyType({m.key: m for m in (
     Metric("peak_sensitivity", "peak sensitivity", "", "Ms", "lower", True),
     Metric("peak_control_effort", "peak control effort", "", "|u|max", "lower", True),
     Metric("stable_plant_gain_range", "stable plant-gain factors", "", "kG", "wider", True),
+    Metric("load_iae", "load-step IAE", "", "IAEd", "lower", True),
+    Metric("load_peak", "load-step peak", "", "|y|d", "lower", True),
+    Metric("peak_complementary_sensitivity", "peak complementary sensitivity", "", "Mt",
+           "lower", True),
+    Metric("noise_gain", "noise gain", "", "|CS|", "lower", True),
     Metric("delay_margin", "delay margin", "s", "DM", "higher"),
     Metric("crossover_frequency", "gain crossover", "rad/s", "wc", None),
     Metric("final_value", "final value", "", "y(inf)", None),
@@ -472,6 +477,28 @@ REQUIREMENTS: Mapping[str, Requirement] = MappingProxyType({r.key: r for r in (
         "peak sensitivity", "at most {}", "Ms<={:g}", NumberSpec(lo=1),
         violation="peak sensitivity {value:.3g} exceeds {limit:g}",
         undefined="peak sensitivity undefined", bound=1.0),
+    Requirement(
+        "max_peak_complementary_sensitivity", "peak_complementary_sensitivity", "upper", "loop",
+        "", "peak complementary sensitivity", "at most {}", "Mt<={:g}", NumberSpec(lo=1),
+        violation="peak complementary sensitivity {value:.3g} exceeds {limit:g}",
+        undefined="peak complementary sensitivity unbounded", bound=1.0),
+    Requirement(
+        "max_noise_gain", "noise_gain", "upper", "loop", "",
+        "noise gain", "peak of |C/(1+L)| at most {}", "|CS|<={:g}", _POSITIVE,
+        violation="noise gain {value:.3g} exceeds {limit:g}",
+        undefined="noise gain unbounded"),
+    Requirement(
+        "max_load_iae", "load_iae", "upper", "load", "",
+        "load-step IAE", "integral of |y| after a unit load step at most {}", "IAEd<={:g}",
+        _POSITIVE,
+        violation="load-step IAE {value:.3g} exceeds {limit:g}",
+        undefined="the output does not return to zero after a load step (no integral action): "
+                  "the load-step IAE is unbounded", cap=10.0),
+    Requirement(
+        "max_load_peak", "load_peak", "upper", "load", "",
+        "load-step peak", "peak |y| after a unit load step at most {}", "|y|d<={:g}", _POSITIVE,
+        violation="load-step peak {value:.3g} exceeds {limit:g}",
+        undefined="load-step peak undefined"),
     Requirement(
         "max_control_effort", "peak_control_effort", "upper", "reference", "",
         "control effort", "peak |u| at most {} for a unit step", "|u|<={:g}", _POSITIVE,

@@ -190,6 +190,10 @@ class SearchSettings:
     time_budget: float = 600.0
     #: relative amount of search work per structure (deterministic)
     effort: float = 1.0
+    #: what "best" means among designs meeting every requirement (synth.problem.objectives)
+    objective: str = "balanced"
+    #: may a reference prefilter or set-point weights meet the reference-step requirements
+    reference_shaping: bool = True
 
 
 @dataclass(frozen=True)
@@ -305,8 +309,24 @@ def _structures(v, src, key):
     return tuple(seen)
 
 
+def _objective(v, src, key):
+    from synth.problem.objectives import OBJECTIVES
+
+    if not isinstance(v, str) or v not in OBJECTIVES:
+        raise InputError(f"must be one of {', '.join(OBJECTIVES)}, got {_short(v)}", src, key)
+    return v
+
+
+def _flag(v, src, key):
+    if not isinstance(v, bool):
+        raise InputError(f"must be true or false, got {_short(v)}", src, key)
+    return v
+
+
 _SEARCH_SPEC = {
     "structures": _structures,
+    "objective": _objective,
+    "reference_shaping": _flag,
     "general_order": lambda v, s, k: _num(v, s, k, lo=1, hi=3, integer=True),
     "max_frequency": lambda v, s, k: _num(v, s, k, lo=0, lo_open=True),
     # a seed fits a signed 64-bit integer, so every consumer (numpy, JSON readers) takes it

@@ -29,6 +29,11 @@ Each candidate's provenance says whether the region certificate holds
 the region each certificate was written for, so anyone can re-check it.
 The pipeline verifies every candidate again.
 
+A structure the circle strategy designs exactly (PI, PID: ``Family.circle_form``)
+gets no convex design when the requirements set no s-plane region: the
+certificate would only prove stability, which those designs have with their
+robustness margins.
+
 Work.  Each conic solve (the least-squares QP and every semidefinite
 program) counts :data:`synth.strategies.CONIC_SOLVE_UNITS` work units, and
 each solve runs under the solver's iteration cap
@@ -371,9 +376,15 @@ class ConvexStrategy:
         StrategyDeclined
             When no fixed part can meet the step-error limit within the gain range.
         """
+        from synth.families import NotSupported
         from synth.strategies.base import CONIC_SOLVE_UNITS, candidate_from_polys
         from synth.strategies.placement import gain_signs
 
+        if problem.region.is_stability_only and \
+                not isinstance(family.circle_form(), NotSupported):
+            # nothing to certify beyond stability, which the circle strategy's designs of
+            # this structure have by construction (and with their margins)
+            return []
         signs = gain_signs(problem)
         parts = fixed_parts(problem, family, context.prior)[:_MAX_PARTS]
         if not signs or not parts:

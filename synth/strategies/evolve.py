@@ -11,8 +11,17 @@ vectorised objective that is
   shortfall being the sum of the normalised excesses over every requirement
   (estimated from a coarse simulation and frequency sweep, see below) plus a
   small shaping term for closed-loop poles outside the requirement region;
-* the ranking score of :mod:`synth.rank` (in [0, 1), lower is better) once
-  every estimate meets its requirement with a small safety margin.
+* the problem's objective (:mod:`synth.problem.objectives`: least load IAE,
+  settling time, Ms, effort, or the balanced compromise), squashed into
+  [0, 1) (lower is better), once every estimate meets its requirement with a
+  small safety margin: the search optimises the objective directly.
+
+With ``search.reference_shaping``, the reference-step estimates are those of
+the shaped response the finishing stage (:mod:`synth.shaping`) would give:
+set-point weights for the structures that take them (the response is affine
+in the weight ``b``, so each weight tried costs a combination of two
+responses) and the static correction ``1/T(0)`` for the others, so limits
+that shaping can meet do not push the loop away from the objective's optimum.
 
 Several plant models.  When the problem has parameter ranges or variants,
 every estimate is taken on each model of a representative subset
@@ -71,6 +80,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from synth.numerics.poly import batch_polymul
 from synth.strategies.base import candidate_from_params
 
 __all__ = ["ORIGIN", "STRATEGY", "EvolveStrategy", "SearchObjective"]
@@ -98,20 +108,26 @@ _N_OUT = 4
 _N_POLISH = 2
 _N_PRIOR_POLISH = 3
 _POLISH_ITERATIONS = 30
-_MIN_POLISH_ITERATIONS = 8
 _POLISH_STEP = 0.02
+
+
+#: Proportional set-point weights the search tries for a structure that takes them
+#: (the reference response is affine in b, so each costs one combination of two responses).
+SEARCH_WEIGHTS = (1.0, 0.5, 0.0)
 
 
 class SearchObjective:
     """Vectorised objective of one family for one problem (see the module docstring).
 
     Call with ``X`` of shape (B, n_params); returns shape (B,).
-    :meth:`details` returns the estimated metrics as arrays.
+    :meth:`details` returns the estimated metrics (worst over the plant
+    models, metric keys of the design JSON), the chosen set-point weight
+    ``setpoint_b`` (NaN where none) and the objective ``f``.
     """
 
     def __init__(self, problem, family, models=None):
-        from synth.rank import reference_scales
-        from synth.verify.estimate import PlantModel
+        from synth.problem.objectives import ObjectiveScales, objective
+        from synth.verify.estimate import REFERENCE, PlantModel
         from synth.verify.robust import search_models
 
         self.problem = problem
@@ -127,6 +143,18 @@ class SearchObjective:
         # a structure's own limits (the gain range) are the family's bounds already
         self.targets = tuple((entry, entry.search_limit(limit, _TIGHTEN, _WIDEN))
                              for entry, limit in req.limits() if entry.concerns != "structure")
+        self.reference_targets = tuple(t for t in self.targets if t[0].concerns == "reference")
+        self.objective = objective(problem)
+        self.scales = ObjectiveScales.for_problem(problem)
+        self.need_reference = bool(self.reference_targets) or any(
+            m in REFERENCE for m in self.objective.metrics)
+        shaping = problem.search.reference_shaping
+        # reference shaping the search estimates: set-point weights for the structures
+        # that take them (only worth their cost when a reference-step limit is set), the
+        # static gain correction 1/T(0) for the others (synth.shaping)
+        self.weights = SEARCH_WEIGHTS if (shaping and family.setpoint_weights
+                                          and self.reference_targets) else None
+        self.static_correction = shaping and not family.setpoint_weights
         sp = family.space
         self.w_char = sp.w_char
         lo = max(sp.w_min, sp.w_char * 1e-3)
@@ -148,7 +176,6 @@ class SearchObjective:
         self.models = tuple(PlantModel.prepare(point.plant, self.w)
                             for point in self.model_points)
         self.tau = np.linspace(0.0, 1.0, _T_POINTS) ** 2
-        self.refs = reference_scales(problem)
         self.ts_floor = req.limit("settling_time")
         ranges = [aim for entry, aim in self.targets if entry.kind == "contain"]
         self.range_factors = np.geomspace(*ranges[0], 3) if ranges else None
@@ -159,32 +186,113 @@ class SearchObjective:
         return len(self.models)
 
     # -- the pieces ---------------------------------------------------------------------------
+    def _shortfall(self, targets, est, n):
+        """Sum of the catalogue's normalised shortfalls of the estimates against ``targets``."""
+        sh = np.zeros(n)
+        for entry, aim in targets:
+            value = est[entry.metric]
+            if entry.kind == "contain":
+                pen = entry.shortfall(value, aim)
+            else:
+                with np.errstate(invalid="ignore"):
+                    pen = entry.shortfall(value, aim)
+                # undefined (NaN): a shortfall of 1 where the verifier would fail it too
+                pen = np.where(np.isnan(value), 1.0 if entry.undefined else 0.0, pen)
+            if entry.cap is not None:
+                pen = np.minimum(pen, entry.cap)
+            sh = sh + pen
+        return sh
+
+    def _shaped_reference(self, modal):
+        """Reference-step estimates of the shaped response, with the weight chosen per row.
+
+        ``modal`` is one plant model's :class:`synth.verify.estimate.Modal`
+        (its stable rows).  Returns the step figures (dict of arrays over those
+        rows) and the set-point weight chosen per row (NaN: none).
+        """
+        from synth.verify.estimate import modal_response, step_figures
+
+        nc, dc = modal.num_c, modal.den_c
+        rows = modal.r.shape[0]
+        if self.weights is not None:
+            from synth.verify.controller import setpoint_numerators
+
+            nums = [setpoint_numerators(nc, dc, 0.0, 0.0), setpoint_numerators(nc, dc, 1.0, 0.0)]
+        else:
+            nums = [nc]
+        ys, us, yss = [], [], []
+        for nr in nums:
+            y, yf = modal_response(modal, batch_polymul(nr, modal.gnum))
+            u, _ = modal_response(modal, batch_polymul(nr, modal.gden))
+            ys.append(y)
+            us.append(u)
+            yss.append(yf)
+        t = modal.t
+        if self.weights is None:
+            y, u, yf = ys[0], us[0], yss[0]
+            if self.static_correction:
+                # a type-0 loop whose static loop gain is at least 1: the prefilter 1/T(0)
+                # brings the final value to 1 (synth.shaping.static_correction)
+                with np.errstate(divide="ignore", invalid="ignore"):
+                    l0 = np.abs(yf / np.where(yf != 1.0, 1.0 - yf, np.inf))
+                fix = (l0 >= 1.0) & np.isfinite(yf) & (yf != 0.0)
+                g = np.where(fix, 1.0 / np.where(yf != 0.0, yf, 1.0), 1.0)
+                y, u, yf = y * g[:, None], u * g[:, None], yf * g
+            return step_figures(t, y, u, yf, self.band), np.full(rows, np.nan)
+        # set-point weights: y(b) = y0 + b (y1 - y0), the same for u; keep the b whose
+        # reference figures fall shortest of the limits (ties: the larger b)
+        best = None
+        for b in self.weights:
+            y = ys[0] + b * (ys[1] - ys[0])
+            u = us[0] + b * (us[1] - us[0])
+            fig = step_figures(t, y, u, yss[0] + b * (yss[1] - yss[0]), self.band)
+            sh = self._shortfall(self.reference_targets, fig, rows)
+            if best is None:
+                best = (sh, fig, np.full(rows, b))
+                continue
+            better = sh < best[0] - 1e-9
+            best = (np.where(better, sh, best[0]),
+                    {k: np.where(better, fig[k], best[1][k]) for k in fig},
+                    np.where(better, b, best[2]))
+        return best[1], best[2]
+
     def model_estimates(self, num_c, den_c) -> list[dict[str, np.ndarray]]:
         """The estimates of every row on each plant model (nominal first), one dict per model.
 
         Besides the keys of :func:`synth.verify.estimate.estimate_loops`,
-        ``region_short``: how far the closed-loop poles lie outside the
-        requirement region (relative to the problem's characteristic
-        frequency), the search's shaping term.
+        ``region_short`` (how far the closed-loop poles lie outside the
+        requirement region, relative to the problem's characteristic
+        frequency: the search's shaping term) and ``setpoint_b`` (the
+        set-point weight the shaped reference estimate chose; NaN: none).
         """
-        from synth.verify.estimate import estimate_loops
+        from synth.verify.estimate import REFERENCE, estimate_loops
 
+        shaped = self.weights is not None or self.static_correction
         out = []
         for model in self.models:
             est = estimate_loops(num_c, den_c, model, self.w, self.tau, self.band,
-                                 self.ts_floor, self.range_factors)
-            reg = np.zeros(num_c.shape[0])
+                                 self.ts_floor, self.range_factors, keep_modal=shaped)
+            n = num_c.shape[0]
+            reg = np.zeros(n)
+            b_rows = np.full(n, np.nan)
             idx = np.flatnonzero(est["stable"])
             if idx.size:
                 reg[idx] = np.sum(np.maximum(-self.region.margin(est["roots"][idx]), 0.0),
                                   axis=1) / self.w_char
+                if shaped and self.need_reference:
+                    fig, b = self._shaped_reference(est.pop("modal"))
+                    for key in REFERENCE:
+                        est[key] = est[key].copy()
+                        est[key][idx] = fig[key]
+                    b_rows[idx] = b
+            est.pop("modal", None)
             est["region_short"] = reg
+            est["setpoint_b"] = b_rows
             out.append(est)
         return out
 
     def details(self, X) -> dict[str, np.ndarray]:
         """Estimated metrics (worst over the models) and the objective (arrays of shape (B,))."""
-        from synth.rank import score_arrays
         from synth.verify.estimate import ESTIMATED, worst_over_models
 
         X = np.atleast_2d(np.asarray(X, dtype=float))
@@ -197,30 +305,32 @@ class SearchObjective:
         unstable_part = est["unstable_part"]
 
         out = {k: est[k] for k in ESTIMATED}
+        out["final_value"] = est["final_value"]
         out["stable_plant_gain_range"] = est["stable_plant_gain_range"]
+        out["setpoint_b"] = est["setpoint_b"]
         short = np.zeros(B)
         idx = np.flatnonzero(stable)
         if idx.size:
-            e = {k: v[idx] for k, v in est.items()}
+            e = {k: v[idx] for k, v in est.items() if k != "roots"}
             lo, hi = e["stable_plant_gain_range"][:, 0], e["stable_plant_gain_range"][:, 1]
             e["stable_plant_gain_range"] = (lo, hi)
             # penalties: the catalogue's normalised shortfall of each estimate (its worst
             # over the models) against its tightened limit, in catalogue order
-            sh = np.zeros(idx.size)
-            for entry, aim in self.targets:
-                if entry.kind == "contain":
-                    sh += e["range_fails"]
-                pen = entry.shortfall(e[entry.metric], aim)
-                if entry.cap is not None:
-                    pen = np.minimum(pen, entry.cap)
-                sh += pen
+            sh = self._shortfall(self.targets, e, idx.size)
+            if self.range_factors is not None:
+                # the estimated interval comes from crossings on a coarse grid: also count
+                # the test factors at which the eigenvalue-free kernel fails
+                sh += e["range_fails"]
             sh = np.where(e["ok"], sh, 5.0)
             feas = sh <= 0
-            sc = score_arrays(e["peak_sensitivity"], lo, hi, e["settling_time"],
-                              e["peak_control_effort"], self.family.n_params, self.refs,
-                              final_value=e["final_value"])
-            val = np.where(feas, np.minimum(sc, 0.999999),
-                           1.0 + sh + 0.1 * np.log1p(e["region_short"]))
+            # feasible: the objective at its worst case, squashed into [0, 1) (values first,
+            # then the fallback order of loops whose objective is unbounded)
+            with np.errstate(invalid="ignore", over="ignore"):
+                v = self.objective.values(e, self.scales)
+                fb = self.objective.fallbacks(e, self.scales)
+                sq = np.where(np.isfinite(v), 0.5 * v / (1.0 + v),
+                              np.where(np.isfinite(fb), 0.5 + 0.4999 * fb / (1.0 + fb), 0.9999))
+            val = np.where(feas, sq, 1.0 + sh + 0.1 * np.log1p(e["region_short"]))
             short[idx] = val
         f = np.where(stable, short, 10.0 + np.log1p(unstable_part / self.w_char))
         f = np.where(np.isfinite(f), f, 1e6)
@@ -334,20 +444,15 @@ def _converged(intermediate_result) -> bool:
     return bool(np.std(E) <= _DE_TOL * abs(float(np.mean(E))))
 
 
-def _polish_iterations(p: int, budget: int, n_models: int = 1) -> int:
-    """Compass iterations the polish gets: ``_POLISH_ITERATIONS``, fewer on a tight budget.
+def _polish_iterations(p: int, budget: int) -> int:
+    """Compass iterations the polish gets: all of them, or what half the work pays for.
 
-    Scoring every row on several plant models leaves fewer rows per family;
-    the polish then takes at most half of them (never fewer than
-    ``_MIN_POLISH_ITERATIONS``), so the evolution keeps generations of its own.
-    A single plant keeps the full polish (its runs are unchanged).
+    ``budget`` counts rows (a row scored on every plant model).  At a small
+    ``search.effort``, or with several plant models, the full polish would
+    leave the evolution few generations; half the rows then go to each.
     """
-    if n_models <= 1:
-        return _POLISH_ITERATIONS
-    per_iteration = (2 * p + 1) * (_N_POLISH + _N_PRIOR_POLISH)
-    fit = (budget // 2 - 20) // per_iteration
-    return int(max(_MIN_POLISH_ITERATIONS, min(_POLISH_ITERATIONS, fit)))
-
+    per = (2 * p + 1) * (_N_POLISH + _N_PRIOR_POLISH)
+    return max(1, min(_POLISH_ITERATIONS, (int(budget) // 2 - 20) // per))
 
 def _polish_reserve(p: int, iterations: int = _POLISH_ITERATIONS) -> int:
     """Work units kept for the polish: every compass iteration from every start, plus priors."""
@@ -364,7 +469,7 @@ class EvolveStrategy:
 
     name: str = "search"
     origin: str = ORIGIN
-    share: float = 0.68
+    share: float = 0.38
     order: int = 30
 
     def propose(self, problem, family, context) -> list:
@@ -393,7 +498,10 @@ class EvolveStrategy:
         # a work unit is one candidate scored on one plant model
         budget = int(context.work) // objective.n_models
         if budget < npop:
-            return []  # not even the initial population fits in the work allowance
+            if budget < 2 * p + 2:
+                return []  # not even a small sample fits in the work allowance
+            # too little work for the evolution: a smaller initial sample is the answer
+            npop = budget
         lo, hi = family.bounds()
         rng = np.random.default_rng(context.seed)
         init = _latin_hypercube(rng, npop, lo, hi)
@@ -402,7 +510,7 @@ class EvolveStrategy:
             init[i] = x
         # the evolution costs npop rows per generation plus the initial population
         # each generation costs npop rows, plus the initial population of each run
-        polish_iterations = _polish_iterations(p, budget, objective.n_models)
+        polish_iterations = _polish_iterations(p, budget)
         rows = budget - _polish_reserve(p, polish_iterations)
         generations = rows // npop - 1
         pops, energies_list, labels = [], [], []

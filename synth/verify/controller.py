@@ -20,7 +20,9 @@ from __future__ import annotations
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 
-__all__ = ["AntiWindup", "Controller", "ReferenceShaping"]
+import numpy as np
+
+__all__ = ["AntiWindup", "Controller", "ReferenceShaping", "setpoint_numerator"]
 
 
 @dataclass(frozen=True)
@@ -99,3 +101,92 @@ class Controller:
         if den is None:
             raise TypeError("compensator polynomials need both numerator and denominator")
         return cls(tuple(float(x) for x in num_or_controller), tuple(float(x) for x in den))
+
+    def reference_path(self) -> tuple[np.ndarray, np.ndarray]:
+        """The reference path ``C_r(s) = num_r / (den_extra * den)``: ``(num_r, den_extra)``.
+
+        The control law is ``U = C_r R - C Y``.  Without shaping ``C_r = C``
+        (``(num, [1])``); with set-point weights ``C_r`` has the loop's own
+        denominator (:func:`setpoint_numerator`, ``den_extra = [1]``); with a
+        prefilter ``C_r = F C`` (``(num_F num, den_F)``).  So the reference
+        response is ``Y/R = num_G num_r / (den_extra (den_C den_G + num_C num_G))``.
+        """
+        num = np.asarray(self.num, dtype=float)
+        s = self.shaping
+        if s is None:
+            return num, np.ones(1)
+        if s.setpoint_weights is not None:
+            b, c = s.setpoint_weights
+            return setpoint_numerator(num, np.asarray(self.den, dtype=float), b, c), np.ones(1)
+        return (np.polymul(np.asarray(s.numerator, dtype=float), num),
+                np.asarray(s.denominator, dtype=float))
+
+
+def setpoint_numerator(num, den, b: float, c: float) -> np.ndarray:
+    """Numerator over ``den`` of the reference path of ``C = num/den`` with set-point weights.
+
+    ``C`` is split into its integral, proportional and derivative parts,
+    ``C(s) = ki/s + kp + D(s)`` with ``ki`` the residue at a simple pole at
+    the origin (0 without one), ``kp`` the value at ``s = 0`` of what is left
+    and ``D(0) = 0``; the reference path is ``ki/s + b kp + c D(s)`` over the
+    same denominator (for a PID in parallel form ``kp + ki/s + kd s/(1 + s Tf)``
+    this is ``b kp + ki/s + c kd s/(1 + s Tf)``).
+
+    Parameters
+    ----------
+    num, den : array_like
+        The compensator, descending powers of s (``den`` with at most a simple
+        root at the origin).
+    b, c : float
+        Weights of the proportional and the derivative part.
+
+    Returns
+    -------
+    ndarray
+        Descending powers of s, over ``den`` (as long as ``den``).
+
+    References
+    ----------
+    .. [1] K. J. Astrom and T. Hagglund, *Advanced PID Control*, ISA, 2006,
+       sec. 3.4 (set-point weighting).
+    """
+    num = np.trim_zeros(np.asarray(num, dtype=float), "f")
+    den = np.trim_zeros(np.asarray(den, dtype=float), "f")
+    width = den.size
+    row = np.zeros((1, width))
+    row[0, width - num.size:] = num
+    return setpoint_numerators(row, den[None, :], b, c)[0]
+
+
+def setpoint_numerators(num, den, b, c) -> np.ndarray:
+    """:func:`setpoint_numerator` for a batch: rows of ``num`` and ``den`` of one shape.
+
+    ``num`` and ``den`` are (B, k) arrays padded on the left to the same
+    width ``k``, ``den`` monic or not, every row with a root at the origin
+    or none; ``b`` and ``c`` scalars or (B,) arrays.  Returns (B, k).
+    """
+    num = np.asarray(num, dtype=float)
+    den = np.asarray(den, dtype=float)
+    b = np.asarray(b, dtype=float).reshape(-1, 1) if np.ndim(b) else float(b)
+    c = np.asarray(c, dtype=float).reshape(-1, 1) if np.ndim(c) else float(c)
+    integral = bool(den[0, -1] == 0.0) and den.shape[1] > 1
+    d1 = den[:, :-1] if integral else den                # (B, k - 1) or (B, k)
+    if integral and np.any(d1[:, -1] == 0.0):
+        raise ValueError("set-point weights need at most one integrator in the compensator")
+    if integral:
+        ki = num[:, -1:] / d1[:, -1:]
+        rest = num.copy()
+        rest[:, 1:] -= ki * d1               # num - ki d1: its constant term cancels
+        q = rest[:, :-1]                     # ... so divide by s
+    else:
+        ki = np.zeros((num.shape[0], 1))
+        q = num
+    kp = q[:, -1:] / d1[:, -1:]
+    part = b * kp * d1 + c * (q - kp * d1)               # b kp + c D(s), over d1
+    if integral:
+        # ki d1 + s * part, over s d1 = den
+        out = np.zeros_like(num)
+        out[:, 1:] += ki * d1
+        out[:, :-1] += part
+        return out
+    return part

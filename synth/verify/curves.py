@@ -63,7 +63,8 @@ class LoopCurves:
     saturated: SaturatedLoop | None = None
 
 
-def curves(problem, num_c, den_c=None, t_end: float | None = None, plant=None) -> LoopCurves:
+def curves(problem, num_c, den_c=None, t_end: float | None = None, plant=None,
+           shaping=None) -> LoopCurves:
     """The curves of the loop around ``problem.plant`` with compensator ``num_c/den_c``.
 
     Parameters
@@ -80,6 +81,9 @@ def curves(problem, num_c, den_c=None, t_end: float | None = None, plant=None) -
     plant : synth.problem.plant.Plant, optional
         Another plant model of the problem (default ``problem.plant``), as
         :func:`synth.verify.verdict.plant_models` lists them.
+    shaping : synth.verify.controller.ReferenceShaping, optional
+        The design's reference shaping (the step response goes through it;
+        the frequency response does not depend on it).
 
     Returns
     -------
@@ -89,13 +93,18 @@ def curves(problem, num_c, den_c=None, t_end: float | None = None, plant=None) -
 
     plant = problem.plant if plant is None else plant
     controller = Controller.of(num_c, den_c)
+    if shaping is not None:
+        from dataclasses import replace
+
+        controller = replace(controller, shaping=shaping)
     nc, dc = trim(controller.num), trim(controller.den)
     _, _, char = loop_polynomials(plant, nc, dc)
     poles = np.roots(char) if char.size > 1 else np.zeros(0, complex)
     stable = bool(np.all(poles.real < 0))
     step = None
     if nc.size <= dc.size:
-        step = simulate_step(plant, nc, dc, t_end=t_end, requirements=problem.requirements)
+        step = simulate_step(plant, Controller(tuple(nc), tuple(dc), controller.shaping),
+                             t_end=t_end, requirements=problem.requirements)
     saturated = None
     if problem.actuator is not None and stable and nc.size <= dc.size:
         from synth.verify.saturated import simulate_saturated

@@ -11,9 +11,14 @@ compensator and one plant model per row, or one plant shared by every row):
   ``y(t) = T(0) + sum_i Res_i exp(p_i t)`` on a time grid scaled to each
   row's slowest pole (engine form: a dead time by its Pade form): overshoot,
   settling time, rise time, steady-state error, peak control effort;
+* the response to a unit load step at the plant input (``r = 0``,
+  ``Y/D = num_G den_C / char``) by the same expansion: load IAE (unbounded,
+  NaN, when it does not return to 0) and load peak;
 * ``L(jw)`` on a given frequency grid with the exact dead time: peak
-  sensitivity, phase margin, gain margin, and the plant-gain factors at the
-  phase crossovers (the estimated stable plant-gain range);
+  sensitivity, peak complementary sensitivity, noise gain ``max |C/(1+L)|``
+  (with a biproper compensator's high-frequency gain), phase margin, gain
+  margin, and the plant-gain factors at the phase crossovers (the estimated
+  stable plant-gain range);
 * optionally, at test factors of a plant-gain range, whether the
   eigenvalue-free kernel finds the loop stable.
 
@@ -41,12 +46,18 @@ import numpy as np
 from synth.numerics.poly import batch_polymul, left_pad
 from synth.problem.catalogue import METRICS
 
-__all__ = ["ESTIMATED", "PlantModel", "estimate_loops", "worst_over_models"]
+__all__ = ["ESTIMATED", "REFERENCE", "Modal", "PlantModel", "estimate_loops", "modal_response",
+           "step_figures", "worst_over_models"]
 
 #: The scalar metrics estimated (metric keys of the design JSON).
 ESTIMATED = ("overshoot_percent", "settling_time", "rise_time", "steady_state_error",
              "peak_control_effort", "peak_sensitivity", "phase_margin_deg", "gain_margin_db",
-             "min_damping_ratio")
+             "min_damping_ratio", "load_iae", "load_peak", "peak_complementary_sensitivity",
+             "noise_gain")
+
+#: The metrics of the reference step (what reference shaping changes).
+REFERENCE = ("overshoot_percent", "settling_time", "rise_time", "steady_state_error",
+             "peak_control_effort", "final_value")
 
 
 @dataclass(frozen=True, eq=False)
@@ -108,8 +119,73 @@ def _first_crossing(t, z, level):
     return np.where(any_hit, tt, np.inf)
 
 
+def step_figures(t, y, u, yss, band):
+    """Overshoot, settling time, rise time, steady-state error, peak effort and final value per row."""
+    scale = np.maximum(np.abs(yss), 1e-9)
+    sgn = np.where(yss >= 0, 1.0, -1.0)
+    os_ = np.maximum(0.0, np.max(sgn[:, None] * (y - yss[:, None]), axis=1)) / scale * 100
+    outside = np.abs(y - yss[:, None]) > band * scale[:, None]
+    last = (t.shape[1] - 1) - np.argmax(outside[:, ::-1], axis=1)
+    rows = np.arange(y.shape[0])
+    ts = np.where(outside.any(axis=1), t[rows, np.minimum(last + 1, t.shape[1] - 1)], 0.0)
+    z = sgn[:, None] * y / scale[:, None]
+    with np.errstate(invalid="ignore"):  # inf - inf: never rises
+        tr = _first_crossing(t, z, 0.9) - _first_crossing(t, z, 0.1)
+    tr = np.where(np.isfinite(tr), tr, np.inf)
+    return {"overshoot_percent": os_, "settling_time": ts, "rise_time": tr,
+            "steady_state_error": np.abs(1.0 - yss),
+            "peak_control_effort": np.max(np.abs(u), axis=1), "final_value": yss}
+
+
+def _trapezoid_abs(t, y):
+    """Per row: integral of |y| over the row's time grid (trapezoid, sign changes split)."""
+    y0, y1 = y[:, :-1], y[:, 1:]
+    a0, a1 = np.abs(y0), np.abs(y1)
+    cross = y0 * y1 < 0
+    with np.errstate(invalid="ignore", divide="ignore"):
+        seg = np.where(cross, (y0 * y0 + y1 * y1) / np.where(cross, a0 + a1, 1.0), a0 + a1)
+    return np.sum(0.5 * np.diff(t, axis=1) * seg, axis=1)
+
+
+@dataclass(frozen=True, eq=False)
+class Modal:
+    """The modal data of the stable rows of :func:`estimate_loops`, for further responses.
+
+    ``rows`` are the indices of the stable rows; ``r`` their closed-loop
+    poles, ``denom`` ``p char'(p)`` at them, ``E`` the modes ``exp(p t)`` on
+    the rows' time grids ``t``, ``c0`` ``char(0)``; ``gnum``/``gden`` the
+    plant rows (or the shared plant); ``num_c``/``den_c`` the compensators.
+    """
+
+    rows: np.ndarray
+    r: np.ndarray
+    denom: np.ndarray
+    E: np.ndarray
+    t: np.ndarray
+    c0: np.ndarray
+    gnum: np.ndarray
+    gden: np.ndarray
+    num_c: np.ndarray
+    den_c: np.ndarray
+
+
+def modal_response(modal: Modal, num) -> tuple[np.ndarray, np.ndarray]:
+    """``(y(t), y(inf))`` of ``num(s) / char(s)`` driven by a unit step, for the stable rows.
+
+    ``num`` is a batch of numerators (one per stable row), descending powers.
+    """
+    width = max(np.shape(num)[1], modal.r.shape[1] + 1)
+    n = left_pad(np.atleast_2d(num), width)
+    with np.errstate(all="ignore"):
+        yss = n[:, -1] / modal.c0
+        y = yss[:, None] + np.real(np.einsum("bn,bnt->bt", _polyval_rows(n, modal.r)
+                                             / modal.denom, modal.E))
+    return y, yss
+
+
 def estimate_loops(num_c, den_c, model: PlantModel, w, tau, band: float,
-                   ts_floor: float | None = None, range_factors=None) -> dict[str, np.ndarray]:
+                   ts_floor: float | None = None, range_factors=None,
+                   keep_modal: bool = False) -> dict[str, np.ndarray]:
     """Estimated metrics of a batch of loops (see the module docstring).
 
     Parameters
@@ -129,6 +205,9 @@ def estimate_loops(num_c, den_c, model: PlantModel, w, tau, band: float,
     range_factors : array_like, optional
         Plant-gain factors at which ``range_fails`` counts the eigenvalue-free
         kernel's failures (a fraction in [0, 1]).
+    keep_modal : bool
+        Also return ``modal`` (:class:`Modal`), so a caller can compute further
+        responses of the same loops (a shaped reference step) cheaply.
 
     Returns
     -------
@@ -175,41 +254,41 @@ def estimate_loops(num_c, den_c, model: PlantModel, w, tau, band: float,
         powers = np.arange(n, 0, -1)
         dch = ch[:, :-1] * powers
         c0 = ch[:, -1]
+        gnum = model.num if np.ndim(model.num) == 1 else model.num[idx]
+        dc = den_c[idx]
         nu = left_pad(batch_polymul(nc, gden), ch.shape[1])
         with np.errstate(all="ignore"):
             denom = r * _polyval_rows(dch, r)
-            ry = _polyval_rows(nl, r) / denom
-            ru = _polyval_rows(nu, r) / denom
-            yss = nl[:, -1] / c0
-            uss = nu[:, -1] / c0
             sig = np.min(-r.real, axis=1, initial=np.inf)  # a static loop has no poles
             horizon = np.where(np.isfinite(sig), (math.log(1.0 / band) + 6.0) / sig, 1.0)
             if ts_floor is not None:
                 horizon = np.maximum(horizon, 1.3 * ts_floor)
             t = horizon[:, None] * np.asarray(tau)[None, :]
             E = np.exp(r[:, :, None] * t[:, None, :])
-            y = yss[:, None] + np.real(np.einsum("bn,bnt->bt", ry, E))
-            u = uss[:, None] + np.real(np.einsum("bn,bnt->bt", ru, E))
-        ok = np.all(np.isfinite(y), axis=1) & np.all(np.isfinite(u), axis=1)
-        scale = np.maximum(np.abs(yss), 1e-9)
-        sgn = np.where(yss >= 0, 1.0, -1.0)
-        os_ = np.maximum(0.0, np.max(sgn[:, None] * (y - yss[:, None]), axis=1)) / scale * 100
-        outside = np.abs(y - yss[:, None]) > band * scale[:, None]
-        last = (t.shape[1] - 1) - np.argmax(outside[:, ::-1], axis=1)
-        rows = np.arange(idx.size)
-        ts = np.where(outside.any(axis=1), t[rows, np.minimum(last + 1, t.shape[1] - 1)], 0.0)
-        z = sgn[:, None] * y / scale[:, None]
-        with np.errstate(invalid="ignore"):  # inf - inf: never rises
-            tr = _first_crossing(t, z, 0.9) - _first_crossing(t, z, 0.1)
-        tr = np.where(np.isfinite(tr), tr, np.inf)
-        eff = np.max(np.abs(u), axis=1)
-        sse = np.abs(1.0 - yss)
+        modal = Modal(rows=idx, r=r, denom=denom, E=E, t=t, c0=c0, gnum=gnum, gden=gden,
+                      num_c=nc, den_c=dc)
+        y, yss = modal_response(modal, nl)
+        u, _ = modal_response(modal, nu)
+        # the load step at the plant input (r = 0): Y/D = num_G den_C / char
+        yd, yd_ss = modal_response(modal, batch_polymul(dc, gnum))
+        ok = (np.all(np.isfinite(y), axis=1) & np.all(np.isfinite(u), axis=1)
+              & np.all(np.isfinite(yd), axis=1))
+        fig = step_figures(t, y, u, yss, band)
+        load_iae = np.where(yd_ss == 0.0, _trapezoid_abs(t, yd), np.nan)
+        load_peak = np.max(np.abs(yd), axis=1)
         # frequency response with the exact delay
         s = 1j * np.asarray(w)
         with np.errstate(all="ignore"):
-            L = _polyval_grid(nc, s) / _polyval_grid(den_c[idx], s) * g_jw
+            C = _polyval_grid(nc, s) / _polyval_grid(dc, s)
+            L = C * g_jw
             S = 1.0 / np.abs(1.0 + L)
             ms = np.max(np.where(np.isfinite(S), S, 0.0), axis=1)
+            mt = np.max(np.where(np.isfinite(S), np.abs(L) * S, 1.0), axis=1)
+            noise = np.max(np.where(np.isfinite(S), np.abs(C) * S, 0.0), axis=1)
+            # the high-frequency gain of a biproper compensator is noise too
+            c_inf = np.where(dc[:, 0] != 0.0, nc[:, 0] / np.where(dc[:, 0] != 0, dc[:, 0], 1),
+                             0.0)
+            noise = np.maximum(noise, np.abs(c_inf))
             lm = np.log(np.abs(L))
             dist = np.degrees(np.abs(np.angle(-L)))  # angular distance from -1
             cross = np.sign(lm[:, :-1]) != np.sign(lm[:, 1:])
@@ -225,15 +304,16 @@ def estimate_loops(num_c, den_c, model: PlantModel, w, tau, band: float,
             hi = np.min(np.where(pcross & (lmag < 1), inv, np.inf), axis=1)
             lo = np.max(np.where(pcross & (lmag > 1), inv, 0.0), axis=1)
             gm_db = 20 * np.log10(hi)
-        est = {"overshoot_percent": os_, "settling_time": ts, "rise_time": tr,
-               "steady_state_error": sse, "peak_control_effort": eff,
-               "peak_sensitivity": ms, "phase_margin_deg": pm, "gain_margin_db": gm_db,
-               "min_damping_ratio": zeta}
+        est = {**fig, "peak_sensitivity": ms, "phase_margin_deg": pm, "gain_margin_db": gm_db,
+               "min_damping_ratio": zeta, "load_iae": load_iae, "load_peak": load_peak,
+               "peak_complementary_sensitivity": mt, "noise_gain": noise}
         for key in ESTIMATED:
             out[key][idx] = est[key]
         out["stable_plant_gain_range"][idx] = np.column_stack([lo, hi])
         out["final_value"][idx] = yss
         out["ok"][idx] = ok
+        if keep_modal:
+            out["modal"] = modal
         if range_factors is not None and len(range_factors):
             # the estimated interval comes from crossings on a coarse grid: also count the
             # test factors at which the eigenvalue-free kernel fails
@@ -254,13 +334,14 @@ def worst_over_models(estimates: list[dict[str, np.ndarray]]) -> dict[str, np.nd
     worst value by the catalogue's ``better`` direction (``METRICS``); the
     stable plant-gain range is the intersection; the final value is the one
     farthest from 1; the unstable parts add up.  Keys the catalogue does not
-    order, and ``roots``, come from the first model (the nominal plant).
+    order, ``roots`` and ``modal``, come from the first model (the nominal plant).
     """
     if len(estimates) == 1:
         return dict(estimates[0])
     first = estimates[0]
     out = dict(first)
-    stack = {k: np.stack([e[k] for e in estimates]) for k in first if k != "roots"}
+    stack = {k: np.stack([e[k] for e in estimates]) for k in first
+             if k not in ("roots", "modal")}
     out["stable"] = np.all(stack["stable"], axis=0)
     out["ok"] = np.all(stack["ok"], axis=0)
     out["unstable_part"] = np.sum(stack["unstable_part"], axis=0)

@@ -47,6 +47,11 @@ class LoopFrequency:
         Largest ``|1/(1+L(jw))|``.
     peak_frequency : float
         Where it occurs (rad/s).
+    peak_complementary_sensitivity : float
+        Largest ``|L/(1+L)|`` (Mt).
+    noise_gain : float
+        Largest ``|C/(1+L)|``: control action per unit of measurement noise,
+        the high-frequency limit of a biproper compensator included.
     phase_crossovers : tuple of float
         Frequencies where ``L(jw)`` is real and negative with ``|L| < 1``
         (where gain margins are read), ascending.
@@ -66,13 +71,22 @@ class LoopFrequency:
     peak_frequency: float
     phase_crossovers: tuple[float, ...]
     bandwidth: float | None
+    peak_complementary_sensitivity: float = math.nan
+    noise_gain: float = math.nan
 
     def metrics(self) -> dict[str, Any]:
         """The verdict's frequency metrics (see :func:`frequency_metrics`)."""
         return {"gain_margin_db": self.gain_margin_db, "phase_margin_deg": self.phase_margin_deg,
                 "delay_margin": self.delay_margin,
                 "crossover_frequency": self.crossover_frequency,
-                "peak_sensitivity": self.peak_sensitivity}
+                "peak_sensitivity": self.peak_sensitivity,
+                "peak_complementary_sensitivity": _finite(self.peak_complementary_sensitivity),
+                "noise_gain": _finite(self.noise_gain)}
+
+
+def _finite(v: float) -> float | None:
+    """``None`` for an unbounded peak (a pole of the closed loop on the axis)."""
+    return float(v) if math.isfinite(v) else None
 
 
 def frequency_grid(plant, num_c, den_c) -> np.ndarray:
@@ -118,7 +132,8 @@ def frequency_metrics(problem, num_c, den_c) -> dict[str, Any]:
     """Gain, phase and delay margins and the peak sensitivity, with the exact dead time.
 
     Returns a dict with ``gain_margin_db``, ``phase_margin_deg``,
-    ``delay_margin``, ``crossover_frequency`` and ``peak_sensitivity``
+    ``delay_margin``, ``crossover_frequency``, ``peak_sensitivity``,
+    ``peak_complementary_sensitivity`` and ``noise_gain``
     (``None`` where unbounded: no phase crossover below unit gain, no gain
     crossover).  See :mod:`synth.verify.verdict` for the definitions.
     """
@@ -164,17 +179,12 @@ def _analyse(plant, num_c, den_c, details: bool) -> LoopFrequency:
         val = np.polyval(lnum, s) / np.polyval(lden, s)
         return val * np.exp(-s * delay) if delay else val
 
+    rational = _scalar_ratio(ln, ld)
+
     def loop(w):
-        """L(jw) at one frequency: Horner in Python complex arithmetic (fast for scalars)."""
-        s = complex(0.0, w)
-        a = 0j
-        for c in ln:
-            a = a * s + c
-        b = 0j
-        for c in ld:
-            b = b * s + c
-        val = a / b if b != 0 else complex(math.inf, 0.0)
-        return val * cmath.exp(-s * delay) if delay else val
+        """L(jw) at one frequency (exact dead time)."""
+        val = rational(w)
+        return val * cmath.exp(-1j * w * delay) if delay else val
 
     w = frequency_grid(plant, nc, dc)
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
@@ -215,22 +225,66 @@ def _analyse(plant, num_c, den_c, details: bool) -> LoopFrequency:
         L0 = float(lnum[-1] / d0)
         if -1.0 < L0 < 0.0:
             gms.append(-1.0 / L0)
-    # peak sensitivity, refined around the grid maximum
+    # peaks of |S|, |T| and |C S|, each refined around its grid maximum
+    cw = np.polyval(nc, 1j * w) / np.polyval(dc, 1j * w)
+    comp = _scalar_ratio(nc.tolist(), dc.tolist())
+
     with np.errstate(divide="ignore", invalid="ignore"):
         S = np.where(finite, 1.0 / np.abs(1.0 + L), 0.0)
+        T = np.where(finite, np.abs(L / (1.0 + L)), 1.0)
+        N = np.where(finite, np.abs(cw / (1.0 + L)), 0.0)
     ms, w_peak = refined_peak(w, S, lambda x: 1.0 / abs(1.0 + loop(x)))
-    if plant.dead_time == 0 and trim(nc).size + plant.rational_num.size == \
-            trim(dc).size + plant.rational_den.size:  # biproper loop: the high-frequency end
-        linf = nc[0] * plant.rational_num[0] / (dc[0] * plant.rational_den[0])
-        if 1.0 + linf != 0.0 and 1.0 / abs(1.0 + linf) > ms:
-            ms, w_peak = 1.0 / abs(1.0 + linf), float(w[-1])
+    mt, _ = refined_peak(w, T, lambda x: abs(loop(x) / (1.0 + loop(x))))
+    noise, _ = refined_peak(w, N, lambda x: abs(comp(x) / (1.0 + loop(x))))
+    # the low-frequency end: T(0) and C(0)/(1 + L(0)) from the constant coefficients
+    char0 = float(lden[-1] + lnum[-1])
+    if char0 != 0.0:
+        mt = max(mt, abs(float(lnum[-1]) / char0))
+        noise = max(noise, abs(float(nc[-1] * plant.rational_den[-1]) / char0))
+    # the high-frequency end: a biproper loop tends to L_inf (times exp(-jwT) with a dead
+    # time, whose phase then sweeps every angle, so the peaks take their worst over it)
+    c_inf = nc[0] / dc[0] if nc.size == dc.size else 0.0
+    g_inf = (plant.rational_num[0] / plant.rational_den[0]
+             if plant.rational_num.size == plant.rational_den.size else 0.0)
+    l_inf = c_inf * g_inf
+    if l_inf != 0.0 or c_inf != 0.0:
+        if delay:
+            den_inf = 1.0 - abs(l_inf) if abs(l_inf) < 1.0 else 0.0
+        else:
+            den_inf = abs(1.0 + l_inf)
+        with np.errstate(divide="ignore"):
+            tail = (1.0 / den_inf if den_inf > 0 else math.inf,
+                    abs(l_inf) / den_inf if den_inf > 0 else math.inf,
+                    abs(c_inf) / den_inf if den_inf > 0 else math.inf)
+        if l_inf != 0.0 and tail[0] > ms:
+            ms, w_peak = tail[0], float(w[-1])
+        if l_inf != 0.0:
+            mt = max(mt, tail[1])
+        noise = max(noise, tail[2])
     bandwidth = _bandwidth(L, w, lw, loop, brentq, lnum, lden) if details else None
     return LoopFrequency(
         w=w, loop=L, crossover_frequency=wcs[int(np.argmin(pms))] if pms else None,
         phase_margin_deg=min(pms) if pms else None,
         gain_margin_db=20.0 * math.log10(min(gms)) if gms else None,
         delay_margin=min(dms) if dms else None, peak_sensitivity=ms, peak_frequency=w_peak,
-        phase_crossovers=tuple(sorted(wps)), bandwidth=bandwidth)
+        phase_crossovers=tuple(sorted(wps)), bandwidth=bandwidth,
+        peak_complementary_sensitivity=mt, noise_gain=noise)
+
+
+def _scalar_ratio(num: list, den: list):
+    """``w -> num(jw) / den(jw)`` by Horner in Python complex arithmetic (fast for scalars)."""
+
+    def at(w):
+        s = complex(0.0, w)
+        a = 0j
+        for c in num:
+            a = a * s + c
+        b = 0j
+        for c in den:
+            b = b * s + c
+        return a / b if b != 0 else complex(math.inf, 0.0)
+
+    return at
 
 
 def gain_crossovers(w, L, loop) -> tuple[list[float], list[float], list[float]]:

@@ -276,7 +276,7 @@ def evaluate_model(problem, plant, controller, exact_delay: bool = True,
     from synth.locus.core import interval_containing, stable_gain_intervals
     from synth.problem.region import Region
     from synth.verify.frequency import loop_frequency
-    from synth.verify.simulation import simulate_step
+    from synth.verify.simulation import load_metrics, loop_responses
 
     if problem.sampling is not None:
         # the controller runs sampled: judge the sampled-data loop it makes
@@ -332,9 +332,12 @@ def evaluate_model(problem, plant, controller, exact_delay: bool = True,
         iv = interval_containing(stable_gain_intervals(num_l, den_l), 1.0)
         if iv is not None:
             metrics["stable_plant_gain_range"] = [iv[0], iv[1]]
-        resp = simulate_step(plant, nc, dc, requirements=req, exact_delay=exact_delay)
-        exact = resp.exact_delay
-        metrics.update(step_metrics(resp, req.settling_band))
+        # the reference step (through the reference shaping) and the load step at the
+        # plant input, in one simulation
+        resp = loop_responses(plant, controller, requirements=req, exact_delay=exact_delay)
+        exact = resp.reference.exact_delay
+        metrics.update(step_metrics(resp.reference, req.settling_band))
+        metrics.update(load_metrics(resp.load))
         metrics.update(loop_frequency(plant, nc, dc).metrics())
         notes.extend(_slow_hidden_poles(poles, num_l, region))
     linear: dict[str, Any] = {}

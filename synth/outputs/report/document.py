@@ -391,6 +391,13 @@ def _ranking_section(document: DesignDocument) -> Section:
     n_ok = sum(1 for d in designs if d.feasible)
     blocks.insert(0, Para(f"{len(designs)} designs kept, {n_ok} meeting every requirement. "
                           "Feasible designs come first.", "good" if n_ok else "bad"))
+    if document.objective:
+        from synth.problem.objectives import OBJECTIVES
+
+        obj = OBJECTIVES.get(document.objective)
+        what = f" ({obj.label})" if obj is not None else ""
+        blocks.insert(1, Para(f"Among them the objective '{document.objective}'{what} decides "
+                              "the order (docs/methods.md, Objectives)."))
     return Section("ranking", SECTION_TITLES["ranking"], tuple(blocks))
 
 
@@ -421,6 +428,15 @@ def _placeholder(target, message: str) -> None:
                 fontsize=10, color=_COLORS["muted"])
 
 
+def _shaping_text(design: DesignRecord) -> str:
+    """The design's reference shaping in words ("none" without one)."""
+    from synth.outputs.run import shaping_text
+
+    sh = design.shaping()
+    return "none" if sh is None else shaping_text(sh).replace("reference: ", "") + (
+        f" ({sh.method})" if sh.method else "")
+
+
 def _design_section(report: ReportInput, design: DesignRecord, fig: DesignFigures) -> Section:
     from synth.outputs.report.design_figures import (
         draw_bode,
@@ -449,6 +465,7 @@ def _design_section(report: ReportInput, design: DesignRecord, fig: DesignFigure
         ("compensator zeros", _cplx_list(comp.zeros)),
         ("compensator poles", _cplx_list(comp.poles)),
         ("closed-loop poles", _cplx_list(design.closed_loop_poles)),
+        ("reference shaping", _shaping_text(design)),
     )))
     given = req.given()
     rows = []
