@@ -66,6 +66,7 @@ References
 from __future__ import annotations
 
 import dataclasses
+import json
 import math
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
@@ -75,8 +76,9 @@ from synth.errors import OptionError
 
 __all__ = ["BINDING_ROOM", "DEFAULT_LEVELS", "FRONTIER_EFFORT", "MAX_LEVELS", "MEASURE",
            "MEASURES", "RELAX_FRACTION", "SCHEMA", "FrontierPoint", "FrontierResult",
-           "FrontierTask", "Measure", "Relaxation", "frontier_point", "frontier_tasks",
-           "parse_levels", "relaxed_limit", "run_frontier", "with_limit"]
+           "FrontierTask", "Measure", "Relaxation", "binding_requirements", "frontier_point",
+           "frontier_tasks", "load_frontier", "parse_levels", "read_frontier", "relax",
+           "relaxed_limit", "run_frontier", "with_limit"]
 
 #: The JSON schema name of :meth:`FrontierResult.to_json`.
 SCHEMA = "synth.frontier/1"
@@ -793,3 +795,55 @@ def run_frontier(problem, levels: Sequence[float] | None = None, effort: float |
     return FrontierResult(problem=problem, levels=levels, effort=eff, structures=structures,
                           own=own, best=best, relaxations=tuple(relaxations),
                           slack=tuple(slack), best_note=note)
+
+
+# ----------------------------------------------------------------------------------------------
+# reading a frontier document back (reports)
+# ----------------------------------------------------------------------------------------------
+
+
+def _is_number(x) -> bool:
+    return isinstance(x, (int, float)) and not isinstance(x, bool) and math.isfinite(x)
+
+
+def read_frontier(doc, source: str = "<frontier>") -> dict:
+    """Check a ``synth.frontier/1`` document for what a picture or a report reads.
+
+    Returns the document itself; raises :class:`synth.errors.InputError`
+    naming the source and the first field that is wrong (schema, the
+    ``structures`` mapping of lists of points with a numeric ``level`` and a
+    numeric or null ``value``, the ``relaxations`` list).
+    """
+    from synth.errors import InputError
+
+    if not isinstance(doc, dict) or doc.get("schema") != SCHEMA:
+        raise InputError(f"not a {SCHEMA} document", source, "schema")
+    structures = doc.get("structures")
+    if not isinstance(structures, dict):
+        raise InputError("must be an object of structure name -> list of points", source,
+                         "structures")
+    for name, rows in structures.items():
+        if not isinstance(rows, list):
+            raise InputError("must be a list of points", source, f"structures.{name}")
+        for i, r in enumerate(rows):
+            key = f"structures.{name}[{i}]"
+            if not isinstance(r, dict) or not _is_number(r.get("level")):
+                raise InputError("needs a numeric level", source, key)
+            if r.get("value") is not None and not _is_number(r["value"]):
+                raise InputError("value must be a number or null", source, key)
+    if not isinstance(doc.get("relaxations", []), list):
+        raise InputError("must be a list", source, "relaxations")
+    return doc
+
+
+def load_frontier(path) -> dict:
+    """Read and check a ``synth.frontier/1`` JSON file (:func:`read_frontier`)."""
+    from synth.errors import InputError
+    from synth.problem.source import read_input_text
+
+    text = read_input_text(path, kind="frontier JSON")
+    try:
+        doc = json.loads(text)
+    except ValueError as err:
+        raise InputError(f"not JSON ({err})", str(path)) from None
+    return read_frontier(doc, str(path))
