@@ -70,6 +70,7 @@ import json
 import math
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
+from types import MappingProxyType
 from typing import Any
 
 from synth.errors import OptionError
@@ -147,17 +148,23 @@ class Measure:
 
 
 #: The value of each objective in the unit of its headline metric (module docstring).
-MEASURES: Mapping[str, Measure] = {m.objective: m for m in (
+MEASURES: Mapping[str, Measure] = MappingProxyType({m.objective: m for m in (
     Measure("disturbance", "load_iae", "iae", "load-step IAE"),
     Measure("balanced", "load_iae", "iae", "load-step IAE (weighted by the robustness factor)"),
     Measure("speed", "settling_time", "time", "settling time"),
     Measure("robustness", "peak_sensitivity", None, "peak sensitivity"),
     Measure("effort", "peak_control_effort", "gain", "peak control effort plus noise gain"),
-)}
+)})
 
 
 def _measure(problem) -> Measure:
-    return MEASURES[problem.search.objective]
+    """The objective's :class:`Measure`; an objective not listed keeps its normalised value."""
+    name = problem.search.objective
+    if name in MEASURES:
+        return MEASURES[name]
+    from synth.problem.objectives import objective
+
+    return Measure(name, objective(name).metrics[0], None, f"{name} objective (normalised)")
 
 
 def _physical_value(problem, metrics: Mapping[str, Any]) -> float:

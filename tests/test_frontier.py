@@ -39,12 +39,13 @@ from benchmarks import peers
 from independent import independent_check
 
 from synth.cli import main
-from synth.errors import OptionError
+from synth.errors import InputError, OptionError
 from synth.frontier import (
     MEASURE_KEY,
     SCHEMA,
     binding_requirements,
     frontier_point,
+    load_frontier,
     parse_levels,
     relax,
     relaxed_limit,
@@ -295,3 +296,8 @@ def test_cli_json_svg_and_same_json_when_run_twice_at_once(tmp_path):
     doc = json.loads(a)
     assert doc["relaxations"] and doc["relaxations"][0]["from"] is not None
     assert math.isfinite(doc["structures"]["PI"][0]["value"])
+    assert load_frontier(tmp_path / "0.json") == doc
+    doc["structures"]["PI"][0]["level"] = "high"
+    (tmp_path / "bad.json").write_text(json.dumps(doc))
+    with pytest.raises(InputError, match=r"structures\.PI\[0\]"):
+        load_frontier(tmp_path / "bad.json")
