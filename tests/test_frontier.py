@@ -262,9 +262,9 @@ def test_cli_checks_output_paths_before_work(tmp_path, capsys, monkeypatch):
 
 
 def test_cli_exit_3_when_no_level_is_feasible(tmp_path, capsys):
-    # unstable pole p = 1.1 and zero z = 1: Ms >= (1.1 + 1)/(1.1 - 1) = 21 for every design
+    # unstable pole p = 2.3 and zero z = 2: Ms >= (2.3 + 2)/(2.3 - 2) = 14.3 for every design
     f = tmp_path / "hard.toml"
-    f.write_text('[plant]\nexpression = "(s - 1)/((s - 1.1)*(s + 3))"\n\n[requirements]\n'
+    f.write_text('[plant]\nexpression = "(s - 2)/((s - 2.3)*(s + 5))"\n\n[requirements]\n'
                  'max_peak_sensitivity = 1.5\n\n[search]\nstructures = ["PI"]\neffort = 0.05\n')
     code, out, _ = _cli(["frontier", str(f), "--levels", "1.2,2", "--json",
                          str(tmp_path / "f.json"), "--plot", str(tmp_path / "f.png")], capsys)
