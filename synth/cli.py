@@ -6,7 +6,8 @@ are imported inside the commands so that ``synth --help`` starts fast.
 
 Errors a user can cause (bad file, bad option) end as one line on standard
 error and exit code 2; ``design`` exits 3 when the run completed but no design
-meets every requirement.
+meets every requirement, ``frontier`` when no structure has a feasible design
+at any level.
 """
 
 from __future__ import annotations
@@ -238,6 +239,44 @@ def design(
                 written.append(str(path))
                 typer.echo(f"report written to {path}")
     if not run.any_feasible:
+        raise typer.Exit(EXIT_NO_FEASIBLE)
+
+
+@app.command()
+def frontier(
+    file: str = typer.Argument(..., metavar="FILE", help="Requirements file (TOML)."),
+    json_out: str | None = typer.Option(None, "--json", help="Write the synth.frontier/1 JSON here."),
+    plot: str | None = typer.Option(None, "--plot", help="Draw the frontier (.png or .svg)."),
+    levels: str | None = typer.Option(
+        None, "--levels", help="Peak-sensitivity levels, comma-separated, increasing "
+        "(default 1.2,1.4,1.6,1.8,2.0)."),
+) -> None:
+    """Best objective value per structure as the Ms limit moves, and what relaxing each binding requirement buys."""
+    from synth.frontier import parse_levels
+
+    chosen = parse_levels(levels) if levels is not None else None
+    check_output_file(json_out, "--json")
+    check_output_file(plot, "--plot", (".png", ".svg"))
+    written: list[str] = []
+    with _interruptible(written):
+        problem = _load(file)
+        from synth.frontier import run_frontier
+        from synth.outputs.progress import terminal_progress
+        from synth.outputs.text import show
+
+        with _about(problem), terminal_progress("frontier") as progress:
+            result = run_frontier(problem, levels=chosen, progress=progress)
+        show(result.text())
+        doc = result.to_json()
+        if json_out:
+            _write_json(json_out, doc, written)
+        if plot:
+            from synth.outputs.report.frontier_plot import plot_frontier
+
+            plot_frontier(doc, plot)
+            written.append(plot)
+            typer.echo(f"picture written to {plot}")
+    if not result.any_feasible:
         raise typer.Exit(EXIT_NO_FEASIBLE)
 
 
