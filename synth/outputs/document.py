@@ -268,6 +268,47 @@ class DesignRecord:
         """Whether the document gives this metric (possibly as ``null``)."""
         return key in self.metrics or key == "gain"
 
+    def shaping(self, source: str = "<design>"):
+        """The design's reference shaping as a :class:`synth.verify.controller.ReferenceShaping`.
+
+        From the contract's ``reference_filter`` (a prefilter ``{numerator,
+        denominator}`` or ``{setpoint_weights: {b, c}}``) or a design-level
+        ``setpoint_weights``; ``None`` without one.
+
+        Raises
+        ------
+        InputError
+            A malformed object, naming ``source`` and the field.
+        """
+        from synth.verify.controller import ReferenceShaping
+
+        key = f"designs[{self.index}]"
+        rf, sw = self.reference_filter, self.setpoint_weights
+        method = rf.get("method") if rf is not None and isinstance(rf.get("method"), str) else ""
+        if rf is not None and "setpoint_weights" in rf:
+            if sw is not None:
+                raise InputError("set-point weights are given twice (also in reference_filter)",
+                                 source, f"{key}.setpoint_weights")
+            sw = rf["setpoint_weights"]
+            swkey = f"{key}.reference_filter.setpoint_weights"
+            rf = None
+        else:
+            swkey = f"{key}.setpoint_weights"
+        if rf is not None:
+            if sw is not None:
+                raise InputError("give a prefilter or set-point weights, not both", source,
+                                 f"{key}.reference_filter")
+            num = _coefficients(thaw(rf.get("numerator")), source,
+                                f"{key}.reference_filter.numerator", zero_ok=False)
+            den = _coefficients(thaw(rf.get("denominator")), source,
+                                f"{key}.reference_filter.denominator", zero_ok=False)
+            return ReferenceShaping(numerator=num, denominator=den, method=method or "prefilter")
+        if sw is not None:
+            return ReferenceShaping(setpoint_weights=_weights(sw, self.compensator, source, swkey),
+                                    method=method or "set-point weights")
+        return None
+
+
 @dataclass(frozen=True)
 class DesignDocument:
     """A ``synth.design/1`` document.
@@ -320,33 +361,11 @@ class DesignDocument:
         InputError
             A malformed shaping or anti-windup object, naming the field.
         """
-        from synth.verify.controller import AntiWindup, Controller, ReferenceShaping
+        from synth.verify.controller import AntiWindup, Controller
 
         key = f"designs[{design.index}]"
         c = design.compensator
-        shaping = None
-        rf, sw = design.reference_filter, design.setpoint_weights
-        if rf is not None and "setpoint_weights" in rf:
-            if sw is not None:
-                raise InputError("set-point weights are given twice (also in reference_filter)",
-                                 self.source, f"{key}.setpoint_weights")
-            sw = rf["setpoint_weights"]
-            swkey = f"{key}.reference_filter.setpoint_weights"
-            rf = None
-        else:
-            swkey = f"{key}.setpoint_weights"
-        if rf is not None:
-            if sw is not None:
-                raise InputError("give a prefilter or set-point weights, not both", self.source,
-                                 f"{key}.reference_filter")
-            num = _coefficients(thaw(rf.get("numerator")), self.source,
-                                f"{key}.reference_filter.numerator", zero_ok=False)
-            den = _coefficients(thaw(rf.get("denominator")), self.source,
-                                f"{key}.reference_filter.denominator", zero_ok=False)
-            shaping = ReferenceShaping(numerator=num, denominator=den, method="prefilter")
-        elif sw is not None:
-            shaping = ReferenceShaping(setpoint_weights=_weights(sw, c, self.source, swkey),
-                                       method="set-point weights")
+        shaping = design.shaping(self.source)
         aw = None
         if design.anti_windup is not None:
             awkey = f"{key}.anti_windup"
