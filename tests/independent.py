@@ -91,6 +91,9 @@ def reference_path(nc, dc, shaping):
 
 def independent_check(problem, design):
     """Re-verify one feasible design without synth: numpy.roots, scipy.signal."""
+    if problem.sampling is not None:
+        # a [sampling] run is judged on its sampled-data loop
+        return independent_sampled_check(problem, design)
     req = problem.requirements
     c = design["compensator"]
     nc, dc = np.asarray(c["numerator"]), np.asarray(c["denominator"])
