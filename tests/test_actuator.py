@@ -359,8 +359,10 @@ def test_bundled_pump_case_top_design_holds_through_the_limits(pump_run):
     case, res, doc = pump_run
     assert res.returncode == 0, res.stderr
     assert doc["actuator"]["limits"] == [0.0, 100.0]
-    top = doc["designs"][0]
-    assert top["feasible"] and top["structure"] in ("PI", "PID")
+    assert doc["designs"][0]["feasible"]
+    # the best PI of the list: its law is the textbook one re-simulated below
+    top = next(d for d in doc["designs"] if d["structure"] == "PI")
+    assert top["feasible"]
     aw = top["anti_windup"]
     assert aw["scheme"] == "back-calculation" and aw["parameters"]["tracking_time"] > 0
     # re-simulate the top design without synth: the plant 6/((1.5 s+1)(4 s+1)) and the
