@@ -1,7 +1,7 @@
 """Step-test fitting (synth.problem.fit) checked against outside references.
 
 References used here:
-* scipy.signal.lsim (linear interpolation of the input between samples) for
+* scipy.signal.lti.output (linear interpolation of the input between samples) for
   the simulation of every model, with the dead time as an exact shift by a
   whole number of steps of a fine grid;
 * the two-point methods of Smith (1972) and Sundaresan and Krishnaswamy
@@ -43,7 +43,7 @@ def run_synth(*args, cwd=None):
 
 
 # ---------------------------------------------------------------------------
-# reference data: scipy.signal.lsim on a fine grid, exact delay by shifting
+# reference data: scipy.signal.lti.output on a fine grid, exact delay by shifting
 # ---------------------------------------------------------------------------
 
 def _den(lags, integrating):
@@ -55,7 +55,7 @@ def _den(lags, integrating):
 
 def reference_test(gain, lags, dead_time, integrating, *, rng, samples=500, t_scale=1.0,
                    noise=0.01, uneven=True, duration=None, y_rest=40.0, u_rest=20.0):
-    """A bump test simulated by scipy.signal.lsim; the times are multiplied by t_scale."""
+    """A bump test simulated by scipy.signal.lti.output; the times are multiplied by t_scale."""
     tc = max([*lags, dead_time, 1.0])
     duration = duration or 8.0 * (sum(lags) + dead_time + (4.0 if integrating else 0.0)) + tc
     fine = 20_000
@@ -65,7 +65,7 @@ def reference_test(gain, lags, dead_time, integrating, *, rng, samples=500, t_sc
     dt = tf[1] - tf[0]
     t_step = 0.1 * duration
     du = np.where(tf >= t_step, 2.0, 0.0)
-    _, y, _ = signal.lsim(([gain], _den(lags, integrating)), du, tf)
+    _, y, _ = signal.lti([gain], _den(lags, integrating)).output(du, tf)
     shift = int(round(dead_time / dt))
     y = np.concatenate([np.zeros(shift), y[: y.size - shift]])
     if uneven:
@@ -98,10 +98,10 @@ CASES = [
 
 
 @pytest.mark.parametrize("kind,lags,integrating", CASES)
-def test_simulation_matches_scipy_lsim(kind, lags, integrating):
+def test_simulation_matches_scipy_lti_output(kind, lags, integrating):
     t = np.linspace(0.0, 10.0, 2001)
     u = np.where(t >= 1.0, 1.0, 0.0) + 0.3 * np.sin(t) * (t > 3.0)
-    _, ref, _ = signal.lsim(([1.0], _den(lags, integrating)), u, t)
+    _, ref, _ = signal.lti([1.0], _den(lags, integrating)).output(u, t)
     scale = np.max(np.abs(ref))
     assert np.max(np.abs(simulate(kind, lags, 0.0, t, u) - ref)) <= 1e-11 * scale
     # a dead time of 100 grid steps is an exact shift of the reference
@@ -109,11 +109,11 @@ def test_simulation_matches_scipy_lsim(kind, lags, integrating):
     assert np.max(np.abs(simulate(kind, lags, 0.5, t, u) - delayed)) <= 1e-11 * scale
 
 
-def test_simulation_on_uneven_samples_matches_lsim_on_a_fine_grid():
+def test_simulation_on_uneven_samples_matches_scipy_on_a_fine_grid():
     rng = np.random.default_rng(4)
     tf = np.linspace(0.0, 20.0, 40_001)
     u = np.where(tf >= 2.0, 1.0, 0.0)
-    _, ref, _ = signal.lsim(([1.0], np.polymul([3.0, 1.0], [0.8, 1.0])), u, tf)
+    _, ref, _ = signal.lti([1.0], np.polymul([3.0, 1.0], [0.8, 1.0])).output(u, tf)
     idx = np.unique(np.concatenate([[0, 40_000, 3999, 4000],
                                     rng.choice(np.arange(1, 40_000), 300, replace=False)]))
     got = simulate("lag2", (3.0, 0.8), 0.0, tf[idx], u[idx])

@@ -2,7 +2,7 @@
 
 The MIGO optimum against a brute-force (kp, ki) grid whose Ms comes from
 numpy.polyval and whose stability from numpy.roots; the load-step simulator
-against scipy.signal.lsim (no delay) and a scipy.integrate.solve_ivp
+against scipy.signal.lti.output (no delay) and a scipy.integrate.solve_ivp
 method-of-steps solution (exact delay); IE = 1/ki after a load step (common
 practice, Astrom and Hagglund); Ms, Mt and the noise gain against
 scipy.signal.freqresp on a very dense grid; the Nyquist count against
@@ -96,9 +96,9 @@ def test_migo_against_brute_force_grid(name):
 # ----------------------------------------------------------------------------
 
 
-def test_load_response_without_delay_against_lsim():
+def test_load_response_without_delay_against_scipy():
     # AMIGO PI on 1/(s+1)^4: Y/D = G/(1 + C G) = N Dc / (D Dc + N Nc), by numpy.polymul,
-    # simulated with scipy.signal.lsim on a fine grid.
+    # simulated with scipy.signal.lti.output on a fine grid.
     p = _plant("lags-n4")
     t = amigo(half_rule(p.num, p.den, 0.0, order=1), "PI")
     nc, dc = t.transfer_function()
@@ -106,7 +106,7 @@ def test_load_response_without_delay_against_lsim():
     num = np.polymul(p.num, dc)
     den = np.polyadd(np.polymul(p.den, dc), np.polymul(p.num, nc))
     tt = np.linspace(0.0, r.horizon, 80001)
-    _, y, _ = signal.lsim((num, den), np.ones_like(tt), tt)
+    _, y, _ = signal.lti(num, den).output(np.ones_like(tt), tt)
     assert r.settled[0]
     assert r.iae[0] == pytest.approx(np.trapezoid(np.abs(y), tt), rel=1e-5)
     assert r.peak[0] == pytest.approx(np.max(np.abs(y)), rel=1e-4)

@@ -2,7 +2,7 @@
 
 Every number below is invented for the demo: round values of the kind one
 meets on process units and drives, not measurements of any real plant.  Each
-test is simulated with scipy.signal.lsim on a fine uniform grid (the input
+test is simulated with scipy.signal.lti.output on a fine uniform grid (the input
 piecewise linear between grid points), the dead time is an exact shift by a
 whole number of grid steps, and the result is sampled (evenly or unevenly),
 offset and overlaid with white noise from a fixed seed.  Run from the
@@ -96,7 +96,7 @@ def simulate(loop: Loop, rng: np.random.Generator) -> tuple[np.ndarray, ...]:
         den = np.polymul(den, [tc, 1.0])
     if loop.integrating:
         den = np.polymul(den, [1.0, 0.0])
-    _, y, _ = signal.lsim(([loop.gain], den), du, tf)
+    _, y, _ = signal.lti([loop.gain], den).output(du, tf)
     shift = int(round(loop.dead_time / dt))
     y = np.concatenate([np.zeros(shift), y[: y.size - shift]])
     if loop.uneven:

@@ -145,17 +145,28 @@ class ZMap:
         s = np.asarray(s, dtype=complex)
         return (self.c + s) / (self.c - s)
 
-    def zpk(self, zeros, poles, gain: float, what: str = "the compensator"):
-        """Map ``gain * prod(s - zeros) / prod(s - poles)`` to z (:func:`scipy.signal.bilinear_zpk`).
+    def factors(self, zeros, poles, gain: float, what: str = "the compensator"):
+        """Map ``gain * prod(s - zeros) / prod(s - poles)`` to z, factor by factor.
+
+        Each root goes through the map ``z = (c + s)/(c - s)``; the
+        ``len(poles) - len(zeros)`` zeros at infinity go to ``z = -1``; the gain
+        becomes ``gain * prod(c - zeros) / prod(c - poles)``.  Mapping the
+        factors rather than the polynomial coefficients keeps a compensator
+        with widely spread roots well conditioned (tests/test_discrete.py checks
+        it against :func:`scipy.signal.cont2discrete` with ``method="bilinear"``
+        on the coefficients).
 
         Raises
         ------
         InputError
             An improper part (more zeros than poles: it has no discrete form
             without a filter), or a pole at ``s = c`` (sent to infinity).
-        """
-        from scipy.signal import bilinear_zpk
 
+        References
+        ----------
+        A. Tustin, "A method of analysing the behaviour of linear systems in
+        terms of time series", J. IEE 94(IIA), 1947.
+        """
         z = np.asarray(zeros, dtype=complex)
         p = np.asarray(poles, dtype=complex)
         if z.size > p.size:
@@ -165,9 +176,10 @@ class ZMap:
         if p.size and np.any(np.abs(p - c) <= 1e-12 * c):
             raise InputError(f"{what} has a pole at s = {c:g}, where Tustin's map is singular; "
                              "change the sample time")
-        # bilinear_zpk substitutes s = 2 fs (z - 1)/(z + 1): fs = c / 2 gives this map
-        zd, pd, kd = bilinear_zpk(z, p, gain, fs=c / 2.0)
-        return np.asarray(zd, dtype=complex), np.asarray(pd, dtype=complex), float(np.real(kd))
+        zd = np.concatenate([self.point(z), -np.ones(p.size - z.size, dtype=complex)])
+        pd = self.point(p)
+        kd = gain * np.prod(c - z) / np.prod(c - p)
+        return zd, pd, float(np.real(kd))
 
     def describe(self) -> str:
         """The method in words, for headers and reports."""
@@ -886,7 +898,7 @@ def discrete_controller(controller, zmap: ZMap, *, compute_delay: float = 0.0,
                              "discrete form; give its derivative action a filter", source, key)
         zs = scaled_roots(num) if num.size > 1 else np.zeros(0, complex)
         ps = scaled_roots(den) if den.size > 1 else np.zeros(0, complex)
-        zd, pd, kd = zmap.zpk(zs, ps, float(num[0] / den[0]))
+        zd, pd, kd = zmap.factors(zs, ps, float(num[0] / den[0]))
 
     # -- anti-windup: which poles it tracks and where they go ---------------------------------
     scheme, params, tracked, target = None, {}, np.zeros(0, complex), None
@@ -974,7 +986,7 @@ def discrete_controller(controller, zmap: ZMap, *, compute_delay: float = 0.0,
         fmap = zmap if zmap.method != "direct" else ZMap("tustin", zmap.period)
         fz = scaled_roots(fn) if fn.size > 1 else np.zeros(0, complex)
         fp = scaled_roots(fd) if fd.size > 1 else np.zeros(0, complex)
-        fzd, fpd, fkd = fmap.zpk(fz, fp, float(fn[0] / fd[0]), what="the reference prefilter")
+        fzd, fpd, fkd = fmap.factors(fz, fp, float(fn[0] / fd[0]), what="the reference prefilter")
         prefilter, _ = _cascade(fzd, fpd, fkd, np.zeros(0, complex))
         kind = "prefilter"
     elif weights is not None:

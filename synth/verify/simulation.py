@@ -6,9 +6,9 @@ response call :func:`simulate_step` (through :func:`step_response` when the
 horizon comes from a problem's requirements).  :func:`realise` is the one
 state-space realisation of a transfer function.
 
-Why not :func:`scipy.signal.lsim`
----------------------------------
-``lsim`` integrates a rational system on a time grid that the caller fixes in
+Why not scipy's own simulation (:meth:`scipy.signal.lti.output`)
+----------------------------------------------------------------
+It integrates a rational system on a time grid that the caller fixes in
 advance.  The verdicts here need (a) the EXACT dead time, which no rational
 system holds: a Pade form would move the overshoot and the settling time;
 (b) samples that are exact for a step input however stiff the loop is, and
@@ -16,7 +16,7 @@ system holds: a Pade form would move the overshoot and the settling time;
 apart costs a few thousand samples instead of millions.  The step-invariant
 discretisation (matrix exponential, one per step size) gives (b) and (c);
 the delayed-input recursion with exact hold integrals gives (a).  Tests check
-both against :func:`scipy.signal.lsim`-type references (``TransferFunction.output``)
+both against :meth:`scipy.signal.lti.output` references
 and a high-order Pade loop.
 
 References
