@@ -277,10 +277,11 @@ def _verify_all(problem, cands, exact: bool, actuator: bool = True, depth: str =
 def _final_verification(problem, pairs, setup=None) -> tuple[list, dict[str, Any]]:
     """Re-verify, in rank order, every design that would be reported, until all of them are final.
 
-    The first pass verified every candidate quickly: the Pade form of a dead
-    time in the simulation, the actuator's limits left out.  A final verdict
-    has the exact delay and, with ``[actuator]``, the anti-windup finishing
-    stage (:func:`synth.windup.finish_anti_windup`) and the limited actuator.
+    The first pass verified every candidate quickly: the actuator's limits
+    left out and, with several plant models, only the nominal model evaluated
+    exactly (``depth="quick"``).  A final verdict evaluates every model and,
+    with ``[actuator]``, has the anti-windup finishing stage
+    (:func:`synth.windup.finish_anti_windup`) and the limited actuator.
     With an actuator the stage runs for at most :data:`FINISH_LIMIT` times
     ``search.keep`` designs; designs it could not reach are left out of the
     ranking (the JSON's ``search.anti_windup.limit_reached`` says so).

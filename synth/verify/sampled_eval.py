@@ -176,8 +176,8 @@ def _load_metrics(loop, t_end: float) -> dict:
     ``r = 0``; the output between the samples (``SampledLoop.simulate``), its peak ``|y|``
     and the integral of ``|y|`` by the trapezoid rule over the simulated points.  Without
     integral action the output does not return to 0 and the integral grows without bound:
-    ``None`` then (the steady output above a millionth of the peak).
-    HOOK(perf): the load metrics' catalogue entries judge these keys when they land.
+    ``None`` then (the steady output above a millionth of the peak).  The catalogue's
+    ``max_load_iae`` and ``max_load_peak`` judge these keys.
     """
     from scipy.integrate import trapezoid
 
